@@ -1,0 +1,166 @@
+"""The library's entry points: load, check, compile and score. The CLI is a thin layer on these.
+
+>>> from scoremon import api
+>>> spec = api.load_spec("tests/fixtures/small.yaml")
+>>> "CASE" in api.compile_sql(spec, table="applications")
+True
+"""
+from __future__ import annotations
+
+import re
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Sequence
+
+from sqlglot import exp
+
+from .compiler import compile_model, identifier, output_columns
+from .dialects import render_sql
+from .engines import DuckDBEngine, Engine, Progress, open_engine
+from .errors import InputError
+
+from .spec import fingerprint, load_spec
+from .spec.model import CategoricalFeature, Spec
+
+__all__ = ["ScoreResult", "compile_sql", "describe_source", "load_spec", "open_engine", "score", "source_relation"]
+
+NUMBER_TYPE = re.compile(r"^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|UTINYINT|USMALLINT|UINTEGER|UBIGINT|UHUGEINT|"
+                         r"FLOAT|DOUBLE|REAL|DECIMAL(\(.*\))?|NUMERIC(\(.*\))?|INT\d?|SMALLINT|DOUBLE PRECISION)$", re.I)
+INTEGER_TYPE = re.compile(r"^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|UTINYINT|USMALLINT|UINTEGER|UBIGINT|UHUGEINT|INT\d?)$", re.I)
+FLOAT_TYPE = re.compile(r"^(FLOAT|DOUBLE|REAL|DOUBLE PRECISION|FLOAT\d)$", re.I)
+TEXT_TYPE = re.compile(r"^(VARCHAR|TEXT|STRING|CHAR|BPCHAR|CHARACTER VARYING)(\(.*\))?$", re.I)
+
+
+def table_name(name: str) -> list[str]:
+    """``"schema.table"`` → ``["schema", "table"]``; each part is quoted when rendered."""
+    parts = name.split(".")
+    if not 1 <= len(parts) <= 2 or not all(parts):
+        raise InputError(f"table name {name!r} is not 'table' or 'schema.table'")
+    return parts
+
+
+def source_relation(table: str | None = None, file: str | Path | None = None) -> exp.Expression:
+    """What to read rows from: a table (``schema.table`` allowed) or a Parquet/CSV file."""
+    if (table is None) == (file is None):
+        raise InputError("give either a table or a file to read, not both and not neither")
+    if table is not None:
+        parts = table_name(table)
+        return exp.Table(this=identifier(parts[-1]), db=identifier(parts[0]) if len(parts) == 2 else None)
+    path = Path(file)
+    if not path.exists():
+        raise InputError(f"{path}: no such file; check the path")
+    suffix = path.suffix.lower()
+    reader = {".parquet": "read_parquet", ".csv": "read_csv", ".tsv": "read_csv"}.get(suffix)
+    if reader is None:
+        raise InputError(f"{path}: cannot read {suffix or 'files without an ending'}; give a .parquet or .csv file")
+    return exp.Anonymous(this=reader, expressions=[exp.Literal.string(str(path))])
+
+
+def describe_source(engine: Engine, source: exp.Expression) -> dict[str, str]:
+    """Column name → SQL type of a source."""
+    query = exp.select(exp.Star()).from_(source.copy())
+    return dict(engine.describe(render_sql(query, engine.dialect, pretty=False), "reading the input's columns"))
+
+
+def check_columns(spec: Spec, columns: dict[str, str], keys: Sequence[str]) -> list[str]:
+    """Every way the input's columns do not fit the spec, one message each (empty: all fit)."""
+    problems = []
+    for key in keys:
+        if key not in columns:
+            problems.append(f"key column {key!r} is not in the input{_nearest(key, columns)}")
+    for feature in spec.features:
+        name = feature.column or feature.name
+        kind = columns.get(name)
+        if kind is None:
+            problems.append(f"column {name!r} (feature {feature.name!r}) is not in the input{_nearest(name, columns)}")
+            continue
+        if isinstance(feature, CategoricalFeature):
+            values = [v for g in feature.groups for v in g.values] + list(feature.other.values)
+            wants_text = any(isinstance(v, str) for v in values)
+            if wants_text and not TEXT_TYPE.match(kind):
+                problems.append(f"column {name!r} (feature {feature.name!r}) is {kind} but the spec lists text "
+                                "categories; convert the column to text or list the categories as whole numbers")
+            elif not wants_text and not INTEGER_TYPE.match(kind):
+                problems.append(f"column {name!r} (feature {feature.name!r}) is {kind} but the spec lists whole-number "
+                                "categories; quote the categories in the spec to compare as text")
+        elif not NUMBER_TYPE.match(kind):
+            problems.append(f"column {name!r} (feature {feature.name!r}) is {kind}, not a number; "
+                            f"a {feature.type} feature needs a numeric column")
+    return problems
+
+
+def _nearest(name: str, columns) -> str:
+    from .spec.checks import suggest
+
+    return suggest(name, list(columns))
+
+
+def compile_sql(spec: Spec, dialect: str = "duckdb", table: str = "input", keys: Sequence[str] = (),
+                float_columns: Sequence[str] | None = None, pretty: bool = True) -> str:
+    """The scoring SQL for ``spec`` reading ``table``, as text for ``dialect``."""
+    tree = compile_model(spec, source_relation(table=table), keys, float_columns)
+    return render_sql(tree, dialect, pretty=pretty)
+
+
+@dataclass(frozen=True)
+class ScoreResult:
+    """What a scoring run did: rows written, where, how long, and the count per grade."""
+
+    rows: int
+    seconds: float
+    target: str
+    model_name: str
+    model_version: str
+    model_fingerprint: str
+    grade_counts: dict[str, int] = field(default_factory=dict)
+
+
+def score(
+    spec: Spec,
+    engine: Engine,
+    source: exp.Expression,
+    keys: Sequence[str] = (),
+    out_table: str | None = None,
+    out_file: str | Path | None = None,
+    progress: Progress | None = None,
+) -> ScoreResult:
+    """Score every row of ``source`` inside ``engine`` and write the result atomically.
+
+    Exactly one of ``out_table`` (a table in the engine's database, replaced whole) and
+    ``out_file`` (a Parquet file, replaced whole) is given. The input's columns are checked
+    against the spec before any work starts; :class:`InputError` lists every misfit.
+    """
+    if (out_table is None) == (out_file is None):
+        raise InputError("give either an output table or an output file, not both and not neither")
+    columns = describe_source(engine, source)
+    problems = check_columns(spec, columns, keys)
+    if problems:
+        raise InputError("the input does not fit the spec:\n" + "\n".join(f"  - {p}" for p in problems))
+    output_columns(spec, keys)  # a key colliding with an output column is an input error, found now
+    floats = [name for name, kind in columns.items() if FLOAT_TYPE.match(kind)]
+    sql = render_sql(compile_model(spec, source, keys, floats), engine.dialect, pretty=False)
+    started = time.perf_counter()
+    if out_table is not None:
+        parts = table_name(out_table)
+        engine.write_table(sql, parts, "writing the scored table", progress)
+        written = exp.Table(this=identifier(parts[-1]), db=identifier(parts[0]) if len(parts) == 2 else None)
+        target = out_table
+    else:
+        if not isinstance(engine, DuckDBEngine):
+            raise InputError("writing a Parquet file needs the DuckDB engine; write a table instead")
+        engine.write_parquet(sql, out_file, "writing the scored Parquet file", progress)
+        written = source_relation(file=out_file)
+        target = str(out_file)
+    seconds = time.perf_counter() - started
+    counts = grade_counts(engine, written)
+    return ScoreResult(sum(counts.values()), seconds, target, spec.model.name, spec.model.version,
+                       fingerprint(spec), counts)
+
+
+def grade_counts(engine: Engine, scored: exp.Expression) -> dict[str, int]:
+    """Rows per grade in a scored relation, ordered by grade name."""
+    grade = exp.column(identifier("grade"))
+    query = exp.select(grade, exp.Count(this=exp.Star())).from_(scored.copy()).group_by(grade).order_by(grade)
+    rows = engine.fetch(render_sql(query, engine.dialect, pretty=False), "counting rows per grade")
+    return {str(g): int(n) for g, n in rows}

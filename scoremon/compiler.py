@@ -1,0 +1,363 @@
+"""A validated spec becomes an engine-neutral sqlglot tree that scores every row.
+
+Nothing here writes SQL text: the tree is rendered by :mod:`scoremon.dialects`. Every name
+from a spec or a table becomes a quoted identifier and every value a literal, so no text
+from the user reaches SQL as code.
+
+The query reads the source once and runs through four steps (CTEs):
+
+``binned``   each feature's bin number (a CASE with NULL, NaN and ±inf tested first, then
+             half-open comparisons in edge order), and a linear feature's clipped value;
+``pointed``  bin labels and points by bin number, and η = intercept + Σ contributions;
+``totalled`` the score (base points + Σ points, rounded as the spec says) and, per reason
+             statement, its shortfall = reference − points of its features;
+``ranked``   each statement's rank among those with a positive shortfall (ties go to the
+             statement declared first), computed pairwise so that no engine needs arrays;
+then the final SELECT adds PD = 1 / (1 + e^(−η)) with η clamped to ±700 (EXP overflows to an
+error on PostgreSQL), the grade, reason 1..N and the model's identity.
+
+Portable choices, and why:
+* NaN is tested with ``x = CAST('NaN' AS DOUBLE)``: DuckDB, PostgreSQL and Spark all treat
+  NaN as equal to itself and larger than every number, so an untested NaN would fall into
+  the top bin.
+* Every number is ``CAST(<literal> AS DOUBLE)``: a bare ``0.1`` is DECIMAL on DuckDB and Spark,
+  and sums of DECIMALs would not give the same bits as double arithmetic.
+* Rounding is ``ROUND(CAST(x AS DECIMAL(38, 12)), 0)``: ROUND on a double rounds half to even
+  on PostgreSQL and half away from zero on DuckDB; on DECIMAL all three round half away.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Iterable, Mapping, Sequence
+
+from sqlglot import exp
+
+from .errors import InputError
+from .spec.canonical import fingerprint
+from .spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
+from .spec.terms import (
+    FeatureTerms,
+    base_points,
+    feature_terms,
+    linear_points_slope,
+    linear_slope,
+    numeric_bins_in_order,
+    special_routes,
+)
+
+ETA_CLAMP = 700.0  # e^700 is finite in double precision; e^710 is not
+INTERNAL = "__scoremon_"
+LINEAR_LOW, LINEAR_IN, LINEAR_HIGH, LINEAR_MISSING = 0, 1, 2, 3
+
+
+# ---------------------------------------------------------------- small tree builders
+
+def identifier(name: str) -> exp.Identifier:
+    return exp.to_identifier(name, quoted=True)
+
+
+def column(name: str, table: str | None = None) -> exp.Column:
+    return exp.Column(this=identifier(name), table=identifier(table) if table else None)
+
+
+def number(value: float) -> exp.Expression:
+    """A double literal: ``CAST(<repr> AS DOUBLE)`` (see the module docstring)."""
+    value = float(value)
+    text = repr(value)
+    literal = exp.Literal.number(text.lstrip("-"))
+    if text.startswith("-"):
+        literal = exp.Neg(this=literal)
+    return exp.Cast(this=literal, to=exp.DataType.build("DOUBLE"))
+
+
+def double_constant(name: str) -> exp.Expression:
+    """``CAST('NaN' AS DOUBLE)`` and friends."""
+    return exp.Cast(this=exp.Literal.string(name), to=exp.DataType.build("DOUBLE"))
+
+
+def integer(value: int) -> exp.Literal:
+    return exp.Literal.number(str(int(value)))
+
+
+def text(value: str) -> exp.Literal:
+    return exp.Literal.string(value)
+
+
+def category_literal(value) -> exp.Expression:
+    return integer(value) if isinstance(value, int) else text(value)
+
+
+def case(branches: Iterable[tuple[exp.Expression, exp.Expression]], default: exp.Expression | None = None) -> exp.Case:
+    return exp.Case(ifs=[exp.If(this=cond, true=value) for cond, value in branches], default=default)
+
+
+def by_bin(bin_column: exp.Expression, values: Sequence[exp.Expression]) -> exp.Case:
+    """``CASE bin WHEN 0 THEN v0 WHEN 1 THEN v1 … END`` as a searched CASE (portable everywhere)."""
+    return case(((exp.EQ(this=bin_column.copy(), expression=integer(i)), v) for i, v in enumerate(values[:-1])), values[-1])
+
+
+def total(terms: Sequence[exp.Expression]) -> exp.Expression:
+    """a + b + c, evaluated left to right (the order fixes the floating-point result)."""
+    result = terms[0]
+    for term in terms[1:]:
+        result = exp.Add(this=result, expression=term)
+    return result
+
+
+def round_half_away_sql(value: exp.Expression) -> exp.Expression:
+    """Round to a whole number, half away from zero, on every engine (see the docstring)."""
+    held = exp.Cast(this=value, to=exp.DataType.build("DECIMAL(38, 12)"))
+    rounded = exp.Round(this=held, decimals=integer(0))
+    return exp.Cast(this=rounded, to=exp.DataType.build("DOUBLE"))
+
+
+# ---------------------------------------------------------------- output names
+
+@dataclass(frozen=True)
+class OutputColumns:
+    """Names of the scored output's columns, in order."""
+
+    keys: tuple[str, ...]
+    features: tuple[tuple[str, str], ...]  # (bin column, points column) per feature
+    reasons: tuple[str, ...]
+
+    FIXED = ("score", "pd", "grade")
+    IDENTITY = ("model_name", "model_version", "model_fingerprint")
+
+    @property
+    def all(self) -> tuple[str, ...]:
+        flat = [name for pair in self.features for name in pair]
+        return self.keys + tuple(flat) + self.FIXED + self.reasons + self.IDENTITY
+
+
+def output_columns(spec: Spec, keys: Sequence[str] = ()) -> OutputColumns:
+    """The output column names for ``spec``; raises :class:`InputError` if a key collides."""
+    features = tuple((f"{f.name}_bin", f"{f.name}_points") for f in spec.features)
+    reasons = tuple(f"reason_{k}" for k in range(1, min(spec.reasons.count, len(spec.reasons.statements)) + 1))
+    columns = OutputColumns(tuple(keys), features, reasons)
+    seen: dict[str, str] = {}
+    for name in columns.all:
+        folded = name.casefold()
+        if folded in seen:
+            raise InputError(f"output column {name!r} would appear twice (key columns and scored columns share "
+                             "one namespace, compared ignoring case); rename or drop the key column")
+        seen[folded] = name
+    for key in keys:
+        if key.startswith(INTERNAL):
+            raise InputError(f"key column {key!r} uses the prefix {INTERNAL!r} reserved by scoremon; rename it")
+    return columns
+
+
+# ---------------------------------------------------------------- the scoring query
+
+def compile_model(
+    spec: Spec,
+    source: exp.Expression,
+    keys: Sequence[str] = (),
+    float_columns: Iterable[str] | None = None,
+) -> exp.Select:
+    """The scoring query for ``spec`` over ``source`` as an engine-neutral sqlglot tree.
+
+    ``source`` is anything that can stand in FROM (a table, a table function). ``keys`` are
+    passed through to the output first. ``float_columns`` names the input columns that can
+    hold NaN or ±inf (FLOAT/DOUBLE); when given, the NaN and infinity tests are left out for
+    the others, which cannot hold such values. ``None`` means every column may.
+
+    >>> from scoremon.spec import load_spec
+    >>> from scoremon.dialects import render_sql
+    >>> spec = load_spec("tests/fixtures/small.yaml")
+    >>> sql = render_sql(compile_model(spec, exp.to_table("applications")), "duckdb")
+    >>> sql.startswith("WITH")
+    True
+    """
+    names = output_columns(spec, keys)
+    floats = None if float_columns is None else set(float_columns)
+    terms = [feature_terms(spec, f) for f in spec.features]
+    fp = fingerprint(spec)
+
+    bin_col = [f"{INTERNAL}bin_{i}" for i in range(len(spec.features))]
+    value_col = [f"{INTERNAL}value_{i}" for i in range(len(spec.features))]
+    short_col = [f"{INTERNAL}shortfall_{r}" for r in range(len(spec.reasons.statements))]
+    rank_col = [f"{INTERNAL}rank_{r}" for r in range(len(spec.reasons.statements))]
+    eta = f"{INTERNAL}eta"
+    key_cols = [column(k) for k in keys]
+
+    # binned: bin numbers and clipped linear values
+    binned = [c.copy() for c in key_cols]
+    for i, feature in enumerate(spec.features):
+        source_column = feature.column or feature.name
+        x = column(source_column)
+        may_be_odd = floats is None or source_column in floats
+        if isinstance(feature, LinearFeature):
+            binned.append(exp.alias_(_linear_bin(feature, x, may_be_odd), bin_col[i], quoted=True))
+            binned.append(exp.alias_(_linear_value(feature, x, may_be_odd), value_col[i], quoted=True))
+        elif isinstance(feature, NumericFeature):
+            binned.append(exp.alias_(_numeric_bin(feature, terms[i], x, may_be_odd), bin_col[i], quoted=True))
+        else:
+            binned.append(exp.alias_(_categorical_bin(feature, terms[i], x), bin_col[i], quoted=True))
+    binned_query = exp.select(*binned).from_(source.copy())
+
+    # pointed: labels, points and η
+    pointed = [c.copy() for c in key_cols]
+    contributions = []
+    for i, feature in enumerate(spec.features):
+        b = column(bin_col[i])
+        label_name, points_name = names.features[i]
+        pointed.append(exp.alias_(_label(feature, terms[i], b), label_name, quoted=True))
+        pointed.append(exp.alias_(_points(spec, feature, terms[i], b, column(value_col[i])), points_name, quoted=True))
+        contributions.append(_contribution(feature, terms[i], b, column(value_col[i])))
+    pointed.append(exp.alias_(total([number(spec.intercept)] + contributions), eta, quoted=True))
+    pointed_query = exp.select(*pointed).from_(exp.to_table(identifier("binned")))
+
+    # totalled: score and reason shortfalls
+    carried = [column(n) for n in names.keys] + [column(n) for pair in names.features for n in pair]
+    score = total([number(base_points(spec))] + [column(points) for _, points in names.features])
+    if spec.scaling.rounding == "total":
+        score = round_half_away_sql(score)
+    totalled = [c.copy() for c in carried] + [column(eta), exp.alias_(score, "score", quoted=True)]
+    points_of = {f.name: column(names.features[i][1]) for i, f in enumerate(spec.features)}
+    max_of = {t.name: t.max_points for t in terms}
+    for r, statement in enumerate(spec.reasons.statements):
+        reference = statement.reference
+        if reference is None:
+            reference = max_of[statement.features[0]]
+            for name in statement.features[1:]:
+                reference = reference + max_of[name]
+        shortfall = exp.Sub(this=number(reference), expression=exp.paren(total([points_of[n].copy() for n in statement.features]), copy=False))
+        totalled.append(exp.alias_(shortfall, short_col[r], quoted=True))
+    totalled_query = exp.select(*totalled).from_(exp.to_table(identifier("pointed")))
+
+    # ranked: pairwise ranks of positive shortfalls
+    ranked = [c.copy() for c in carried] + [column(eta), column("score")]
+    for r in range(len(short_col)):
+        ranked.append(exp.alias_(_rank(r, short_col), rank_col[r], quoted=True))
+    ranked_query = exp.select(*ranked).from_(exp.to_table(identifier("totalled")))
+
+    # final
+    final = [c.copy() for c in carried] + [column("score")]
+    final.append(exp.alias_(_probability(column(eta)), "pd", quoted=True))
+    final.append(exp.alias_(_grade(spec, column("score")), "grade", quoted=True))
+    for k, name in enumerate(names.reasons, start=1):
+        branches = [(exp.EQ(this=column(rank_col[r]), expression=integer(k)), text(s.code))
+                    for r, s in enumerate(spec.reasons.statements)]
+        final.append(exp.alias_(case(branches, exp.Null()), name, quoted=True))
+    final.append(exp.alias_(text(spec.model.name), "model_name", quoted=True))
+    final.append(exp.alias_(text(spec.model.version), "model_version", quoted=True))
+    final.append(exp.alias_(text(fp), "model_fingerprint", quoted=True))
+
+    query = exp.select(*final).from_(exp.to_table(identifier("ranked")))
+    for name, body in (("binned", binned_query), ("pointed", pointed_query),
+                       ("totalled", totalled_query), ("ranked", ranked_query)):
+        query = query.with_(identifier(name), as_=body, copy=False)
+    return query
+
+
+# ---------------------------------------------------------------- per-feature pieces
+
+def _odd_value_tests(x: exp.Expression, routes: Mapping[str, int]) -> list[tuple[exp.Expression, exp.Expression]]:
+    return [
+        (exp.EQ(this=x.copy(), expression=double_constant("NaN")), integer(routes["nan"])),
+        (exp.EQ(this=x.copy(), expression=double_constant("Infinity")), integer(routes["positive_infinity"])),
+        (exp.EQ(this=x.copy(), expression=double_constant("-Infinity")), integer(routes["negative_infinity"])),
+    ]
+
+
+def _numeric_bin(feature: NumericFeature, terms: FeatureTerms, x: exp.Expression, may_be_odd: bool) -> exp.Case:
+    missing = len(terms.bins) - 1
+    branches = [(exp.Is(this=x.copy(), expression=exp.Null()), integer(missing))]
+    if may_be_odd:
+        routes = {key: terms.index(label) for key, label in special_routes(feature).items()}
+        branches += _odd_value_tests(x, routes)
+    ordered = numeric_bins_in_order(feature)
+    compare = exp.LT if feature.closed == "lower" else exp.LTE
+    for i, b in enumerate(ordered[:-1]):
+        branches.append((compare(this=x.copy(), expression=number(b.upper)), integer(i)))
+    return case(branches, integer(len(ordered) - 1))
+
+
+def _categorical_bin(feature: CategoricalFeature, terms: FeatureTerms, x: exp.Expression) -> exp.Case:
+    branches = [(exp.Is(this=x.copy(), expression=exp.Null()), integer(len(terms.bins) - 1))]
+    groups = {g.label: g for g in feature.groups}
+    for i, term in enumerate(terms.bins[:-2]):
+        values = [category_literal(v) for v in groups[term.label].values]
+        branches.append((exp.In(this=x.copy(), expressions=values), integer(i)))
+    return case(branches, integer(len(terms.bins) - 2))
+
+
+def _linear_bin(feature: LinearFeature, x: exp.Expression, may_be_odd: bool) -> exp.Case:
+    missing = [(exp.Is(this=x.copy(), expression=exp.Null()), integer(LINEAR_MISSING))]
+    if may_be_odd:
+        missing.append((exp.EQ(this=x.copy(), expression=double_constant("NaN")), integer(LINEAR_MISSING)))
+    return case(missing + [
+        (exp.LT(this=x.copy(), expression=number(feature.lower)), integer(LINEAR_LOW)),
+        (exp.GT(this=x.copy(), expression=number(feature.upper)), integer(LINEAR_HIGH)),
+    ], integer(LINEAR_IN))
+
+
+def _linear_value(feature: LinearFeature, x: exp.Expression, may_be_odd: bool) -> exp.Case:
+    """clip(x) as a double; NULL where x is missing (the bin number then says so)."""
+    missing = [(exp.Is(this=x.copy(), expression=exp.Null()), exp.Null())]
+    if may_be_odd:
+        missing.append((exp.EQ(this=x.copy(), expression=double_constant("NaN")), exp.Null()))
+    return case(missing + [
+        (exp.LT(this=x.copy(), expression=number(feature.lower)), number(feature.lower)),
+        (exp.GT(this=x.copy(), expression=number(feature.upper)), number(feature.upper)),
+    ], exp.Cast(this=x.copy(), to=exp.DataType.build("DOUBLE")))
+
+
+def _label(feature, terms: FeatureTerms, b: exp.Expression) -> exp.Case:
+    if isinstance(feature, LinearFeature):
+        from .spec.model import LINEAR_LABELS  # noqa: PLC0415 - a constant, kept with the model
+        labels = list(LINEAR_LABELS) + [terms.bins[0].label]
+    else:
+        labels = [t.label for t in terms.bins]
+    return by_bin(b, [text(label) for label in labels])
+
+
+def _centred(feature: LinearFeature, value: exp.Expression) -> exp.Expression:
+    return exp.paren(exp.Sub(this=value, expression=number(feature.center)), copy=False)
+
+
+def _points(spec: Spec, feature, terms: FeatureTerms, b: exp.Expression, value: exp.Expression) -> exp.Expression:
+    if isinstance(feature, LinearFeature):
+        points = exp.Mul(this=number(linear_points_slope(spec, feature)), expression=_centred(feature, value))
+        if spec.scaling.rounding == "per_bin":
+            points = round_half_away_sql(points)
+        return case([(exp.EQ(this=b, expression=integer(LINEAR_MISSING)), number(terms.bins[0].points))], points)
+    return by_bin(b, [number(t.points) for t in terms.bins])
+
+
+def _contribution(feature, terms: FeatureTerms, b: exp.Expression, value: exp.Expression) -> exp.Expression:
+    if isinstance(feature, LinearFeature):
+        linear = exp.Mul(this=number(linear_slope(feature)), expression=_centred(feature, value))
+        return case([(exp.EQ(this=b, expression=integer(LINEAR_MISSING)), number(terms.bins[0].log_odds))], linear)
+    return by_bin(b, [number(t.log_odds) for t in terms.bins])
+
+
+def _rank(r: int, short_col: Sequence[str]) -> exp.Expression:
+    mine = column(short_col[r])
+    ahead = []
+    for q, name in enumerate(short_col):
+        if q == r:
+            continue
+        beats = exp.GT(this=column(name), expression=mine.copy())
+        if q < r:  # an equal shortfall declared earlier also ranks ahead
+            beats = exp.or_(beats, exp.EQ(this=column(name), expression=mine.copy()), copy=False)
+        ahead.append(case([(beats, integer(1))], integer(0)))
+    rank = total([integer(1)] + ahead)
+    return case([(exp.GT(this=mine.copy(), expression=number(0.0)), rank)], exp.Null())
+
+
+def _probability(eta: exp.Expression) -> exp.Expression:
+    clamped = case([
+        (exp.GT(this=eta.copy(), expression=number(ETA_CLAMP)), number(ETA_CLAMP)),
+        (exp.LT(this=eta.copy(), expression=number(-ETA_CLAMP)), number(-ETA_CLAMP)),
+    ], eta.copy())
+    denominator = exp.Add(this=number(1.0), expression=exp.Exp(this=exp.Neg(this=exp.paren(clamped, copy=False))))
+    return exp.Div(this=number(1.0), expression=exp.paren(denominator, copy=False))
+
+
+def _grade(spec: Spec, score: exp.Expression) -> exp.Case:
+    grades = sorted(spec.grades, key=lambda g: g.lower, reverse=True)
+    branches = [(exp.GTE(this=score.copy(), expression=number(g.lower)), text(g.name)) for g in grades[:-1]]
+    return case(branches, text(grades[-1].name))

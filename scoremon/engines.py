@@ -1,0 +1,170 @@
+"""The only module that talks to a database.
+
+A small connection protocol (:class:`Engine`): run a statement, fetch rows, describe a
+query's columns, and write a query's result atomically to a table or a Parquet file. DuckDB
+implements it here; other engines implement the same methods.
+"""
+from __future__ import annotations
+
+import os
+import threading
+import uuid
+from pathlib import Path
+from typing import Callable, Protocol
+
+import pandas as pd
+
+from .errors import EngineError, InputError
+
+Progress = Callable[[float], None]  # called with the share done, 0.0 to 1.0
+
+
+class Engine(Protocol):
+    """What scoremon needs from a SQL engine."""
+
+    dialect: str
+
+    def execute(self, sql: str, purpose: str) -> None: ...
+
+    def fetch(self, sql: str, purpose: str, progress: Progress | None = None) -> list[tuple]: ...
+
+    def fetch_frame(self, sql: str, purpose: str) -> pd.DataFrame: ...
+
+    def describe(self, sql: str, purpose: str) -> list[tuple[str, str]]: ...
+
+    def write_table(self, sql: str, table: list[str], purpose: str, progress: Progress | None = None) -> None: ...
+
+    def close(self) -> None: ...
+
+
+class DuckDBEngine:
+    """DuckDB, in memory or in a database file.
+
+    >>> engine = DuckDBEngine(":memory:")
+    >>> engine.fetch("SELECT 1 + 1", "arithmetic")
+    [(2,)]
+    """
+
+    dialect = "duckdb"
+
+    def __init__(self, database: str = ":memory:", threads: int | None = None, memory_limit: str | None = None):
+        import duckdb
+
+        self._duckdb = duckdb
+        self.database = database
+        try:
+            self.connection = duckdb.connect(database)
+        except duckdb.Error as error:
+            raise EngineError("opening the database", f"duckdb {database}", str(error)) from error
+        if threads:
+            self.connection.execute(f"SET threads = {int(threads)}")
+        if memory_limit:
+            self.connection.execute(f"SET memory_limit = '{_plain_size(memory_limit)}'")
+
+    # -- the protocol
+
+    def execute(self, sql: str, purpose: str) -> None:
+        self._run(lambda: self.connection.execute(sql), purpose)
+
+    def fetch(self, sql: str, purpose: str, progress: Progress | None = None) -> list[tuple]:
+        return self._run(lambda: self.connection.execute(sql).fetchall(), purpose, progress)
+
+    def fetch_frame(self, sql: str, purpose: str) -> pd.DataFrame:
+        return self._run(lambda: self.connection.execute(sql).df(), purpose)
+
+    def describe(self, sql: str, purpose: str) -> list[tuple[str, str]]:
+        rows = self._run(lambda: self.connection.execute(f"DESCRIBE {sql}").fetchall(), purpose)
+        return [(row[0], row[1]) for row in rows]
+
+    def write_table(self, sql: str, table: list[str], purpose: str, progress: Progress | None = None) -> None:
+        """Replace ``table`` with the result of ``sql`` in one transaction: all or nothing."""
+        from sqlglot import exp
+
+        target = exp.Table(this=exp.to_identifier(table[-1], quoted=True),
+                           db=exp.to_identifier(table[-2], quoted=True) if len(table) > 1 else None)
+        statement = f"CREATE OR REPLACE TABLE {target.sql(dialect='duckdb', identify=True)} AS {sql}"
+
+        def work():
+            self.connection.execute("BEGIN TRANSACTION")
+            try:
+                self.connection.execute(statement)
+                self.connection.execute("COMMIT")
+            except BaseException:
+                self.connection.execute("ROLLBACK")
+                raise
+
+        self._run(work, purpose, progress)
+
+    def write_parquet(self, sql: str, path: str | Path, purpose: str, progress: Progress | None = None) -> None:
+        """Write the result of ``sql`` to a Parquet file; the file appears whole or not at all."""
+        path = Path(path)
+        if not path.parent.exists():
+            raise InputError(f"{path}: folder {path.parent} does not exist; create it or choose another path")
+        temporary = path.with_name(f".{path.name}.{uuid.uuid4().hex}.partial")
+        literal = "'" + str(temporary).replace("'", "''") + "'"
+        try:
+            self._run(lambda: self.connection.execute(f"COPY ({sql}) TO {literal} (FORMAT PARQUET)"), purpose, progress)
+            os.replace(temporary, path)
+        finally:
+            if temporary.exists():
+                temporary.unlink()
+
+    def close(self) -> None:
+        self.connection.close()
+
+    # -- helpers
+
+    def _run(self, work, purpose: str, progress: Progress | None = None):
+        watcher = _ProgressWatcher(self.connection, progress) if progress else None
+        try:
+            if watcher:
+                watcher.start()
+            return work()
+        except self._duckdb.Error as error:
+            raise EngineError(purpose, "duckdb", str(error).splitlines()[0]) from error
+        finally:
+            if watcher:
+                watcher.stop()
+
+
+def _plain_size(text: str) -> str:
+    if not text.replace(" ", "").replace(".", "").isalnum():
+        raise InputError(f"memory limit {text!r} is not a size such as '2GB'")
+    return text
+
+
+class _ProgressWatcher:
+    """Polls DuckDB's progress of the running query from a second thread."""
+
+    def __init__(self, connection, report: Progress, every: float = 0.2):
+        self.connection, self.report, self.every = connection, report, every
+        self._done = threading.Event()
+        self._thread = threading.Thread(target=self._poll, daemon=True)
+
+    def start(self) -> None:
+        self._thread.start()
+
+    def stop(self) -> None:
+        self._done.set()
+        self._thread.join()
+        self.report(1.0)
+
+    def _poll(self) -> None:
+        while not self._done.wait(self.every):
+            try:
+                share = self.connection.query_progress()
+            except Exception:  # noqa: BLE001 - progress is best effort, never fails the query
+                return
+            if share is not None and share >= 0:
+                self.report(min(share / 100.0, 1.0))
+
+
+def open_engine(url: str | None = None, threads: int | None = None, memory_limit: str | None = None) -> DuckDBEngine:
+    """The engine named by ``url``: a DuckDB file path or ``:memory:`` (the default)."""
+    if url is None or url in ("", ":memory:", "duckdb://", "duckdb:///:memory:"):
+        return DuckDBEngine(":memory:", threads, memory_limit)
+    if url.startswith("duckdb://"):
+        url = url[len("duckdb://"):]
+    if "://" in url:
+        raise InputError(f"engine URL {url!r} is not one scoremon knows; give a DuckDB file path or :memory:")
+    return DuckDBEngine(url, threads, memory_limit)

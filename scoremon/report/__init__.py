@@ -1,0 +1,1 @@
+"""Renderings of result records for people (terminal) and for pipelines (JSON, Markdown)."""

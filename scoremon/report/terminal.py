@@ -1,0 +1,76 @@
+"""Terminal output: the only module that imports rich.
+
+Everything here takes a result record and prints it; nothing computes. Output fits an
+80-column terminal and uses a wider one when there is one.
+"""
+from __future__ import annotations
+
+import sys
+from contextlib import contextmanager
+from typing import Iterator
+
+from rich.console import Console
+from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+from rich.table import Table
+
+from .cautions import CAUTIONS
+
+out = Console(highlight=False, soft_wrap=False)
+err = Console(stderr=True, highlight=False)
+
+
+def print_problems(lines: list[str]) -> None:
+    """One line per problem, on standard error, no traceback."""
+    for line in lines:
+        err.print(line, markup=False, soft_wrap=True)
+
+
+def print_text(text: str) -> None:
+    out.print(text, markup=False, soft_wrap=True)
+
+
+def print_check_ok(path: str, spec, fingerprint: str) -> None:
+    m = spec.model
+    out.print(f"[green]ok[/green] {path}: {m.name} version {m.version}, {len(spec.features)} features, "
+              f"{len(spec.grades)} grades, fingerprint {fingerprint}", soft_wrap=True)
+
+
+@contextmanager
+def progress_bar(description: str) -> Iterator:
+    """A progress bar on standard error; yields a callback taking the share done (0 to 1)."""
+    if not err.is_terminal:
+        yield None
+        return
+    with Progress(TextColumn("{task.description}"), BarColumn(), TextColumn("{task.percentage:>3.0f}%"),
+                  TimeElapsedColumn(), console=err, transient=True) as bar:
+        task = bar.add_task(description, total=1.0)
+        yield lambda share: bar.update(task, completed=share)
+
+
+def grade_table(counts: dict[str, int], title: str = "rows by grade") -> Table:
+    total = sum(counts.values()) or 1
+    table = Table(title=title, title_justify="left", show_edge=False, pad_edge=False)
+    table.add_column("grade")
+    table.add_column("rows", justify="right")
+    table.add_column("share", justify="right")
+    table.add_column("", min_width=10, max_width=30)
+    widest = max(counts.values(), default=1) or 1
+    for grade, rows in counts.items():
+        bar = "#" * max(1, round(20 * rows / widest)) if rows else ""
+        table.add_row(grade, f"{rows:,}", f"{rows / total:6.1%}", bar)
+    return table
+
+
+def print_score_result(result) -> None:
+    out.print(f"scored {result.rows:,} rows with {result.model_name} version {result.model_version} "
+              f"(fingerprint {result.model_fingerprint}) into {result.target} in {result.seconds:.2f} s",
+              soft_wrap=True)
+    out.print(grade_table(result.grade_counts))
+
+
+def print_cautions() -> None:
+    out.print(f"[dim]{CAUTIONS}[/dim]", soft_wrap=False)
+
+
+def stream_is_terminal() -> bool:
+    return sys.stdout.isatty()

@@ -1,0 +1,56 @@
+"""The canonical form of a validated spec and its semantic fingerprint.
+
+The canonical form is the spec as data with every default filled in, every implied label and
+route resolved, and every order that carries no meaning fixed (numeric bins by lower edge,
+category groups by label, values sorted, grades by lower edge). Its SHA-256 is the
+fingerprint: reformatting the YAML, reordering keys or bins keeps it; any change that can
+alter an output changes it. The baseline is reference data about the development sample,
+not part of the model, and is left out.
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+
+from .model import CategoricalFeature, NumericFeature, Spec
+from .terms import interval_label, numeric_bins_in_order, special_routes
+
+FINGERPRINT_LENGTH = 16
+
+
+def _sorted_values(values) -> list:
+    return sorted(values, key=lambda v: (isinstance(v, str), v))
+
+
+def _feature(feature) -> dict:
+    data = feature.model_dump(mode="json")
+    data["column"] = feature.column or feature.name
+    if isinstance(feature, NumericFeature):
+        bins = []
+        for b in numeric_bins_in_order(feature):
+            item = b.model_dump(mode="json")
+            item["label"] = b.label or interval_label(b.lower, b.upper, feature.closed)
+            bins.append(item)
+        data["bins"] = bins
+        data.update(special_routes(feature))
+    elif isinstance(feature, CategoricalFeature):
+        groups = sorted((g.model_dump(mode="json") for g in feature.groups), key=lambda g: g["label"])
+        for group in groups:
+            group["values"] = _sorted_values(group["values"])
+        data["groups"] = groups
+        data["other"]["values"] = _sorted_values(data["other"]["values"])
+    return data
+
+
+def canonical_form(spec: Spec) -> dict:
+    """The spec as plain data in canonical form (see the module docstring)."""
+    data = spec.model_dump(mode="json", exclude={"baseline"})
+    data["features"] = [_feature(f) for f in spec.features]
+    data["grades"] = sorted(data["grades"], key=lambda g: g["lower"])
+    return data
+
+
+def fingerprint(spec: Spec) -> str:
+    """The first 16 hex digits of the SHA-256 of the canonical form."""
+    text = json.dumps(canonical_form(spec), sort_keys=True, separators=(",", ":"), allow_nan=True)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()[:FINGERPRINT_LENGTH]

@@ -1,0 +1,248 @@
+"""The typed model of a spec: frozen pydantic classes, one per part of the YAML file.
+
+This module says what each key holds (types, required or optional, defaults). Rules that
+span several keys (bins cover the line, a category sits in one group, grades cover every
+score) live in :mod:`scoremon.spec.checks`, which runs after these classes accept a file.
+
+The semantics a reviewer needs, in one place:
+
+* η (the linear predictor) is the log-odds of the event: η = intercept + Σ contributions.
+  PD = 1 / (1 + e^(−η)).
+* A bin's contribution to η is ``coefficient × woe``, or ``log_odds`` directly, or, for a
+  bin given in ``points``, ``−points / factor``.
+* factor = pdo / ln 2; offset = base_score − factor · ln(base_odds), odds being good:bad.
+  score = offset − factor · η, written as base points plus one points value per feature.
+"""
+from __future__ import annotations
+
+import math
+from datetime import date
+from typing import Annotated, Any, Literal, Union
+
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, FiniteFloat
+from pydantic_core import PydanticCustomError
+
+FEATURE_TYPES = ("numeric", "categorical", "linear")
+LINEAR_LABELS = ("clipped_low", "in_range", "clipped_high")
+
+
+def _text_from_number(value: Any) -> Any:
+    """Let ``version: 2`` mean the text "2" (YAML reads it as a number)."""
+    if isinstance(value, bool):
+        raise PydanticCustomError("text_type", "expected text, got {value}", {"value": value})
+    if isinstance(value, (int, float)):
+        return str(value)
+    return value
+
+
+def _category_value(value: Any) -> Any:
+    if isinstance(value, bool) or not isinstance(value, (str, int)):
+        raise PydanticCustomError(
+            "category_type",
+            "category value {value!r} is neither text nor a whole number; quote it to make it text",
+            {"value": value},
+        )
+    return value
+
+
+def _edge(value: Any) -> Any:
+    """Bin and grade edges: a number, or .inf / -.inf for an open end. NaN is refused."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise PydanticCustomError("edge_type", "expected a number (or .inf / -.inf), got {value!r}", {"value": value})
+    if math.isnan(value):
+        raise PydanticCustomError("edge_nan", "an edge cannot be .nan; use a number, .inf or -.inf", {})
+    return float(value)
+
+
+Text = Annotated[str, BeforeValidator(_text_from_number)]
+CategoryValue = Annotated[Union[str, int], BeforeValidator(_category_value)]
+Edge = Annotated[float, BeforeValidator(_edge)]
+
+
+class Part(BaseModel):
+    """Base of every spec part: immutable, and unknown keys are errors (typos are caught)."""
+
+    model_config = ConfigDict(frozen=True, extra="forbid")
+
+
+class Identity(Part):
+    """Who the model is, what it predicts and over which window outcomes mature."""
+
+    name: str = Field(min_length=1)
+    version: Text = Field(min_length=1)
+    description: str = ""
+    owner: str = Field(min_length=1)
+    effective_date: date
+    intended_use: str = Field(min_length=1)
+    event: str = Field(min_length=1, description="the event (target) definition; y = 1")
+    performance_window_months: int = Field(ge=1, le=120)
+
+
+class Scaling(Part):
+    """How η becomes a score: base score at base odds (good:bad), points to double the odds."""
+
+    base_score: FiniteFloat
+    base_odds: FiniteFloat = Field(gt=0)
+    pdo: FiniteFloat = Field(gt=0)
+    rounding: Literal["none", "per_bin", "total"] = "none"
+
+    @property
+    def factor(self) -> float:
+        return self.pdo / math.log(2.0)
+
+    @property
+    def offset(self) -> float:
+        return self.base_score - self.factor * math.log(self.base_odds)
+
+
+class Value(Part):
+    """What a bin adds to the model: exactly one of woe, log_odds or points."""
+
+    woe: FiniteFloat | None = None
+    log_odds: FiniteFloat | None = None
+    points: FiniteFloat | None = None
+
+    @property
+    def value_kind(self) -> str | None:
+        given = [k for k in ("woe", "log_odds", "points") if getattr(self, k) is not None]
+        return given[0] if len(given) == 1 else None
+
+
+class NumericBin(Value):
+    """An interval of a numeric feature; which end is closed is the feature's ``closed``."""
+
+    label: str | None = None
+    lower: Edge
+    upper: Edge
+
+
+class CategoryGroup(Value):
+    """A group of category values that share one bin."""
+
+    label: str = Field(min_length=1)
+    values: list[CategoryValue] = Field(min_length=1)
+
+
+class OtherGroup(Value):
+    """The catch-all bin: listed values plus every value no group lists (unseen ones)."""
+
+    label: str = Field(default="other", min_length=1)
+    values: list[CategoryValue] = Field(default_factory=list)
+
+
+class MissingBin(Value):
+    """Where NULL goes (and NaN, unless the feature routes NaN elsewhere)."""
+
+    label: str = Field(default="missing", min_length=1)
+
+
+class NumericFeature(Part):
+    """A numeric characteristic cut into half-open intervals that cover the whole line."""
+
+    name: str
+    type: Literal["numeric"]
+    column: str | None = None
+    description: str = ""
+    closed: Literal["lower", "upper"] = Field(
+        default="lower", description="lower: bins are [lower, upper); upper: bins are (lower, upper]"
+    )
+    coefficient: FiniteFloat | None = None
+    bins: list[NumericBin] = Field(min_length=1)
+    missing: MissingBin
+    nan: str | None = Field(default=None, description="label of the bin NaN goes to; default: the missing bin")
+    positive_infinity: str | None = Field(default=None, description="label of the bin +inf goes to; default: the top bin")
+    negative_infinity: str | None = Field(default=None, description="label of the bin -inf goes to; default: the bottom bin")
+
+
+class CategoricalFeature(Part):
+    """A categorical characteristic: values in groups, a declared catch-all, a missing bin."""
+
+    name: str
+    type: Literal["categorical"]
+    column: str | None = None
+    description: str = ""
+    coefficient: FiniteFloat | None = None
+    groups: list[CategoryGroup] = Field(min_length=1)
+    other: OtherGroup
+    missing: MissingBin
+
+
+class LinearFeature(Part):
+    """A numeric characteristic entering η as coefficient × (clip(x) − center) / scale.
+
+    NaN and NULL take the missing bin; +inf and −inf are clipped like any value past the
+    bounds. Rows are labelled clipped_low, in_range or clipped_high (or the missing label).
+    """
+
+    name: str
+    type: Literal["linear"]
+    column: str | None = None
+    description: str = ""
+    coefficient: FiniteFloat
+    lower: FiniteFloat
+    upper: FiniteFloat
+    center: FiniteFloat = 0.0
+    scale: FiniteFloat = 1.0
+    missing: MissingBin
+
+
+Feature = Annotated[Union[NumericFeature, CategoricalFeature, LinearFeature], Field(discriminator="type")]
+
+
+class Grade(Part):
+    """A score band [lower, upper) with a name."""
+
+    name: str = Field(min_length=1)
+    lower: Edge
+    upper: Edge
+
+
+class ReasonStatement(Part):
+    """A reason a score is low, owned by one feature or a group of features."""
+
+    code: Text = Field(min_length=1)
+    text: str = Field(min_length=1)
+    features: list[str] = Field(min_length=1)
+    reference: FiniteFloat | None = Field(
+        default=None, description="points the features are compared with; default: the sum of their maximum points"
+    )
+
+
+class Reasons(Part):
+    """How many reasons to return per row and the statements to choose them from."""
+
+    count: int = Field(default=3, ge=0, le=10)
+    statements: list[ReasonStatement] = Field(default_factory=list)
+
+
+class BaselineBand(Part):
+    """The development share of one score band."""
+
+    lower: Edge
+    upper: Edge
+    share: FiniteFloat = Field(ge=0, le=1)
+
+
+class Baseline(Part):
+    """The development distribution, frozen so monitoring compares with what was approved."""
+
+    computed_from: str = ""
+    computed_at: str = ""
+    rows: int = Field(ge=0)
+    event_rate: FiniteFloat | None = None
+    auc: FiniteFloat | None = None
+    ks: FiniteFloat | None = None
+    score_bands: list[BaselineBand] = Field(default_factory=list)
+    feature_shares: dict[str, dict[str, FiniteFloat]] = Field(default_factory=dict)
+
+
+class Spec(Part):
+    """One version of a scoring model, as written in its YAML file."""
+
+    model: Identity
+    intercept: FiniteFloat
+    scaling: Scaling
+    features: list[Feature] = Field(min_length=1)
+    grades: list[Grade] = Field(min_length=1)
+    reasons: Reasons = Field(default_factory=Reasons)
+    baseline: Baseline | None = None

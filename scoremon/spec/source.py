@@ -1,0 +1,136 @@
+"""Reading a spec file: YAML text to plain Python data, with the line and column of every key.
+
+PyYAML's composer keeps a mark on every node; we walk the node tree ourselves so that each
+path (``("features", 2, "bins", 1, "upper")``) maps to where it stands in the file. Validation
+errors are then reported at the exact key a user must edit.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import yaml
+
+from ..errors import Problem, SpecError
+
+@dataclass
+class SpecSource:
+    """A parsed spec file: the data and where each part of it stands."""
+
+    data: Any
+    file: str
+    key_marks: dict[tuple, tuple[int, int]] = field(default_factory=dict)
+    value_marks: dict[tuple, tuple[int, int]] = field(default_factory=dict)
+
+    def locate(self, path: tuple) -> tuple[int, int]:
+        """Line and column (1-based) of the deepest part of ``path`` present in the file."""
+        path = tuple(path)
+        while path:
+            for marks in (self.key_marks, self.value_marks):
+                if path in marks:
+                    return marks[path]
+            path = path[:-1]
+        return self.value_marks.get((), (1, 1))
+
+    def locate_value(self, path: tuple) -> tuple[int, int]:
+        """Like :meth:`locate`, but prefer the value's own position over its key's."""
+        path = tuple(path)
+        if path in self.value_marks:
+            return self.value_marks[path]
+        return self.locate(path)
+
+    def problem(self, path: tuple, message: str, *, at_value: bool = False) -> Problem:
+        line, column = self.locate_value(path) if at_value else self.locate(path)
+        return Problem(line, column, format_path(path), message, self.file)
+
+
+def format_path(path: tuple) -> str:
+    """``("features", 2, "bins")`` → ``features[2].bins``."""
+    text = ""
+    for part in path:
+        if isinstance(part, int):
+            text += f"[{part}]"
+        else:
+            text += f".{part}" if text else str(part)
+    return text
+
+
+def read_spec_text(text: str, file: str = "<spec>") -> SpecSource:
+    """Parse YAML text into a :class:`SpecSource`. Raises :class:`SpecError` on bad YAML."""
+    try:
+        node = yaml.compose(text, Loader=yaml.SafeLoader)
+    except yaml.MarkedYAMLError as error:
+        mark = error.problem_mark or error.context_mark
+        line, column = (mark.line + 1, mark.column + 1) if mark else (1, 1)
+        what = error.problem or str(error)
+        raise SpecError([Problem(line, column, "", f"not valid YAML: {what}; fix the syntax at this point", file)]) from error
+    except yaml.YAMLError as error:
+        raise SpecError([Problem(1, 1, "", f"not valid YAML: {error}", file)]) from error
+    source = SpecSource(data=None, file=file)
+    if node is None:
+        raise SpecError([Problem(1, 1, "", "the file is empty; a spec needs at least model, intercept, scaling, features and grades", file)])
+    problems: list[Problem] = []
+    source.data = _build(node, (), source, problems)
+    if problems:
+        raise SpecError(problems)
+    return source
+
+
+def read_spec_file(path: str | Path) -> SpecSource:
+    """Read and parse a spec file. Raises :class:`SpecError` when it is missing or not YAML."""
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError as error:
+        raise SpecError([Problem(1, 1, "", "no such file; check the path", str(path))]) from error
+    except (OSError, UnicodeDecodeError) as error:
+        raise SpecError([Problem(1, 1, "", f"cannot read the file: {error}", str(path))]) from error
+    return read_spec_text(text, str(path))
+
+
+def _mark(node: yaml.Node) -> tuple[int, int]:
+    return node.start_mark.line + 1, node.start_mark.column + 1
+
+
+def _build(node: yaml.Node, path: tuple, source: SpecSource, problems: list[Problem]) -> Any:
+    source.value_marks[path] = _mark(node)
+    if isinstance(node, yaml.MappingNode):
+        result: dict[Any, Any] = {}
+        for key_node, value_node in node.value:
+            key = _scalar(key_node)
+            if not isinstance(key, (str, int)) or isinstance(key, bool):
+                line, column = _mark(key_node)
+                problems.append(Problem(line, column, format_path(path), f"key {key!r} is not a plain name; use a word as the key", source.file))
+                continue
+            key = str(key)
+            child = path + (key,)
+            if key in result:
+                line, column = _mark(key_node)
+                first = source.key_marks[child][0]
+                problems.append(Problem(line, column, format_path(child), f"key appears twice (first on line {first}); keep one", source.file))
+                continue
+            source.key_marks[child] = _mark(key_node)
+            result[key] = _build(value_node, child, source, problems)
+        return result
+    if isinstance(node, yaml.SequenceNode):
+        items = []
+        for position, item in enumerate(node.value):
+            child = path + (position,)
+            source.key_marks[child] = _mark(item)
+            items.append(_build(item, child, source, problems))
+        return items
+    return _scalar(node)
+
+
+_CONSTRUCTOR = yaml.SafeLoader("")
+
+
+def _scalar(node: yaml.Node) -> Any:
+    """A scalar's Python value (int, float, str, bool, date or None) by YAML's safe rules."""
+    if not isinstance(node, yaml.ScalarNode):
+        return node  # a mapping or list used as a key; reported by the caller
+    try:
+        return _CONSTRUCTOR.construct_object(node, deep=True)
+    except (ValueError, yaml.YAMLError):
+        return node.value  # e.g. an impossible date: validation reports it with its position

@@ -1,0 +1,146 @@
+"""What each bin of a validated spec adds to η and to the score.
+
+Every consumer (compiler, diff, monitor, tests) reads bins through these terms so that the
+arithmetic is written once. Conventions (they fix every floating-point operation, so the SQL
+and any reference computation give the same bits):
+
+* contribution to η: ``coefficient * woe``, ``log_odds``, or ``-(points / factor)``;
+* points: ``-(factor * contribution)``, or the given ``points`` as written;
+* with ``rounding: per_bin`` points are rounded half away from zero (:func:`round_half_away`);
+* base points = ``offset - factor * intercept`` (rounded too under ``per_bin``);
+* a linear feature contributes ``slope * (clip(x) - center)`` with ``slope = coefficient / scale``
+  and scores ``points_slope * (clip(x) - center)`` with ``points_slope = -(factor * slope)``.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from decimal import ROUND_HALF_UP, Decimal
+
+from .model import CategoricalFeature, LinearFeature, NumericFeature, Spec, Value
+
+# Rounding holds a value to this many decimals before rounding to a whole number, exactly
+# as the SQL does with CAST(x AS DECIMAL(38, 12)); see compiler.round_half_away_sql.
+ROUNDING_DECIMALS = 12
+
+
+def round_half_away(value: float) -> float:
+    """Round to a whole number, half away from zero, after holding 12 decimals (as the SQL)."""
+    held = Decimal(value).quantize(Decimal(1).scaleb(-ROUNDING_DECIMALS), rounding=ROUND_HALF_UP)
+    return float(held.quantize(Decimal(1), rounding=ROUND_HALF_UP))
+
+
+@dataclass(frozen=True)
+class BinTerm:
+    """One bin: its label, what it adds to η and what it adds to the score."""
+
+    label: str
+    log_odds: float
+    points: float
+
+
+@dataclass(frozen=True)
+class FeatureTerms:
+    """A feature's bins in a fixed order, and where its special values go.
+
+    ``bins`` lists numeric intervals (by lower edge) or category groups (by label), then the
+    catch-all (categorical only), then the missing bin. For a linear feature it lists only
+    the missing bin; the row-dependent part is ``slope`` / ``points_slope``.
+    """
+
+    name: str
+    column: str
+    bins: tuple[BinTerm, ...]
+    max_points: float
+
+    def index(self, label: str) -> int:
+        return [b.label for b in self.bins].index(label)
+
+
+def interval_label(lower: float, upper: float, closed: str) -> str:
+    """The label a numeric bin gets when the spec gives none, e.g. ``[25, 35)``."""
+
+    def edge(value: float) -> str:
+        if value == float("inf"):
+            return "inf"
+        if value == float("-inf"):
+            return "-inf"
+        return repr(int(value)) if value == int(value) else repr(value)
+
+    left, right = ("[", ")") if closed == "lower" else ("(", "]")
+    return f"{left}{edge(lower)}, {edge(upper)}{right}"
+
+
+def contribution(value: Value, coefficient: float | None, factor: float) -> float:
+    """What one bin adds to η."""
+    if value.woe is not None:
+        return coefficient * value.woe
+    if value.log_odds is not None:
+        return value.log_odds
+    return -(value.points / factor)
+
+
+def bin_points(value: Value, coefficient: float | None, factor: float, rounding: str) -> float:
+    """What one bin adds to the score."""
+    points = value.points if value.points is not None else -(factor * contribution(value, coefficient, factor))
+    return round_half_away(points) if rounding == "per_bin" else points
+
+
+def base_points(spec: Spec) -> float:
+    """The score of a row whose every feature adds nothing: offset − factor · intercept."""
+    points = spec.scaling.offset - spec.scaling.factor * spec.intercept
+    return round_half_away(points) if spec.scaling.rounding == "per_bin" else points
+
+
+def numeric_bins_in_order(feature: NumericFeature):
+    return sorted(feature.bins, key=lambda b: b.lower)
+
+
+def feature_terms(spec: Spec, feature) -> FeatureTerms:
+    """The :class:`FeatureTerms` of one feature of a validated spec."""
+    factor, rounding = spec.scaling.factor, spec.scaling.rounding
+
+    def term(label: str, value: Value, coefficient: float | None) -> BinTerm:
+        return BinTerm(label, contribution(value, coefficient, factor), bin_points(value, coefficient, factor, rounding))
+
+    coefficient = getattr(feature, "coefficient", None)
+    if isinstance(feature, NumericFeature):
+        bins = [term(b.label or interval_label(b.lower, b.upper, feature.closed), b, coefficient)
+                for b in numeric_bins_in_order(feature)]
+    elif isinstance(feature, CategoricalFeature):
+        bins = [term(g.label, g, coefficient) for g in sorted(feature.groups, key=lambda g: g.label)]
+        bins.append(term(feature.other.label, feature.other, coefficient))
+    else:
+        bins = []
+    bins.append(term(feature.missing.label, feature.missing, coefficient))
+    candidates = [b.points for b in bins]
+    if isinstance(feature, LinearFeature):
+        candidates += [linear_points(spec, feature, feature.lower), linear_points(spec, feature, feature.upper)]
+    return FeatureTerms(feature.name, feature.column or feature.name, tuple(bins), max(candidates))
+
+
+def linear_slope(feature: LinearFeature) -> float:
+    return feature.coefficient / feature.scale
+
+
+def linear_points_slope(spec: Spec, feature: LinearFeature) -> float:
+    return -(spec.scaling.factor * linear_slope(feature))
+
+
+def linear_points(spec: Spec, feature: LinearFeature, clipped: float) -> float:
+    """Points of a linear feature at an already-clipped value (rounded under per_bin)."""
+    points = linear_points_slope(spec, feature) * (clipped - feature.center)
+    return round_half_away(points) if spec.scaling.rounding == "per_bin" else points
+
+
+def special_routes(feature: NumericFeature) -> dict[str, str]:
+    """Bin labels that NaN, +inf and −inf go to, with the documented defaults filled in."""
+    ordered = numeric_bins_in_order(feature)
+
+    def label(b) -> str:
+        return b.label or interval_label(b.lower, b.upper, feature.closed)
+
+    return {
+        "nan": feature.nan or feature.missing.label,
+        "positive_infinity": feature.positive_infinity or label(ordered[-1]),
+        "negative_infinity": feature.negative_infinity or label(ordered[0]),
+    }
