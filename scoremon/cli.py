@@ -13,6 +13,7 @@ from . import api
 from .dialects import DIALECTS
 from .errors import InputError, ScoremonError, SpecError
 from .report import terminal
+from .report.terminal import score as score_view
 from .spec import fingerprint
 from .spec.schema import schema_text
 
@@ -47,7 +48,7 @@ def _score(args) -> int:
             result = api.score(spec, engine, source, args.key or (), args.out_table, args.out, progress)
     finally:
         engine.close()
-    terminal.print_score_result(result)
+    score_view.print_score_result(result)
     terminal.print_cautions()
     return EXIT_OK
 

@@ -1,7 +1,9 @@
-"""Terminal output: the only module that imports rich.
+"""Terminal output: the only package that imports rich.
 
 Everything here takes a result record and prints it; nothing computes. Output fits an
-80-column terminal and uses a wider one when there is one.
+80-column terminal and uses a wider one when there is one. This module holds the consoles
+and what every command shares; each command's own view is a module beside it
+(``score``, later ``monitor`` and ``diff``).
 """
 from __future__ import annotations
 
@@ -11,9 +13,8 @@ from typing import Iterator
 
 from rich.console import Console
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
-from rich.table import Table
 
-from .cautions import CAUTIONS
+from ..cautions import CAUTIONS
 
 out = Console(highlight=False, soft_wrap=False)
 err = Console(stderr=True, highlight=False)
@@ -45,27 +46,6 @@ def progress_bar(description: str) -> Iterator:
                   TimeElapsedColumn(), console=err, transient=True) as bar:
         task = bar.add_task(description, total=1.0)
         yield lambda share: bar.update(task, completed=share)
-
-
-def grade_table(counts: dict[str, int], title: str = "rows by grade") -> Table:
-    total = sum(counts.values()) or 1
-    table = Table(title=title, title_justify="left", show_edge=False, pad_edge=False)
-    table.add_column("grade")
-    table.add_column("rows", justify="right")
-    table.add_column("share", justify="right")
-    table.add_column("", min_width=10, max_width=30)
-    widest = max(counts.values(), default=1) or 1
-    for grade, rows in counts.items():
-        bar = "#" * max(1, round(20 * rows / widest)) if rows else ""
-        table.add_row(grade, f"{rows:,}", f"{rows / total:6.1%}", bar)
-    return table
-
-
-def print_score_result(result) -> None:
-    out.print(f"scored {result.rows:,} rows with {result.model_name} version {result.model_version} "
-              f"(fingerprint {result.model_fingerprint}) into {result.target} in {result.seconds:.2f} s",
-              soft_wrap=True)
-    out.print(grade_table(result.grade_counts))
 
 
 def print_cautions() -> None:

@@ -1,0 +1,27 @@
+"""The terminal view of a scoring run."""
+from __future__ import annotations
+
+from rich.table import Table
+
+from . import out
+
+
+def grade_table(counts: dict[str, int], title: str = "rows by grade") -> Table:
+    total = sum(counts.values()) or 1
+    table = Table(title=title, title_justify="left", show_edge=False, pad_edge=False)
+    table.add_column("grade")
+    table.add_column("rows", justify="right")
+    table.add_column("share", justify="right")
+    table.add_column("", min_width=10, max_width=30)
+    widest = max(counts.values(), default=1) or 1
+    for grade, rows in counts.items():
+        bar = "#" * max(1, round(20 * rows / widest)) if rows else ""
+        table.add_row(grade, f"{rows:,}", f"{rows / total:6.1%}", bar)
+    return table
+
+
+def print_score_result(result) -> None:
+    out.print(f"scored {result.rows:,} rows with {result.model_name} version {result.model_version} "
+              f"(fingerprint {result.model_fingerprint}) into {result.target} in {result.seconds:.2f} s",
+              soft_wrap=True)
+    out.print(grade_table(result.grade_counts))
