@@ -1,8 +1,7 @@
-"""The only module that talks to a database.
+"""DuckDB, embedded: a database file or memory, with Parquet/CSV read in place.
 
-A small connection protocol (:class:`Engine`): run a statement, fetch rows, describe a
-query's columns, and write a query's result atomically to a table or a Parquet file. DuckDB
-implements it here; other engines implement the same methods.
+Implements the :class:`~scoremon.engines.Engine` protocol, plus :meth:`DuckDBEngine.write_parquet`
+and a progress watcher (DuckDB reports the running query's progress to a second thread).
 """
 from __future__ import annotations
 
@@ -10,31 +9,12 @@ import os
 import threading
 import uuid
 from pathlib import Path
-from typing import Callable, Protocol
 
 import pandas as pd
+from sqlglot import exp
 
-from .errors import EngineError, InputError
-
-Progress = Callable[[float], None]  # called with the share done, 0.0 to 1.0
-
-
-class Engine(Protocol):
-    """What scoremon needs from a SQL engine."""
-
-    dialect: str
-
-    def execute(self, sql: str, purpose: str) -> None: ...
-
-    def fetch(self, sql: str, purpose: str, progress: Progress | None = None) -> list[tuple]: ...
-
-    def fetch_frame(self, sql: str, purpose: str) -> pd.DataFrame: ...
-
-    def describe(self, sql: str, purpose: str) -> list[tuple[str, str]]: ...
-
-    def write_table(self, sql: str, table: list[str], purpose: str, progress: Progress | None = None) -> None: ...
-
-    def close(self) -> None: ...
+from ..errors import EngineError, InputError
+from .protocol import Progress
 
 
 class DuckDBEngine:
@@ -78,8 +58,6 @@ class DuckDBEngine:
 
     def write_table(self, sql: str, table: list[str], purpose: str, progress: Progress | None = None) -> None:
         """Replace ``table`` with the result of ``sql`` in one transaction: all or nothing."""
-        from sqlglot import exp
-
         target = exp.Table(this=exp.to_identifier(table[-1], quoted=True),
                            db=exp.to_identifier(table[-2], quoted=True) if len(table) > 1 else None)
         statement = f"CREATE OR REPLACE TABLE {target.sql(dialect='duckdb', identify=True)} AS {sql}"
@@ -157,14 +135,3 @@ class _ProgressWatcher:
                 return
             if share is not None and share >= 0:
                 self.report(min(share / 100.0, 1.0))
-
-
-def open_engine(url: str | None = None, threads: int | None = None, memory_limit: str | None = None) -> DuckDBEngine:
-    """The engine named by ``url``: a DuckDB file path or ``:memory:`` (the default)."""
-    if url is None or url in ("", ":memory:", "duckdb://", "duckdb:///:memory:"):
-        return DuckDBEngine(":memory:", threads, memory_limit)
-    if url.startswith("duckdb://"):
-        url = url[len("duckdb://"):]
-    if "://" in url:
-        raise InputError(f"engine URL {url!r} is not one scoremon knows; give a DuckDB file path or :memory:")
-    return DuckDBEngine(url, threads, memory_limit)
