@@ -1,8 +1,25 @@
 """The one place a sqlglot tree becomes SQL text, and the list of engines we render for.
 
-Per-dialect adjustments live here and nowhere else, so the compiler's tree stays neutral.
+Per-dialect adjustments live here and nowhere else, so the compiler's tree stays neutral. Each
+adjustment rewrites a copy of the tree just before sqlglot renders it:
+
+* ``postgres``: every CTE is marked ``MATERIALIZED``. PostgreSQL inlines a CTE that is used once,
+  and the scoring steps each refer to the columns of the step before many times, so an inlined
+  chain copied the scoring expressions hundreds of times into the plan. (Spark rejects the word,
+  so it is added for PostgreSQL only.)
+* ``bigquery`` and ``trino``: NaN is not equal to itself there (IEEE comparison), so the NaN
+  test ``x = CAST('NaN' AS DOUBLE)`` becomes ``IS_NAN(x)``; the infinities are written the way
+  each documents them (``'inf'`` for BigQuery, ``INFINITY()`` for Trino).
+* ``snowflake``: the infinities are written ``'inf'`` / ``'-inf'``, as Snowflake documents.
+* ``tsql``: SQL Server's FLOAT cannot hold NaN or ±infinity (and casting those strings is an
+  error), so the tests for them become ``1 = 0``.
+
+DuckDB, PostgreSQL and Spark compare NaN equal to itself and larger than every number, so the
+compiler's NaN test runs unchanged there (PostgreSQL has no ``isnan``).
 """
 from __future__ import annotations
+
+from typing import Callable, Sequence
 
 from sqlglot import exp
 from sqlglot.errors import ErrorLevel
@@ -10,14 +27,128 @@ from sqlglot.errors import ErrorLevel
 from .errors import InputError
 
 # dialect name → whether the test suite runs the rendered SQL on a real engine
-DIALECTS: dict[str, bool] = {"duckdb": True}
+DIALECTS: dict[str, bool] = {
+    "duckdb": True,
+    "postgres": True,
+    "spark": True,
+    "snowflake": False,
+    "bigquery": False,
+    "trino": False,
+    "tsql": False,
+}
+
+# The portable column kinds engines can create tables with (see Engine.write_rows).
+COLUMN_KINDS = ("DOUBLE", "BIGINT", "VARCHAR", "BOOLEAN", "DATE")
+
+
+def dialects_help() -> str:
+    """One line for ``--help``: which dialects run in the tests and which are only rendered."""
+    run = ", ".join(name for name, tested in DIALECTS.items() if tested)
+    rendered = ", ".join(name for name, tested in DIALECTS.items() if not tested)
+    return f"{run} (run on real engines in the tests); {rendered} (rendered only, not run in the tests)"
 
 
 def render_sql(tree: exp.Expression, dialect: str = "duckdb", pretty: bool = True) -> str:
     """SQL text for ``dialect`` with every identifier quoted.
 
+    The tree is not changed; adjustments are made on a copy (see the module docstring).
     Raises :class:`InputError` for a dialect we do not render.
     """
     if dialect not in DIALECTS:
         raise InputError(f"unknown dialect {dialect!r}; choose one of {', '.join(DIALECTS)}")
+    adjust = _ADJUSTMENTS.get(dialect)
+    if adjust is not None:
+        tree = tree.copy().transform(adjust, copy=False)
     return tree.sql(dialect=dialect, identify=True, pretty=pretty, unsupported_level=ErrorLevel.RAISE)
+
+
+def table_path(parts: Sequence[str]) -> exp.Table:
+    """``["schema", "table"]`` or ``["table"]`` as a table node with quoted names."""
+    if not 1 <= len(parts) <= 2:
+        raise InputError(f"table name {'.'.join(parts)!r} is not 'table' or 'schema.table'")
+    return exp.Table(this=exp.to_identifier(parts[-1], quoted=True),
+                     db=exp.to_identifier(parts[0], quoted=True) if len(parts) == 2 else None)
+
+
+def render_table(parts: Sequence[str], dialect: str) -> str:
+    """A table name as quoted SQL text for ``dialect``."""
+    return render_sql(table_path(parts), dialect, pretty=False)
+
+
+def render_type(kind: str, dialect: str) -> str:
+    """One of :data:`COLUMN_KINDS` as the dialect's type name (DOUBLE → DOUBLE PRECISION on PostgreSQL)."""
+    if kind not in COLUMN_KINDS:
+        raise InputError(f"column kind {kind!r} is not one of {', '.join(COLUMN_KINDS)}")
+    return render_sql(exp.DataType.build(kind), dialect, pretty=False)
+
+
+
+# ---------------------------------------------------------------- adjustments
+
+_ODD_DOUBLES = ("NaN", "Infinity", "-Infinity")
+
+
+def _odd_double_test(node: exp.Expression) -> tuple[exp.Expression, str] | None:
+    """``(x, 'NaN')`` when ``node`` is the compiler's ``x = CAST('NaN' AS DOUBLE)`` (or ±Infinity)."""
+    if not isinstance(node, exp.EQ):
+        return None
+    constant = node.expression
+    if (isinstance(constant, exp.Cast) and constant.to.this == exp.DataType.Type.DOUBLE
+            and isinstance(constant.this, exp.Literal) and constant.this.is_string
+            and constant.this.name in _ODD_DOUBLES):
+        return node.this, constant.this.name
+    return None
+
+
+def _double_from_text(value: str, dialect_type: str = "DOUBLE") -> exp.Expression:
+    return exp.Cast(this=exp.Literal.string(value), to=exp.DataType.build(dialect_type))
+
+
+def _postgres(node: exp.Expression) -> exp.Expression:
+    if isinstance(node, exp.CTE):
+        node.set("materialized", True)
+    return node
+
+
+def _bigquery(node: exp.Expression) -> exp.Expression:
+    test = _odd_double_test(node)
+    if test is None:
+        return node
+    x, name = test
+    if name == "NaN":
+        return exp.IsNan(this=x)
+    return exp.EQ(this=x, expression=_double_from_text("inf" if name == "Infinity" else "-inf"))
+
+
+def _trino(node: exp.Expression) -> exp.Expression:
+    test = _odd_double_test(node)
+    if test is None:
+        return node
+    x, name = test
+    if name == "NaN":
+        return exp.IsNan(this=x)
+    infinity = exp.Anonymous(this="INFINITY", expressions=[])
+    return exp.EQ(this=x, expression=infinity if name == "Infinity" else exp.Neg(this=infinity))
+
+
+def _snowflake(node: exp.Expression) -> exp.Expression:
+    test = _odd_double_test(node)
+    if test is None or test[1] == "NaN":
+        return node
+    x, name = test
+    return exp.EQ(this=x, expression=_double_from_text("inf" if name == "Infinity" else "-inf"))
+
+
+def _tsql(node: exp.Expression) -> exp.Expression:
+    if _odd_double_test(node) is None:
+        return node
+    return exp.EQ(this=exp.Literal.number(1), expression=exp.Literal.number(0))
+
+
+_ADJUSTMENTS: dict[str, Callable[[exp.Expression], exp.Expression]] = {
+    "postgres": _postgres,
+    "bigquery": _bigquery,
+    "trino": _trino,
+    "snowflake": _snowflake,
+    "tsql": _tsql,
+}
