@@ -87,8 +87,11 @@ def category_literal(value) -> exp.Expression:
     return integer(value) if isinstance(value, int) else text(value)
 
 
-def case(branches: Iterable[tuple[exp.Expression, exp.Expression]], default: exp.Expression | None = None) -> exp.Case:
-    return exp.Case(ifs=[exp.If(this=cond, true=value) for cond, value in branches], default=default)
+def case(branches: Iterable[tuple[exp.Expression, exp.Expression]], default: exp.Expression | None = None) -> exp.Expression:
+    ifs = [exp.If(this=cond, true=value) for cond, value in branches]
+    if not ifs and default is not None:
+        return default  # a CASE needs at least one WHEN: `CASE ELSE x END` is a syntax error (e.g. a single grade)
+    return exp.Case(ifs=ifs, default=default)
 
 
 def by_bin(bin_column: exp.Expression, values: Sequence[exp.Expression]) -> exp.Case:
@@ -357,7 +360,7 @@ def _probability(eta: exp.Expression) -> exp.Expression:
     return exp.Div(this=number(1.0), expression=exp.paren(denominator, copy=False))
 
 
-def _grade(spec: Spec, score: exp.Expression) -> exp.Case:
+def _grade(spec: Spec, score: exp.Expression) -> exp.Expression:
     grades = sorted(spec.grades, key=lambda g: g.lower, reverse=True)
     branches = [(exp.GTE(this=score.copy(), expression=number(g.lower)), text(g.name)) for g in grades[:-1]]
     return case(branches, text(grades[-1].name))
