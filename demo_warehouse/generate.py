@@ -96,9 +96,9 @@ VOLUME_GROWTH = 0.012  # a month
 
 # The true model's log-odds effects. Not the fitted spec: the spec only sees the columns.
 TRUE_INTERCEPT = -4.45
-PRODUCT_EFFECT = {"personal": 0.0, "car": -0.35, "home_improvement": -0.20, "debt_consolidation": 0.25}
+PRODUCT_EFFECT = {"personal": 0.0, "car": -0.45, "home_improvement": -0.25, "debt_consolidation": 0.35}
 REGION_EFFECT = {"north_fells": 0.05, "river_cities": 0.0, "south_coast": -0.05, "east_plains": 0.10, "islands": -0.08}
-CHANNEL_EFFECT = {"branch": -0.10, "web": 0.0, "mobile_app": 0.05, "broker": 0.35, UNSEEN_CHANNEL: 0.30}
+CHANNEL_EFFECT = {"branch": -0.15, "web": 0.0, "mobile_app": 0.10, "broker": 0.55, UNSEEN_CHANNEL: 0.45}
 HOUSING_EFFECT = {"owner": -0.35, "mortgage": -0.20, "renting": 0.15, "with_family": 0.10}
 STRESS_STEP, STRESS_CAP = 0.05, 0.35
 INCOME_INFLATION = 0.006  # a month, from DRIFT_START
@@ -364,7 +364,7 @@ def generate_chunk(seed: int, chunk_index: int, first_row: int, month_index: np.
     recorded_dti = np.minimum(debt_to_income, 2.0)
     eta = (
         TRUE_INTERCEPT + stress
-        + np.where(thin_file, 0.5, -0.012 * (bureau_score - 640))
+        + np.where(thin_file, 0.5, -0.009 * (bureau_score - 640))
         + np.where(utilisation_missing, 0.15, 2.2 * np.maximum(utilisation - 0.6, 0) + 0.6 * utilisation)
         + np.where(income_missing, 0.3, 1.5 * np.maximum(recorded_dti - 0.4, 0) + 0.9 * recorded_dti)
         + 0.16 * np.minimum(enquiries_6m, 8) + 0.30 * np.minimum(delinquencies_24m, 5)
