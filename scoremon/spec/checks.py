@@ -1,22 +1,30 @@
 """Whole-model checks: the rules that span several keys of a spec.
 
-:func:`check_spec` returns every problem at once, each located at the key to edit. It runs
-after the typed model (:mod:`scoremon.spec.model`) has accepted the file's shape.
+The typed model (:mod:`scoremon.spec.model`) says what each key may hold; this module says
+how keys must agree: bins cover the line, a category sits in one group, grades cover every
+score, reasons name real features. :func:`check_spec` checks a validated spec;
+:func:`check_parts` checks whatever parts of a spec passed validation on their own, so that a
+type error in one feature does not hide a gap in another. Every problem is returned at once,
+located at the key to edit.
 """
 from __future__ import annotations
 
 import difflib
 import math
-from collections import Counter
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
 
 from ..errors import Problem
-from .model import CategoricalFeature, LinearFeature, NumericFeature, Spec
-from .source import SpecSource
-from .terms import interval_label, numeric_bins_in_order
+from .model import Baseline, CategoricalFeature, Feature, Grade, LinearFeature, NumericFeature, Reasons, Spec, Value
+from .source import SpecSource, format_path
+from .terms import interval_label
 
 # PostgreSQL truncates identifiers at 63 bytes; the longest column we derive from a feature
 # name is "<name>_points" (7 more), so names stop at 56 bytes.
 MAX_NAME_BYTES = 56
+VALUE_KINDS = ("woe", "log_odds", "points")
+
+Report = Callable[[tuple, str], None]
 
 
 def suggest(word: str, choices) -> str:
@@ -25,29 +33,79 @@ def suggest(word: str, choices) -> str:
     return f"; did you mean {close[0]!r}?" if close else ""
 
 
+def show_number(value: float) -> str:
+    """A number as a spec writes it: ``25``, ``0.5``, ``.inf``, ``-.inf``."""
+    if math.isnan(value):
+        return ".nan"
+    if value == math.inf:
+        return ".inf"
+    if value == -math.inf:
+        return "-.inf"
+    if float(value).is_integer() and abs(value) < 1e15:
+        return str(int(value))
+    return repr(float(value))
+
+
+@dataclass(frozen=True)
+class ValidParts:
+    """The parts of a spec that passed shape validation, each checked against the rules.
+
+    ``features`` maps a feature's position under ``features:`` to the validated feature.
+    ``feature_names`` lists the name written for every feature, valid or not (``None`` where
+    the name is not text), or is ``None`` itself when ``features:`` is not a list. A part that
+    failed validation is absent, so none of its rules are checked: its shape problem is
+    reported instead, and no message builds on values that were never accepted.
+    """
+
+    features: dict[int, Feature] = field(default_factory=dict)
+    feature_names: tuple[str | None, ...] | None = None
+    grades: tuple[Grade, ...] | None = None
+    reasons: Reasons | None = None
+    baseline: Baseline | None = None
+
+    @classmethod
+    def of(cls, spec: Spec) -> ValidParts:
+        """Every part of a spec that validated whole."""
+        return cls(dict(enumerate(spec.features)), tuple(f.name for f in spec.features), tuple(spec.grades),
+                   spec.reasons, spec.baseline)
+
+
 def check_spec(spec: Spec, source: SpecSource) -> list[Problem]:
-    """Every whole-model problem of ``spec``, located through ``source``."""
+    """Every whole-model problem of a validated ``spec``, located through ``source``."""
+    return check_parts(ValidParts.of(spec), source)
+
+
+def check_parts(parts: ValidParts, source: SpecSource) -> list[Problem]:
+    """Every rule problem among the parts of a spec that passed validation."""
     problems: list[Problem] = []
 
     def report(path: tuple, message: str) -> None:
         problems.append(source.problem(path, message))
 
-    _check_names(spec, report)
-    for position, feature in enumerate(spec.features):
+    if parts.feature_names is not None:
+        _check_names(parts.feature_names, report)
+    for position, feature in sorted(parts.features.items()):
         path = ("features", position)
+        if feature.column is not None:
+            trouble = _name_problem(feature.column)
+            if trouble:
+                report(path + ("column",), f"column name {feature.column!r} {trouble}")
         if isinstance(feature, NumericFeature):
             _check_numeric(feature, path, report)
         elif isinstance(feature, CategoricalFeature):
             _check_categorical(feature, path, report)
         else:
             _check_linear(feature, path, report)
-    _check_intervals(
-        [(g.lower, g.upper) for g in spec.grades], ("grades",), "grade", "lower", report,
-        order=sorted(range(len(spec.grades)), key=lambda i: spec.grades[i].lower),
-    )
-    _check_unique([g.name for g in spec.grades], ("grades",), "name", "grade name", report)
-    _check_reasons(spec, report)
-    _check_baseline(spec, report)
+    if parts.grades is not None:
+        _check_intervals([(g.lower, g.upper) for g in parts.grades], ("grades",), "grade", report)
+        _check_unique([g.name for g in parts.grades], [("grades", i, "name") for i in range(len(parts.grades))],
+                      "grade name", report)
+    # Names of features that failed validation are still known; unknown only if some are not text.
+    known = parts.feature_names if parts.feature_names and None not in parts.feature_names else None
+    if parts.reasons is not None:
+        _check_reasons(parts.reasons, known, report)
+    if parts.baseline is not None:
+        _check_baseline(parts.baseline, known, report)
     return problems
 
 
@@ -56,39 +114,43 @@ def _name_problem(name: str) -> str | None:
         return "is empty; give a name"
     if name != name.strip():
         return "starts or ends with a space; remove it"
-    if any(ord(ch) < 32 for ch in name):
+    if any(ord(ch) < 32 or ord(ch) == 127 for ch in name):
         return "contains a control character; use printable characters only"
-    if len(name.encode("utf-8")) > MAX_NAME_BYTES:
-        return f"is longer than {MAX_NAME_BYTES} bytes, too long for a SQL column name once suffixed; shorten it"
+    size = len(name.encode("utf-8"))
+    if size > MAX_NAME_BYTES:
+        return (f"is {size} bytes long, too long for a SQL column once '_points' is added (PostgreSQL keeps "
+                f"63 bytes of a name); shorten it to at most {MAX_NAME_BYTES} bytes")
     return None
 
 
-def _check_names(spec: Spec, report) -> None:
+def _check_names(names: Sequence[str | None], report: Report) -> None:
     seen: dict[str, int] = {}
-    for position, feature in enumerate(spec.features):
+    for position, name in enumerate(names):
+        if name is None:
+            continue  # not text: reported as a shape problem
         path = ("features", position, "name")
-        trouble = _name_problem(feature.name)
+        trouble = _name_problem(name)
         if trouble:
-            report(path, f"feature name {feature.name!r} {trouble}")
+            report(path, f"feature name {name!r} {trouble}")
             continue
-        folded = feature.name.casefold()
+        folded = name.casefold()
         if folded in seen:
-            report(path, f"feature name {feature.name!r} is already used by features[{seen[folded]}] "
+            report(path, f"feature name {name!r} is already used by features[{seen[folded]}] "
                          "(names are compared ignoring case, as SQL engines do); rename one")
         else:
             seen[folded] = position
-        if feature.column is not None:
-            trouble = _name_problem(feature.column)
-            if trouble:
-                report(("features", position, "column"), f"column name {feature.column!r} {trouble}")
 
 
-def _check_value_kinds(feature, values, path: tuple, report) -> None:
+def _value_kinds(value: Value) -> list[str]:
+    return [kind for kind in VALUE_KINDS if getattr(value, kind) is not None]
+
+
+def _check_value_kinds(feature, values: list[tuple[tuple, Value]], path: tuple, report: Report) -> None:
     """Each bin gives exactly one of woe / log_odds / points, the same kind across the feature."""
     kinds = []
     for sub_path, value in values:
-        given = [k for k in ("woe", "log_odds", "points") if getattr(value, k) is not None]
-        if len(given) == 0:
+        given = _value_kinds(value)
+        if not given:
             report(path + sub_path, "gives no value; add one of woe, log_odds or points")
         elif len(given) > 1:
             report(path + sub_path, f"gives both {given[0]} and {given[1]}; keep exactly one")
@@ -96,129 +158,153 @@ def _check_value_kinds(feature, values, path: tuple, report) -> None:
             kinds.append((sub_path, given[0]))
     if not kinds:
         return
-    first = kinds[0][1]
+    first_path, first = kinds[0]
     for sub_path, kind in kinds[1:]:
         if kind != first:
-            report(path + sub_path + (kind,), f"uses {kind} while the feature's other bins use {first}; "
-                                              "use one kind of value within a feature")
+            report(path + sub_path + (kind,), f"uses {kind} while {format_path(first_path)} uses {first}; "
+                                              "give every bin of a feature the same kind of value")
     uses_woe = any(kind == "woe" for _, kind in kinds)
-    coefficient = getattr(feature, "coefficient", None)
-    if uses_woe and coefficient is None:
+    if uses_woe and feature.coefficient is None:
         report(path, "bins give woe but the feature has no coefficient; add `coefficient:` "
                      "(the fitted coefficient that multiplies WoE)")
-    if not uses_woe and coefficient is not None and not isinstance(feature, LinearFeature):
+    if not uses_woe and feature.coefficient is not None:
         report(path + ("coefficient",), "coefficient is given but no bin uses woe; remove it, or give bins as woe")
 
 
-def _check_intervals(edges, path: tuple, noun: str, edge_key: str, report, order) -> None:
+def _check_intervals(edges: list[tuple[float, float]], path: tuple, noun: str, report: Report) -> None:
     """Intervals listed in ``edges`` must run from -inf to +inf with no gap and no overlap."""
+    inverted = False
     for i, (lower, upper) in enumerate(edges):
         if not lower < upper:
-            report(path + (i, "upper"), f"upper edge {upper:g} is not above lower edge {lower:g}; edges must increase")
-    if not order:
-        return
+            inverted = True
+            report(path + (i, "upper"), f"upper edge {show_number(upper)} is not above lower edge "
+                                        f"{show_number(lower)}; edges must increase")
+    if inverted or not edges:
+        return  # gaps and overlaps among reversed intervals would only mislead
+    order = sorted(range(len(edges)), key=lambda i: edges[i])
     first, last = order[0], order[-1]
+    name = path[-1]
     if edges[first][0] != -math.inf:
-        report(path + (first, "lower"), f"the lowest {noun} starts at {edges[first][0]:g}, leaving lower values "
-                                        "nowhere; set its lower edge to -.inf")
+        report(path + (first, "lower"), f"the lowest {noun} starts at {show_number(edges[first][0])}, leaving lower "
+                                        "values nowhere; set its lower edge to -.inf")
     if edges[last][1] != math.inf:
-        report(path + (last, "upper"), f"the highest {noun} ends at {edges[last][1]:g}, leaving higher values "
-                                       "nowhere; set its upper edge to .inf")
+        report(path + (last, "upper"), f"the highest {noun} ends at {show_number(edges[last][1])}, leaving higher "
+                                       "values nowhere; set its upper edge to .inf")
     for before, after in zip(order, order[1:]):
         end, start = edges[before][1], edges[after][0]
         if end < start:
-            report(path + (after, "lower"), f"gap between {end:g} and {start:g} (after {path[-1]}[{before}]); "
-                                            f"set this lower edge to {end:g}")
+            report(path + (after, "lower"), f"nothing covers {show_number(end)} to {show_number(start)}: "
+                                            f"{name}[{before}] ends at {show_number(end)}; set this lower edge to "
+                                            f"{show_number(end)}")
         elif end > start:
-            report(path + (after, "lower"), f"overlaps {path[-1]}[{before}], which runs to {end:g}; "
-                                            f"set this lower edge to {end:g}")
+            report(path + (after, "lower"), f"overlaps {name}[{before}], which runs to {show_number(end)}; "
+                                            f"set this lower edge to {show_number(end)}")
 
 
-def _check_unique(labels, path: tuple, key: str, noun: str, report, positions=None) -> None:
-    counts = Counter(labels)
-    for i, label in enumerate(labels):
-        if counts[label] > 1 and labels.index(label) != i:
-            where = positions[i] if positions else (i, key)
-            report(path + where, f"{noun} {label!r} is used twice; give each a distinct {noun}")
+def _check_unique(labels: list[str], positions: list[tuple], noun: str, report: Report) -> None:
+    """Report every repeat of a label at its own position, naming where it was first used."""
+    first: dict[str, tuple] = {}
+    for label, position in zip(labels, positions):
+        if label in first:
+            report(position, f"{noun} {label!r} is already used by {_owner(first[label])}; "
+                             f"give each its own {noun}")
+        else:
+            first[label] = position
 
 
-def _check_numeric(feature: NumericFeature, path: tuple, report) -> None:
-    values = [((("bins", i)), b) for i, b in enumerate(feature.bins)] + [(("missing",), feature.missing)]
+def _owner(position: tuple) -> str:
+    """Where a label was first used, in short: ``bins[2]``, ``missing``, ``grades[0]``."""
+    position = position[:-1]  # drop the key itself: label, name or code
+    return format_path(position[-2:]) if isinstance(position[-1], int) else str(position[-1])
+
+
+def _check_numeric(feature: NumericFeature, path: tuple, report: Report) -> None:
+    values = [(("bins", i), b) for i, b in enumerate(feature.bins)] + [(("missing",), feature.missing)]
     _check_value_kinds(feature, values, path, report)
-    order = sorted(range(len(feature.bins)), key=lambda i: feature.bins[i].lower)
-    _check_intervals([(b.lower, b.upper) for b in feature.bins], path + ("bins",), "bin", "lower", report, order)
+    _check_intervals([(b.lower, b.upper) for b in feature.bins], path + ("bins",), "bin", report)
     labels = [b.label or interval_label(b.lower, b.upper, feature.closed) for b in feature.bins]
-    positions = [(("bins", i, "label")) for i in range(len(labels))] + [("missing", "label")]
-    _check_unique(labels + [feature.missing.label], path, "label", "label", report, positions)
-    known = labels + [feature.missing.label]
+    labels.append(feature.missing.label)
+    positions = [path + ("bins", i, "label") for i in range(len(feature.bins))] + [path + ("missing", "label")]
+    _check_unique(labels, positions, "label", report)
     for key in ("nan", "positive_infinity", "negative_infinity"):
         target = getattr(feature, key)
-        if target is not None and target not in known:
-            report(path + (key,), f"{key} goes to {target!r}, which is no bin of this feature{suggest(target, known)}")
+        if target is not None and target not in labels:
+            hint = suggest(target, labels) or f"; use one of {', '.join(repr(label) for label in labels)}"
+            report(path + (key,), f"{key} goes to {target!r}, which is no bin of this feature{hint}")
 
 
-def _check_categorical(feature: CategoricalFeature, path: tuple, report) -> None:
-    values = [(("groups", i), g) for i, g in enumerate(feature.groups)]
-    values += [(("other",), feature.other), (("missing",), feature.missing)]
-    _check_value_kinds(feature, values, path, report)
-    labels = [g.label for g in feature.groups] + [feature.other.label, feature.missing.label]
-    positions = [("groups", i, "label") for i in range(len(feature.groups))] + [("other", "label"), ("missing", "label")]
-    _check_unique(labels, path, "label", "label", report, positions)
-    owner: dict[object, str] = {}
-    kinds: set[type] = set()
+def _check_categorical(feature: CategoricalFeature, path: tuple, report: Report) -> None:
     places = [(("groups", i), g) for i, g in enumerate(feature.groups)] + [(("other",), feature.other)]
+    _check_value_kinds(feature, places + [(("missing",), feature.missing)], path, report)
+    labels = [g.label for g in feature.groups] + [feature.other.label, feature.missing.label]
+    positions = [path + ("groups", i, "label") for i in range(len(feature.groups))]
+    positions += [path + ("other", "label"), path + ("missing", "label")]
+    _check_unique(labels, positions, "label", report)
+    owner: dict[object, str] = {}
+    first_value: tuple[object, tuple] | None = None
+    mixed_reported = False
     for sub_path, group in places:
         for j, value in enumerate(group.values):
-            kinds.add(type(value))
+            where = sub_path + ("values", j)
+            if first_value is None:
+                first_value = (value, where)
+            elif isinstance(value, str) != isinstance(first_value[0], str) and not mixed_reported:
+                mixed_reported = True  # one message per feature is enough to explain the fix
+                report(path + where, f"category {value!r} is {_kind(value)} while {first_value[0]!r} "
+                                     f"({format_path(first_value[1])}) is {_kind(first_value[0])}; write all of a "
+                                     "feature's categories alike: quote numbers to make them text, or use only "
+                                     "whole numbers to match an integer column")
             if value in owner:
-                report(path + sub_path + ("values", j), f"category {value!r} is already in group {owner[value]!r}; "
-                                                        "a category belongs to one group only")
+                report(path + where, f"category {value!r} is already in group {owner[value]!r}; "
+                                     "a category belongs to one group only")
             else:
                 owner[value] = group.label
-    if len(kinds) > 1:
-        report(path + ("groups",), "mixes text and number categories; quote the numbers so all are text, "
-                                   "or make all whole numbers to match an integer column")
 
 
-def _check_linear(feature: LinearFeature, path: tuple, report) -> None:
+def _kind(value: object) -> str:
+    return "text" if isinstance(value, str) else "a number"
+
+
+def _check_linear(feature: LinearFeature, path: tuple, report: Report) -> None:
     if not feature.lower < feature.upper:
-        report(path + ("upper",), f"upper clip {feature.upper:g} is not above lower clip {feature.lower:g}; swap or widen them")
+        report(path + ("upper",), f"upper clip {show_number(feature.upper)} is not above lower clip "
+                                  f"{show_number(feature.lower)}; swap or widen them")
     if feature.scale == 0:
         report(path + ("scale",), "scale is 0 (it divides the value); use a non-zero scale, e.g. 1")
-    if feature.missing.woe is not None:
-        report(path + ("missing", "woe"), "a linear feature's missing bin cannot use woe; give log_odds or points")
-    elif feature.missing.value_kind is None:
+    given = _value_kinds(feature.missing)
+    if "woe" in given:
+        report(path + ("missing", "woe"), "a linear feature's missing bin cannot use woe (there are no bins for "
+                                          "the coefficient to weigh); give log_odds or points")
+    elif len(given) != 1:
         _check_value_kinds(feature, [(("missing",), feature.missing)], path, report)
 
 
-def _check_reasons(spec: Spec, report) -> None:
-    names = [f.name for f in spec.features]
-    statements = spec.reasons.statements
-    _check_unique([s.code for s in statements], ("reasons", "statements"), "code", "reason code", report)
+def _check_reasons(reasons: Reasons, names: Sequence[str] | None, report: Report) -> None:
+    statements = reasons.statements
+    _check_unique([s.code for s in statements], [("reasons", "statements", i, "code") for i in range(len(statements))],
+                  "reason code", report)
     owner: dict[str, str] = {}
     for i, statement in enumerate(statements):
         for j, name in enumerate(statement.features):
             path = ("reasons", "statements", i, "features", j)
-            if name not in names:
+            if names is not None and name not in names:
                 report(path, f"no feature is named {name!r}{suggest(name, names)}")
             elif name in owner:
-                report(path, f"feature {name!r} already gives reason {owner[name]!r}; a feature belongs to one reason only")
+                report(path, f"feature {name!r} already gives reason {owner[name]!r}; "
+                             "a feature belongs to one reason only")
             else:
                 owner[name] = statement.code
-    if spec.reasons.count > len(statements):
-        report(("reasons", "count"), f"asks for {spec.reasons.count} reasons but {len(statements)} statements are "
+    # Only a count the spec states can be wrong: the default asks for at most three.
+    if "count" in reasons.model_fields_set and reasons.count > len(statements):
+        report(("reasons", "count"), f"asks for {reasons.count} reasons but {len(statements)} statements are "
                                      f"declared; lower count to {len(statements)} or add statements")
 
 
-def _check_baseline(spec: Spec, report) -> None:
-    if spec.baseline is None:
-        return
-    by_name = {f.name: f for f in spec.features}
-    for name, shares in spec.baseline.feature_shares.items():
-        path = ("baseline", "feature_shares", name)
-        if name not in by_name:
-            report(path, f"no feature is named {name!r}{suggest(name, by_name)}")
-    bands = spec.baseline.score_bands
-    if bands:
-        order = sorted(range(len(bands)), key=lambda i: bands[i].lower)
-        _check_intervals([(b.lower, b.upper) for b in bands], ("baseline", "score_bands"), "score band", "lower", report, order)
+def _check_baseline(baseline: Baseline, names: Sequence[str] | None, report: Report) -> None:
+    if names is not None:
+        for name in baseline.feature_shares:
+            if name not in names:
+                report(("baseline", "feature_shares", name), f"no feature is named {name!r}{suggest(name, names)}")
+    if baseline.score_bands:
+        _check_intervals([(b.lower, b.upper) for b in baseline.score_bands], ("baseline", "score_bands"),
+                         "score band", report)

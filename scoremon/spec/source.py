@@ -14,6 +14,7 @@ import yaml
 
 from ..errors import Problem, SpecError
 
+
 @dataclass
 class SpecSource:
     """A parsed spec file: the data and where each part of it stands."""
@@ -22,6 +23,11 @@ class SpecSource:
     file: str
     key_marks: dict[tuple, tuple[int, int]] = field(default_factory=dict)
     value_marks: dict[tuple, tuple[int, int]] = field(default_factory=dict)
+    texts: dict[tuple, str] = field(default_factory=dict)
+
+    def written(self, path: tuple) -> str | None:
+        """A scalar exactly as the file writes it (``NO`` where YAML reads false), if known."""
+        return self.texts.get(tuple(path))
 
     def locate(self, path: tuple) -> tuple[int, int]:
         """Line and column (1-based) of the deepest part of ``path`` present in the file."""
@@ -63,18 +69,44 @@ def read_spec_text(text: str, file: str = "<spec>") -> SpecSource:
     except yaml.MarkedYAMLError as error:
         mark = error.problem_mark or error.context_mark
         line, column = (mark.line + 1, mark.column + 1) if mark else (1, 1)
-        what = error.problem or str(error)
-        raise SpecError([Problem(line, column, "", f"not valid YAML: {what}; fix the syntax at this point", file)]) from error
+        raise SpecError([Problem(line, column, "", _yaml_message(error), file)]) from error
     except yaml.YAMLError as error:
         raise SpecError([Problem(1, 1, "", f"not valid YAML: {error}", file)]) from error
     source = SpecSource(data=None, file=file)
     if node is None:
-        raise SpecError([Problem(1, 1, "", "the file is empty; a spec needs at least model, intercept, scaling, features and grades", file)])
+        raise SpecError([Problem(1, 1, "", "the file is empty; a spec needs at least model, intercept, scaling, "
+                                          "features and grades", file)])
     problems: list[Problem] = []
     source.data = _build(node, (), source, problems)
     if problems:
         raise SpecError(problems)
     return source
+
+
+def _yaml_message(error: yaml.MarkedYAMLError) -> str:
+    """PyYAML's complaint, where the construct it was reading began, and what usually fixes it."""
+    what = error.problem or "cannot be read"
+    context, start = error.context, error.context_mark
+    if context and not context.startswith("while"):
+        what = f"{context} {what}"  # e.g. "expected a single document in the stream but found another"
+    elif context and start is not None and error.problem_mark is not None and start.line != error.problem_mark.line:
+        place = context.replace("while parsing ", "").replace("while scanning ", "")
+        what = f"{what} (in {place} that starts at line {start.line + 1}, column {start.column + 1})"
+    return f"not valid YAML: {what}; {_yaml_hint(what)}"
+
+
+def _yaml_hint(what: str) -> str:
+    if "'\\t'" in what:
+        return "indent with spaces (YAML does not allow tabs)"
+    if "mapping values are not allowed" in what:
+        return "quote a value that contains ': ', or indent this key like its neighbours"
+    if "flow mapping" in what or "flow sequence" in what:
+        return "close the bracket or add the missing comma"
+    if "<block end>" in what:
+        return "indent this line like the keys it belongs with"
+    if "another document" in what:
+        return "keep one spec per file and remove the extra '---'"
+    return "fix the syntax at this point"
 
 
 def read_spec_file(path: str | Path) -> SpecSource:
@@ -101,7 +133,9 @@ def _build(node: yaml.Node, path: tuple, source: SpecSource, problems: list[Prob
             key = _scalar(key_node)
             if not isinstance(key, (str, int)) or isinstance(key, bool):
                 line, column = _mark(key_node)
-                problems.append(Problem(line, column, format_path(path), f"key {key!r} is not a plain name; use a word as the key", source.file))
+                what = f"a {'list' if isinstance(key, yaml.SequenceNode) else 'mapping'}" if isinstance(key, yaml.Node) else repr(key)
+                problems.append(Problem(line, column, format_path(path), f"a key must be a plain name, not {what}; "
+                                                                         "write a word followed by ':'", source.file))
                 continue
             key = str(key)
             child = path + (key,)
@@ -120,6 +154,7 @@ def _build(node: yaml.Node, path: tuple, source: SpecSource, problems: list[Prob
             source.key_marks[child] = _mark(item)
             items.append(_build(item, child, source, problems))
         return items
+    source.texts[path] = node.value
     return _scalar(node)
 
 
