@@ -1,0 +1,10 @@
+"""Semantic comparison of two model versions and the impact of the change on a population.
+
+:func:`diff_models` (in :mod:`~scoremon.diff.changes`) turns two validated specs into typed
+change records; :mod:`~scoremon.diff.impact` builds the one query that scores a population
+under both versions and summarises its aggregates.
+"""
+from .changes import diff_models
+from .records import Change, ChangeKind, Effect, ModelDiff, ScoreMap, VersionInfo
+
+__all__ = ["Change", "ChangeKind", "Effect", "ModelDiff", "ScoreMap", "VersionInfo", "diff_models"]

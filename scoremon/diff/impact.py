@@ -1,0 +1,534 @@
+"""The impact of a model change on a population: one query that scores every row under both
+versions, and the summary of its aggregates.
+
+:func:`impact_query` builds the query as a sqlglot tree. Both versions score the *same row in
+the same pass*: the old version's scoring query runs over the source and carries through the
+columns the new version needs (under fresh names), and the new version's scoring query runs
+over that. Each step only adds columns to the row it reads, so no key or join is needed to
+line the two scores up, and the source is read once. Over the paired rows, window functions
+give each row its position by score change and PD change (for exact quantiles) and its
+average rank by old and by new score (for Spearman's rank correlation); one
+``GROUP BY GROUPING SETS`` then returns every aggregate the summary needs:
+
+* ``()``                       totals, sums, order statistics, rank sums;
+* ``(old_grade, new_grade)``   the grade migration matrix;
+* ``(swap_cell)``              the swap set at the cut-off (when one is given);
+* ``(old_reason, new_reason)`` first-reason changes;
+* ``(score_band)``, ``(pd_band)`` histograms of the score change and the PD change.
+
+Only those few rows reach Python; :func:`summarise_impact` turns them into an :class:`Impact`.
+
+Portable choices: ``RANK() OVER``, ``ROW_NUMBER() OVER``, ``COUNT(*) OVER``, ``GROUPING SETS``
+and ``GROUPING()`` run on DuckDB, PostgreSQL and Spark. Quantiles are taken from order
+statistics (numpy's default "linear" rule) rather than ``PERCENTILE_CONT``, which sqlglot
+renders as an approximate percentile on Spark. Ranks are centred on their known mean
+(n + 1) / 2 before they are multiplied, so the rank sums stay small enough for doubles.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Iterable, Mapping, Sequence
+
+from sqlglot import exp
+
+from ..compiler import compile_model, output_columns
+from ..errors import InputError
+from ..spec.model import Spec
+
+QUANTILES = (0.01, 0.05, 0.25, 0.5, 0.75, 0.95, 0.99)
+# Score change bands in multiples of the new version's PDO (points to double the odds): the
+# trade's own unit for "how much did the odds move".
+SCORE_STEPS = (0.25, 0.5, 1.0, 2.0)
+# PD change bands, as a share (0.005 = half a percentage point).
+PD_STEPS = (0.005, 0.01, 0.02, 0.05, 0.10)
+# A restated model can give the same score in slightly different bits; below these a row
+# counts as unchanged.
+UNCHANGED_POINTS = 1e-6
+UNCHANGED_PD = 1e-9
+SWAP_CELLS = ("accepted_by_both", "swap_in", "swap_out", "declined_by_both")
+GROUPINGS = ("migration", "swap", "reason", "score_band", "pd_band", "score_change_pick", "pd_change_pick")
+
+
+# ---------------------------------------------------------------- the result records
+
+@dataclass(frozen=True)
+class Band:
+    """One bar of a histogram of changes: ``lower`` < change ≤ ``upper`` in words ``label``."""
+
+    label: str
+    index: int
+    rows: int
+    share: float
+
+
+@dataclass(frozen=True)
+class ChangeDistribution:
+    """How a quantity moved from the old version to the new one over the population."""
+
+    mean: float
+    minimum: float
+    maximum: float
+    quantiles: dict[str, float]
+    bands: tuple[Band, ...]
+    rows_up: int
+    rows_unchanged: int
+    rows_down: int
+
+
+@dataclass(frozen=True)
+class Migration:
+    """Rows by old grade (rows of ``counts``) and new grade (columns), best grade first.
+
+    ``is_same_grades`` is false when the two versions name different grades; then moving up
+    or down compares positions in each version's own list.
+    """
+
+    old_grades: tuple[str, ...]
+    new_grades: tuple[str, ...]
+    counts: tuple[tuple[int, ...], ...]
+    rows_up: int
+    rows_same: int
+    rows_down: int
+    is_same_grades: bool
+
+
+@dataclass(frozen=True)
+class Cell:
+    """One cell of the swap set, with the realised event rate where outcomes are known."""
+
+    name: str
+    rows: int
+    share: float
+    rows_with_outcome: int
+    events: int
+    event_rate: float | None
+
+
+@dataclass(frozen=True)
+class SwapSet:
+    """Accept means score ≥ cut-off; each version has its own cut-off (usually the same)."""
+
+    cutoff_old: float
+    cutoff_new: float
+    cells: tuple[Cell, ...]
+
+
+@dataclass(frozen=True)
+class ReasonShift:
+    """How often the first reason given to a row changes, and the most frequent moves."""
+
+    rows_changed: int
+    share_changed: float
+    top_moves: tuple[tuple[str | None, str | None, int], ...]
+
+
+@dataclass(frozen=True)
+class Impact:
+    """What the change does to one population (see the module docstring)."""
+
+    population: str
+    outcome: str | None
+    rows: int
+    rows_with_outcome: int
+    events: int
+    mean_score_old: float
+    mean_score_new: float
+    mean_pd_old: float
+    mean_pd_new: float
+    score_change: ChangeDistribution
+    pd_change: ChangeDistribution
+    migration: Migration
+    swap_set: SwapSet | None
+    first_reason: ReasonShift
+    spearman: float | None
+
+    @property
+    def event_rate(self) -> float | None:
+        return self.events / self.rows_with_outcome if self.rows_with_outcome else None
+
+
+# ---------------------------------------------------------------- the query
+
+def _id(name: str) -> exp.Identifier:
+    return exp.to_identifier(name, quoted=True)
+
+
+def _col(name: str) -> exp.Column:
+    return exp.Column(this=_id(name))
+
+
+def _num(value: float) -> exp.Expression:
+    text = repr(float(value))
+    literal = exp.Literal.number(text.lstrip("-"))
+    if text.startswith("-"):
+        literal = exp.Neg(this=literal)
+    return exp.Cast(this=literal, to=exp.DataType.build("DOUBLE"))
+
+
+def _int(value: int) -> exp.Literal:
+    return exp.Literal.number(str(int(value)))
+
+
+def _case(branches, default=None) -> exp.Case:
+    return exp.Case(ifs=[exp.If(this=c, true=v) for c, v in branches], default=default)
+
+
+def _as(expression: exp.Expression, name: str) -> exp.Alias:
+    return exp.alias_(expression, name, quoted=True)
+
+
+def _double(expression: exp.Expression) -> exp.Expression:
+    return exp.Cast(this=expression, to=exp.DataType.build("DOUBLE"))
+
+
+def _window(function: exp.Expression, order: str | None = None, partition: str | None = None) -> exp.Window:
+    return exp.Window(this=function,
+                      partition_by=[_col(partition)] if partition else None,
+                      order=exp.Order(expressions=[exp.Ordered(this=_col(order))]) if order else None)
+
+
+def _fresh(base: str, taken: set[str]) -> str:
+    """``base``, or ``base_2``, ``base_3``… — the first not in ``taken`` (compared ignoring case)."""
+    name, n = base, 1
+    while name.casefold() in taken:
+        n += 1
+        name = f"{base}_{n}"
+    taken.add(name.casefold())
+    return name
+
+
+def _inputs(spec: Spec) -> list[str]:
+    return list(dict.fromkeys(f.column or f.name for f in spec.features))
+
+
+@dataclass(frozen=True)
+class ImpactQuery:
+    """The query and the names of the columns it returns, in order."""
+
+    tree: exp.Select
+    columns: tuple[str, ...]
+
+
+def impact_query(
+    old: Spec,
+    new: Spec,
+    source: exp.Expression,
+    float_columns: Iterable[str] = (),
+    outcome: str | None = None,
+    outcome_is_boolean: bool = False,
+    cutoffs: tuple[float, float] | None = None,
+) -> ImpactQuery:
+    """The one query that scores ``source`` under both versions and aggregates the pairs.
+
+    ``float_columns`` names the source's FLOAT/DOUBLE columns (the others need no NaN test).
+    ``outcome`` is an optional 0/1 (or boolean) column; NULL means not yet known, any other
+    value is counted in ``invalid_outcomes``. ``cutoffs`` is (old cut-off, new cut-off).
+    The caller checks beforehand that the source has the columns both specs need.
+    """
+    floats = set(float_columns)
+    inputs_old, inputs_new = _inputs(old), _inputs(new)
+    taken = {name.casefold() for name in inputs_old + inputs_new + ([outcome] if outcome else [])}
+    taken |= {name.casefold() for name in output_columns(old).all + output_columns(new).all}
+
+    # step 0: the old version's inputs, plus everything later steps need under fresh names
+    carried = list(dict.fromkeys(inputs_new + ([outcome] if outcome else [])))
+    carry = {name: _fresh(f"carried_{i}", taken) for i, name in enumerate(carried, start=1)}
+    step0 = exp.select(*[_col(n) for n in inputs_old], *[_as(_col(n), carry[n]) for n in carried]).from_(source.copy())
+
+    # step 1: the old version scores each row and passes the carried columns through
+    step1 = compile_model(old, exp.Subquery(this=step0, alias=exp.TableAlias(this=_id("population"))),
+                          keys=[carry[n] for n in carried], float_columns=[n for n in inputs_old if n in floats])
+    old_names = {k: _fresh(f"old_{k}", taken) for k in ("score", "pd", "grade", "reason")}
+    outcome_name = carry[outcome] if outcome else None
+    old_reason = "reason_1" if output_columns(old).reasons else None
+
+    # step 1b: the new version's inputs under their own names, and the old results
+    step1b = exp.select(
+        *[_as(_col(carry[n]), n) for n in inputs_new],
+        *([_col(outcome_name)] if outcome else []),
+        _as(_col("score"), old_names["score"]), _as(_col("pd"), old_names["pd"]),
+        _as(_col("grade"), old_names["grade"]),
+        _as(_col(old_reason) if old_reason else exp.Cast(this=exp.Null(), to=exp.DataType.build("VARCHAR")),
+            old_names["reason"]),
+    ).from_(exp.Subquery(this=step1, alias=exp.TableAlias(this=_id("scored_old"))))
+
+    # step 2: the new version scores the same row
+    keys = [old_names["score"], old_names["pd"], old_names["grade"], old_names["reason"]]
+    keys += [outcome_name] if outcome else []
+    step2 = compile_model(new, exp.Subquery(this=step1b, alias=exp.TableAlias(this=_id("carried"))),
+                          keys=keys, float_columns=[n for n in inputs_new if n in floats])
+    new_reason = "reason_1" if output_columns(new).reasons else None
+
+    # paired: our own names from here on
+    if outcome is None:
+        outcome_value, invalid = exp.Null(), _int(0)
+    elif outcome_is_boolean:
+        o = _col(outcome_name)
+        outcome_value = _case([(o.copy(), _int(1)), (exp.Not(this=o.copy()), _int(0))], exp.Null())
+        invalid = _int(0)
+    else:
+        o = _col(outcome_name)
+        outcome_value = _case([(exp.EQ(this=o.copy(), expression=_int(1)), _int(1)),
+                               (exp.EQ(this=o.copy(), expression=_int(0)), _int(0))], exp.Null())
+        # NaN equals neither 0 nor 1, so it is counted here too
+        invalid = _case([(exp.and_(exp.Not(this=exp.Is(this=o.copy(), expression=exp.Null())),
+                                   exp.Not(this=exp.paren(exp.or_(exp.EQ(this=o.copy(), expression=_int(0)),
+                                                                  exp.EQ(this=o.copy(), expression=_int(1)))))),
+                          _int(1))], _int(0))
+    paired = exp.select(
+        _as(_col(old_names["score"]), "old_score"), _as(_col("score"), "new_score"),
+        _as(_col(old_names["pd"]), "old_pd"), _as(_col("pd"), "new_pd"),
+        _as(_col(old_names["grade"]), "old_grade"), _as(_col("grade"), "new_grade"),
+        _as(_col(old_names["reason"]), "old_reason"),
+        _as(_col(new_reason) if new_reason else exp.Cast(this=exp.Null(), to=exp.DataType.build("VARCHAR")),
+            "new_reason"),
+        _as(outcome_value, "outcome"), _as(invalid, "invalid_outcome"),
+        _as(_col("score") - _col(old_names["score"]), "score_change"),
+        _as(_col("pd") - _col(old_names["pd"]), "pd_change"),
+    ).from_(exp.Subquery(this=step2, alias=exp.TableAlias(this=_id("scored_new"))))
+
+    # ranked: bands, swap cell, positions and centred average ranks
+    n_rows = _double(_window(exp.Count(this=exp.Star())))
+
+    def centred_rank(name: str) -> exp.Expression:
+        # average rank of tied values = RANK + (ties − 1) / 2; its mean over all rows is (n + 1) / 2
+        ties = _double(_window(exp.Count(this=exp.Star()), partition=name))
+        rank = _double(_window(exp.Anonymous(this="RANK"), order=name))
+        return rank + exp.paren(ties - _num(1.0)) / _num(2.0) - exp.paren(n_rows.copy() + _num(1.0)) / _num(2.0)
+
+    ranked_columns = [
+        _col(c) for c in ("old_score", "new_score", "old_pd", "new_pd", "old_grade", "new_grade", "old_reason",
+                          "new_reason", "outcome", "invalid_outcome", "score_change", "pd_change")
+    ]
+    ranked_columns += [
+        _as(_band(_col("score_change"), [s * new.scaling.pdo for s in SCORE_STEPS], UNCHANGED_POINTS), "score_band"),
+        _as(_band(_col("pd_change"), list(PD_STEPS), UNCHANGED_PD), "pd_band"),
+        _as(n_rows, "population_rows"),
+        _as(_window(exp.RowNumber(), order="score_change"), "score_change_position"),
+        _as(_window(exp.RowNumber(), order="pd_change"), "pd_change_position"),
+        _as(centred_rank("old_score"), "old_rank"),
+        _as(centred_rank("new_score"), "new_rank"),
+    ]
+    for quantity in ("score_change", "pd_change"):
+        ranked_columns.append(_as(_order_statistic_pick(f"{quantity}_position"), f"{quantity}_pick"))
+    if cutoffs is not None:
+        accepted_old = exp.GTE(this=_col("old_score"), expression=_num(cutoffs[0]))
+        accepted_new = exp.GTE(this=_col("new_score"), expression=_num(cutoffs[1]))
+        ranked_columns.append(_as(_case([
+            (exp.and_(accepted_old.copy(), accepted_new.copy()), exp.Literal.string("accepted_by_both")),
+            (accepted_old.copy(), exp.Literal.string("swap_out")),
+            (accepted_new.copy(), exp.Literal.string("swap_in")),
+        ], exp.Literal.string("declined_by_both")), "swap_cell"))
+    ranked = exp.select(*ranked_columns).from_(exp.Subquery(this=paired, alias=exp.TableAlias(this=_id("paired"))))
+
+    # the aggregates
+    groups = {"migration": ("old_grade", "new_grade"), "swap": ("swap_cell",), "reason": ("old_reason", "new_reason"),
+              "score_band": ("score_band",), "pd_band": ("pd_band",),
+              "score_change_pick": ("score_change_pick",), "pd_change_pick": ("pd_change_pick",)}
+    if cutoffs is None:
+        del groups["swap"]
+    selected: list[tuple[str, exp.Expression]] = []
+    for names in groups.values():
+        for name in names:
+            selected.append((name, _col(name)))
+    for grouping, names in groups.items():
+        selected.append((f"grouping_{grouping}", exp.Grouping(expressions=[_col(names[0])])))
+    selected += [
+        ("rows", exp.Count(this=exp.Star())),
+        ("events", exp.Sum(this=_col("outcome"))),
+        ("rows_with_outcome", exp.Count(this=_col("outcome"))),
+        ("invalid_outcomes", exp.Sum(this=_col("invalid_outcome"))),
+        ("sum_score_change", exp.Sum(this=_col("score_change"))),
+        ("min_score_change", exp.Min(this=_col("score_change"))),
+        ("max_score_change", exp.Max(this=_col("score_change"))),
+        ("sum_pd_change", exp.Sum(this=_col("pd_change"))),
+        ("min_pd_change", exp.Min(this=_col("pd_change"))),
+        ("max_pd_change", exp.Max(this=_col("pd_change"))),
+        ("sum_old_score", exp.Sum(this=_col("old_score"))),
+        ("sum_new_score", exp.Sum(this=_col("new_score"))),
+        ("sum_old_pd", exp.Sum(this=_col("old_pd"))),
+        ("sum_new_pd", exp.Sum(this=_col("new_pd"))),
+        ("sum_rank_products", exp.Sum(this=_col("old_rank") * _col("new_rank"))),
+        ("sum_old_rank_squares", exp.Sum(this=_col("old_rank") * _col("old_rank"))),
+        ("sum_new_rank_squares", exp.Sum(this=_col("new_rank") * _col("new_rank"))),
+    ]
+    query = exp.select(*[_as(e, n) for n, e in selected]).from_(
+        exp.Subquery(this=ranked, alias=exp.TableAlias(this=_id("ranked"))))
+    sets = [exp.Tuple(expressions=[])] + [exp.Tuple(expressions=[_col(n) for n in names]) for names in groups.values()]
+    query.set("group", exp.Group(grouping_sets=[exp.GroupingSets(expressions=sets)]))
+    return ImpactQuery(query, tuple(n for n, _ in selected))
+
+
+def _band(change: exp.Expression, steps: Sequence[float], unchanged: float) -> exp.Expression:
+    """Signed band number: 0 unchanged, ±1 … ±len(steps)+1 by the size of the change."""
+    size = exp.Abs(this=change.copy())
+    branches = [(exp.LTE(this=size.copy(), expression=_num(unchanged)), _int(0))]
+    branches += [(exp.LT(this=size.copy(), expression=_num(step)), _int(k)) for k, step in enumerate(steps, start=1)]
+    magnitude = _case(branches, _int(len(steps) + 1))
+    return _case([(exp.LT(this=change.copy(), expression=_num(0.0)), exp.Neg(this=exp.paren(magnitude.copy())))],
+                 magnitude)
+
+
+def _order_statistic_pick(position: str) -> exp.Expression:
+    """The row's position when a quantile needs it, else NULL.
+
+    numpy's "linear" quantile q of n sorted values interpolates between the values at 1-based
+    positions floor((n − 1)·q) + 1 and + 2; grouping by this column brings just those rows'
+    values to Python (MIN of one value is that value).
+    """
+    wanted = []
+    for q in QUANTILES:
+        low = exp.Floor(this=exp.paren(_col("population_rows") - _num(1.0)) * _num(q))
+        for step in (1, 2):
+            wanted.append(exp.EQ(this=_col(position), expression=low.copy() + _int(step)))
+    return _case([(exp.or_(*wanted), _col(position))], exp.Null())
+
+
+def _q_name(q: float) -> str:
+    return f"{round(q * 100):02d}"
+
+
+# ---------------------------------------------------------------- the summary
+
+def band_labels(steps: Sequence[float], unit: str, scale: float = 1.0, digits: int = 2) -> dict[int, str]:
+    """Words for each signed band number of :func:`_band`, e.g. ``{0: "unchanged", 1: "0 to +5"}``."""
+    def fmt(value: float) -> str:
+        text = f"{value * scale:.{digits}f}".rstrip("0").rstrip(".")
+        return text
+
+    edges = [0.0] + [float(s) for s in steps]
+    labels = {0: "unchanged"}
+    for k in range(1, len(steps) + 2):
+        if k <= len(steps):
+            low, high = edges[k - 1], edges[k]
+            labels[k] = f"+{fmt(low)} to +{fmt(high)}{unit}" if low else f"0 to +{fmt(high)}{unit}"
+            labels[-k] = f"-{fmt(high)} to -{fmt(low)}{unit}" if low else f"-{fmt(high)} to 0{unit}"
+        else:
+            labels[k] = f"+{fmt(edges[-1])}{unit} or more"
+            labels[-k] = f"-{fmt(edges[-1])}{unit} or more"
+    return labels
+
+
+def summarise_impact(
+    columns: Sequence[str],
+    rows: Sequence[Sequence],
+    old: Spec,
+    new: Spec,
+    population: str,
+    outcome: str | None = None,
+    cutoffs: tuple[float, float] | None = None,
+) -> Impact:
+    """Turn the rows of :func:`impact_query` into an :class:`Impact`.
+
+    Raises :class:`InputError` when the population is empty or the outcome column holds
+    values other than 0, 1 and NULL.
+    """
+    records = [dict(zip(columns, row)) for row in rows]
+    flags = [name for name in GROUPINGS if f"grouping_{name}" in columns]
+
+    def of(grouping: str | None) -> list[dict]:
+        wanted = [r for r in records if all(r[f"grouping_{g}"] == (0 if g == grouping else 1) for g in flags)]
+        return wanted
+
+    total = of(None)[0]
+    n = int(total["rows"])
+    if n == 0:
+        raise InputError(f"{population}: the population has no rows; there is nothing to compare")
+    if outcome and total["invalid_outcomes"]:
+        raise InputError(f"{population}: outcome column {outcome!r} has {int(total['invalid_outcomes']):,} values "
+                         "other than 0, 1 and empty (NULL); give a 0/1 column, with NULL where the outcome "
+                         "is not yet known")
+
+    def distribution(quantity: str, band_key: str, labels: dict[int, str]) -> ChangeDistribution:
+        counts = {int(r[band_key]): int(r["rows"]) for r in of(band_key)}
+        bands = tuple(Band(labels[k], k, counts.get(k, 0), counts.get(k, 0) / n) for k in sorted(labels))
+        at = {int(r[f"{quantity}_pick"]): r[f"min_{quantity}"] for r in of(f"{quantity}_pick")
+              if r[f"{quantity}_pick"] is not None}
+        quantiles = {}
+        for q in QUANTILES:
+            h = (n - 1) * q
+            low, fraction = math.floor(h), h - math.floor(h)
+            value = at[low + 1]
+            if fraction and low + 2 in at:
+                value = value + fraction * (at[low + 2] - value)
+            quantiles[f"p{_q_name(q)}"] = value
+        return ChangeDistribution(
+            mean=total[f"sum_{quantity}"] / n, minimum=total[f"min_{quantity}"], maximum=total[f"max_{quantity}"],
+            quantiles=quantiles, bands=bands,
+            rows_up=sum(b.rows for b in bands if b.index > 0), rows_unchanged=counts.get(0, 0),
+            rows_down=sum(b.rows for b in bands if b.index < 0))
+
+    pdo = new.scaling.pdo
+    score_change = distribution("score_change", "score_band", band_labels([s * pdo for s in SCORE_STEPS], " points"))
+    pd_change = distribution("pd_change", "pd_band", band_labels(PD_STEPS, " pp", scale=100))
+
+    # grade migration, best grade first in each version
+    old_grades = tuple(g.name for g in sorted(old.grades, key=lambda g: -g.lower))
+    new_grades = tuple(g.name for g in sorted(new.grades, key=lambda g: -g.lower))
+    cells = {(r["old_grade"], r["new_grade"]): int(r["rows"]) for r in of("migration")}
+    counts = tuple(tuple(cells.get((a, b), 0) for b in new_grades) for a in old_grades)
+    up = same = down = 0
+    for i, a in enumerate(old_grades):
+        for j, b in enumerate(new_grades):
+            rows_here = counts[i][j]
+            if j < i:
+                up += rows_here
+            elif j == i:
+                same += rows_here
+            else:
+                down += rows_here
+    migration = Migration(old_grades, new_grades, counts, up, same, down, old_grades == new_grades)
+
+    swap_set = None
+    if cutoffs is not None:
+        by_cell = {r["swap_cell"]: r for r in of("swap")}
+        swap_cells = []
+        for name in SWAP_CELLS:
+            r = by_cell.get(name)
+            rows_here = int(r["rows"]) if r else 0
+            known = int(r["rows_with_outcome"]) if r else 0
+            events = int(r["events"] or 0) if r else 0
+            swap_cells.append(Cell(name, rows_here, rows_here / n, known, events, events / known if known else None))
+        swap_set = SwapSet(cutoffs[0], cutoffs[1], tuple(swap_cells))
+
+    moves = [(r["old_reason"], r["new_reason"], int(r["rows"])) for r in of("reason")]
+    changed = [m for m in moves if m[0] != m[1]]
+    rows_changed = sum(m[2] for m in changed)
+    top = tuple(sorted(changed, key=lambda m: (-m[2], str(m[0]), str(m[1])))[:5])
+    first_reason = ReasonShift(rows_changed, rows_changed / n, top)
+
+    products, old_squares, new_squares = (total["sum_rank_products"], total["sum_old_rank_squares"],
+                                          total["sum_new_rank_squares"])
+    spearman = products / math.sqrt(old_squares * new_squares) if old_squares > 0 and new_squares > 0 else None
+
+    return Impact(
+        population=population, outcome=outcome, rows=n,
+        rows_with_outcome=int(total["rows_with_outcome"]), events=int(total["events"] or 0),
+        mean_score_old=total["sum_old_score"] / n, mean_score_new=total["sum_new_score"] / n,
+        mean_pd_old=total["sum_old_pd"] / n, mean_pd_new=total["sum_new_pd"] / n,
+        score_change=score_change, pd_change=pd_change, migration=migration, swap_set=swap_set,
+        first_reason=first_reason, spearman=spearman,
+    )
+
+
+def population_text(table: str | None, file: str | None, database: str | None) -> str:
+    """How a report names the population: ``table T in DB`` or ``file F``."""
+    if file is not None:
+        return f"file {file}"
+    return f"table {table} in {database or 'an in-memory database'}"
+
+
+def check_outcome_type(outcome: str, columns: Mapping[str, str]) -> bool:
+    """True when the outcome column is boolean; raises :class:`InputError` when it is missing or not 0/1-able."""
+    kind = columns.get(outcome)
+    if kind is None:
+        raise InputError(f"outcome column {outcome!r} is not in the input; name a 0/1 column with --outcome")
+    upper = kind.upper()
+    if upper in ("BOOLEAN", "BOOL"):
+        return True
+    numeric = ("INT", "DOUBLE", "FLOAT", "REAL", "DECIMAL", "NUMERIC", "BIGINT", "SMALLINT", "TINYINT", "HUGEINT")
+    if not any(word in upper for word in numeric):
+        raise InputError(f"outcome column {outcome!r} is {kind}; it must hold 0/1 (or true/false), "
+                         "with NULL where the outcome is not yet known")
+    return False
