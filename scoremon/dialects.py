@@ -75,6 +75,11 @@ def render_table(parts: Sequence[str], dialect: str) -> str:
     return render_sql(table_path(parts), dialect, pretty=False)
 
 
+def render_name(name: str, dialect: str) -> str:
+    """One column or table name as a quoted identifier for ``dialect``."""
+    return render_sql(exp.to_identifier(name, quoted=True), dialect, pretty=False)
+
+
 def render_type(kind: str, dialect: str) -> str:
     """One of :data:`COLUMN_KINDS` as the dialect's type name (DOUBLE → DOUBLE PRECISION on PostgreSQL)."""
     if kind not in COLUMN_KINDS:

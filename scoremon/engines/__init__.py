@@ -1,24 +1,49 @@
 """The only package that talks to a database.
 
-A small connection protocol (:class:`Engine`): run a statement, fetch rows, describe a
-query's columns, and write a query's result atomically to a table. Each engine implements it in
-its own module; :func:`open_engine` picks one from a URL.
+A small connection protocol (:class:`Engine`, in ``protocol``): run a statement, fetch rows,
+describe a query's columns, write a query's result or a batch of rows atomically to a table.
+Each engine implements it in its own module — ``duckdb_engine``, ``postgres`` (psycopg 3) and
+``spark`` (pyspark) — and :func:`open_engine` picks one from a URL.
 """
 from __future__ import annotations
 
 from ..errors import InputError
 from .duckdb_engine import DuckDBEngine
-from .protocol import Engine, Progress
+from .postgres import PostgresEngine
+from .protocol import ColumnSpec, Engine, Progress
+from .spark import SparkEngine, spark_master
 
-__all__ = ["DuckDBEngine", "Engine", "Progress", "open_engine"]
+__all__ = ["ColumnSpec", "DuckDBEngine", "Engine", "PostgresEngine", "Progress", "SparkEngine", "open_engine"]
+
+ENGINE_URLS = (
+    "a DuckDB file or :memory: (the default), "
+    "postgresql://USER@HOST:PORT/DATABASE (PostgreSQL), "
+    "spark://local[N] (a local Spark session with N cores) or spark://HOST:PORT (a Spark master)"
+)
 
 
-def open_engine(url: str | None = None, threads: int | None = None, memory_limit: str | None = None) -> DuckDBEngine:
-    """The engine named by ``url``: a DuckDB file path or ``:memory:`` (the default)."""
+def open_engine(url: str | None = None, threads: int | None = None, memory_limit: str | None = None) -> Engine:
+    """The engine named by ``url``; see :data:`ENGINE_URLS`.
+
+    ``threads`` sets DuckDB's threads, or the cores of a plain ``spark://local`` session;
+    ``memory_limit`` is DuckDB's. Raises :class:`InputError` for a URL scoremon does not know,
+    :class:`~scoremon.errors.EngineError` when the engine refuses to start.
+
+    >>> engine = open_engine(":memory:")
+    >>> engine.dialect
+    'duckdb'
+    >>> engine.close()
+    """
     if url is None or url in ("", ":memory:", "duckdb://", "duckdb:///:memory:"):
         return DuckDBEngine(":memory:", threads, memory_limit)
-    if url.startswith("duckdb://"):
+    scheme = url.partition("://")[0].lower() if "://" in url else ""
+    if scheme in ("postgresql", "postgres"):
+        return PostgresEngine(url)
+    if scheme == "spark":
+        master, config = spark_master(url, threads)
+        return SparkEngine(master, config)
+    if scheme == "duckdb":
         url = url[len("duckdb://"):]
-    if "://" in url:
-        raise InputError(f"engine URL {url!r} is not one scoremon knows; give a DuckDB file path or :memory:")
+    elif scheme:
+        raise InputError(f"engine URL scheme {scheme!r} is not one scoremon knows; give {ENGINE_URLS}")
     return DuckDBEngine(url, threads, memory_limit)

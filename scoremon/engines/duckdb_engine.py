@@ -9,12 +9,17 @@ import os
 import threading
 import uuid
 from pathlib import Path
+from typing import Any, Sequence
 
+import duckdb
 import pandas as pd
-from sqlglot import exp
 
+from ..dialects import render_table
 from ..errors import EngineError, InputError
-from .protocol import Progress
+from .protocol import ColumnSpec, Progress
+from .rows import arrow_table
+
+INTERNAL = "__scoremon_"  # prefix of the names scoremon gives its own scratch tables and views
 
 
 class DuckDBEngine:
@@ -28,8 +33,6 @@ class DuckDBEngine:
     dialect = "duckdb"
 
     def __init__(self, database: str = ":memory:", threads: int | None = None, memory_limit: str | None = None):
-        import duckdb
-
         self._duckdb = duckdb
         self.database = database
         try:
@@ -58,9 +61,7 @@ class DuckDBEngine:
 
     def write_table(self, sql: str, table: list[str], purpose: str, progress: Progress | None = None) -> None:
         """Replace ``table`` with the result of ``sql`` in one transaction: all or nothing."""
-        target = exp.Table(this=exp.to_identifier(table[-1], quoted=True),
-                           db=exp.to_identifier(table[-2], quoted=True) if len(table) > 1 else None)
-        statement = f"CREATE OR REPLACE TABLE {target.sql(dialect='duckdb', identify=True)} AS {sql}"
+        statement = f"CREATE OR REPLACE TABLE {render_table(table, self.dialect)} AS {sql}"
 
         def work():
             self.connection.execute("BEGIN TRANSACTION")
@@ -72,6 +73,17 @@ class DuckDBEngine:
                 raise
 
         self._run(work, purpose, progress)
+
+    def write_rows(self, table: list[str], columns: Sequence[ColumnSpec], rows: Sequence[Sequence[Any]],
+                   purpose: str) -> None:
+        """Replace ``table`` with ``rows`` in one transaction (an Arrow table keeps NaN apart from NULL)."""
+        data = arrow_table(columns, rows)
+        view = f"{INTERNAL}rows_{uuid.uuid4().hex}"
+        self._run(lambda: self.connection.register(view, data), purpose)
+        try:
+            self.write_table(f"SELECT * FROM {render_table([view], self.dialect)}", table, purpose)
+        finally:
+            self.connection.unregister(view)
 
     def write_parquet(self, sql: str, path: str | Path, purpose: str, progress: Progress | None = None) -> None:
         """Write the result of ``sql`` to a Parquet file; the file appears whole or not at all."""

@@ -1,0 +1,208 @@
+"""Spark SQL through pyspark: a local session or a cluster's master.
+
+URLs (see :func:`spark_master`): ``spark://local`` (one core), ``spark://local[N]`` or
+``spark://local[*]`` run Spark inside this process; any other ``spark://HOST:PORT`` is a standalone
+master. ``?key=value`` pairs whose key starts with ``spark.`` are passed to the session's
+configuration, e.g. ``spark://local[2]?spark.sql.warehouse.dir=/data/warehouse``.
+
+**Writes are best-effort atomic.** Spark's catalogs have no transactions, so a table cannot be
+swapped in one step. :meth:`SparkEngine.write_table` therefore builds the whole result under a
+scratch name first (a failure there leaves the old table untouched and the scratch table
+dropped), then renames the old table aside, renames the new one in, and drops the old one. If
+the rename in fails, the old table is renamed back. Only if the process dies between the two
+renames is the table briefly missing; the old result is then still there under the name
+``__scoremon_old_<hex>`` and the new one under ``__scoremon_new_<hex>`` in the same database.
+"""
+from __future__ import annotations
+
+import logging
+import os
+import re
+import uuid
+from typing import Any, Mapping, Sequence
+from urllib.parse import parse_qsl
+
+import pandas as pd
+
+from ..dialects import render_table
+from ..errors import EngineError, InputError
+from .protocol import ColumnSpec, Progress
+from .rows import arrow_table
+
+INTERNAL = "__scoremon_"  # prefix of the names scoremon gives its own scratch tables and views
+_LOCAL = re.compile(r"^local(\[(\d+|\*)\])?$")
+
+
+def spark_master(url: str, threads: int | None = None) -> tuple[str, dict[str, str]]:
+    """``spark://…`` → (Spark master, configuration); raises :class:`InputError` for a bad URL.
+
+    >>> spark_master("spark://local[2]")
+    ('local[2]', {})
+    >>> spark_master("spark://spark-head:7077?spark.executor.memory=4g")
+    ('spark://spark-head:7077', {'spark.executor.memory': '4g'})
+    """
+    if not url.startswith("spark://"):
+        raise InputError(f"Spark URL {url!r} must start with spark://")
+    target, _, query = url[len("spark://"):].partition("?")
+    config = dict(parse_qsl(query, keep_blank_values=True))
+    unknown = [key for key in config if not key.startswith("spark.")]
+    if unknown:
+        raise InputError(f"Spark URL option(s) {', '.join(unknown)} are not Spark settings (spark.…)")
+    if not target:
+        raise InputError("Spark URL names no master; use spark://local[N] for a local session or spark://HOST:PORT")
+    if _LOCAL.match(target):
+        if target == "local" and threads:
+            target = f"local[{int(threads)}]"
+        return target, config
+    return f"spark://{target}", config
+
+
+class SparkEngine:
+    """Spark SQL, e.g. ``SparkEngine("local[2]")`` or ``SparkEngine("spark://head:7077")``.
+
+    A Spark session already running in this process is reused (Spark allows one per process)
+    and left running by :meth:`close`; a session this engine started is stopped by it.
+    """
+
+    dialect = "spark"
+
+    def __init__(self, master: str = "local[1]", config: Mapping[str, str] | None = None):
+        # pyspark is an optional, heavy extra (``scoremon[engines]``; it starts a JVM): imported
+        # only when a Spark URL is opened.
+        try:
+            from py4j.protocol import Py4JError
+            from pyspark.errors import PySparkException
+            from pyspark.logger import PySparkLogger
+            from pyspark.sql import SparkSession
+        except ImportError as error:
+            raise InputError("a Spark URL needs pyspark; install it with: pip install 'scoremon[engines]'") from error
+        self._driver_errors = (PySparkException, Py4JError)
+        # pyspark logs every failed query's error itself; scoremon reports it as an EngineError
+        for name in ("SQLQueryContextLogger", "DataFrameQueryContextLogger"):
+            PySparkLogger.getLogger(name).setLevel(logging.CRITICAL)
+        self.label = f"spark {master}"
+        active = SparkSession.getActiveSession()
+        if active is not None:
+            self.session, self._owns_session = active, False
+            return
+        settings = {
+            "spark.ui.enabled": "false",
+            "spark.ui.showConsoleProgress": "false",
+            # as many shuffle partitions as cores: the default 200 makes small GROUP BYs crawl
+            "spark.sql.shuffle.partitions": str(_cores(master)),
+            # ANSI mode is the behaviour the compiled SQL was checked under (errors, not NULLs)
+            "spark.sql.ansi.enabled": "true",
+            "spark.sql.session.timeZone": "UTC",
+            "spark.sql.execution.arrow.pyspark.enabled": "true",
+            **dict(config or {}),
+        }
+        builder = SparkSession.builder.master(master).appName("scoremon")
+        for key, value in settings.items():
+            builder = builder.config(key, value)
+        try:
+            self.session = builder.getOrCreate()
+        except self._driver_errors as error:
+            raise EngineError("starting a Spark session", self.label, _first_line(error)) from error
+        self.session.sparkContext.setLogLevel("ERROR")
+        self._owns_session = True
+
+    # -- the protocol
+
+    def execute(self, sql: str, purpose: str) -> None:
+        self._run(lambda: self.session.sql(sql).collect(), purpose)
+
+    def fetch(self, sql: str, purpose: str, progress: Progress | None = None) -> list[tuple]:
+        rows = self._run(lambda: [tuple(row) for row in self.session.sql(sql).collect()], purpose)
+        if progress:
+            progress(1.0)
+        return rows
+
+    def fetch_frame(self, sql: str, purpose: str) -> pd.DataFrame:
+        # built from collected rows: pyspark's toPandas does not yet support pandas 3
+        def work():
+            result = self.session.sql(sql)
+            return pd.DataFrame.from_records([tuple(row) for row in result.collect()], columns=result.columns)
+
+        return self._run(work, purpose)
+
+    def describe(self, sql: str, purpose: str) -> list[tuple[str, str]]:
+        """Column names and Spark's type names upper-cased (``DOUBLE``, ``STRING``, ``INT``, …); runs nothing."""
+        schema = self._run(lambda: self.session.sql(sql).schema, purpose)
+        return [(field.name, field.dataType.simpleString().upper()) for field in schema.fields]
+
+    def write_table(self, sql: str, table: list[str], purpose: str, progress: Progress | None = None) -> None:
+        """Replace ``table`` with the result of ``sql``, best-effort atomic (see the module docstring)."""
+        token = uuid.uuid4().hex
+        scratch = table[:-1] + [f"{INTERNAL}new_{token}"]
+        aside = table[:-1] + [f"{INTERNAL}old_{token}"]
+        target, new, old = (render_table(t, self.dialect) for t in (table, scratch, aside))
+        try:
+            self._run(lambda: self.session.sql(f"CREATE TABLE {new} USING PARQUET AS {sql}").collect(), purpose)
+        except BaseException:
+            self._drop_quietly(new)
+            raise
+        had_table = self._run(lambda: self._exists(table), purpose)
+        if had_table:
+            self._run(lambda: self.session.sql(f"ALTER TABLE {target} RENAME TO {old}").collect(), purpose)
+        try:
+            self._run(lambda: self.session.sql(f"ALTER TABLE {new} RENAME TO {target}").collect(), purpose)
+        except BaseException:
+            if had_table:
+                self._run(lambda: self.session.sql(f"ALTER TABLE {old} RENAME TO {target}").collect(), purpose)
+            self._drop_quietly(new)
+            raise
+        if had_table:
+            self._run(lambda: self.session.sql(f"DROP TABLE {old}").collect(), purpose)
+        if progress:
+            progress(1.0)
+
+    def write_rows(self, table: list[str], columns: Sequence[ColumnSpec], rows: Sequence[Sequence[Any]],
+                   purpose: str) -> None:
+        """Replace ``table`` with ``rows``: a DataFrame with an explicit schema (Arrow's), then
+        :meth:`write_table`. Spark's DOUBLE keeps NaN and ±inf apart from NULL."""
+        data = arrow_table(columns, rows)
+        view = f"{INTERNAL}rows_{uuid.uuid4().hex}"
+        self._run(lambda: self.session.createDataFrame(data).createOrReplaceTempView(view), purpose)
+        try:
+            self.write_table(f"SELECT * FROM {render_table([view], self.dialect)}", table, purpose)
+        finally:
+            self.session.catalog.dropTempView(view)
+
+    def close(self) -> None:
+        if self._owns_session:
+            self.session.stop()
+
+    # -- helpers
+
+    def _exists(self, table: list[str]) -> bool:
+        # the catalog API takes the names as values, so nothing is parsed as SQL
+        if len(table) == 2:
+            return self.session.catalog.tableExists(table[1], table[0])
+        return self.session.catalog.tableExists(table[0])
+
+    def _drop_quietly(self, rendered: str) -> None:
+        try:
+            self.session.sql(f"DROP TABLE IF EXISTS {rendered}").collect()
+        except self._driver_errors:  # cleaning up after a failure: the first error is the one reported
+            pass
+
+    def _run(self, work, purpose: str):
+        try:
+            return work()
+        except self._driver_errors as error:
+            raise EngineError(purpose, self.label, _first_line(error)) from error
+
+
+def _cores(master: str) -> int:
+    found = _LOCAL.match(master)
+    if not found:
+        return 8
+    count = found.group(2)
+    if count is None:
+        return 1
+    return (os.cpu_count() or 2) if count == "*" else int(count)
+
+
+def _first_line(error: BaseException) -> str:
+    text = str(error).strip()
+    return text.splitlines()[0] if text else type(error).__name__
