@@ -106,6 +106,16 @@ UTILISATION_DRIFT = 0.045  # added to utilisation's log-odds a month, from DRIFT
 BROKER_DRIFT = 0.012  # broker share gained a month from DRIFT_START (taken from branches)
 BROKER_DRIFT_CAP = 0.18
 
+# The planted facts in one line each, oldest first, for the demo's summary.
+PLANTED = (
+    (f"{STRESS_START:%Y-%m}", f"economic stress: true risk up {STRESS_STEP:g} log-odds a month (to {STRESS_CAP:g}); "
+                              "no characteristic shows it"),
+    (f"{DRIFT_START:%Y-%m}", "drift: utilisation creeps up, nominal income inflates "
+                             f"{INCOME_INFLATION:.1%} a month, broker share grows from 12% towards 30%"),
+    (f"{MISSING_JOB_MONTH:%Y-%m}", "months_in_job NULL on about 70% of rows (employment feed outage)"),
+    (f"{UNSEEN_CHANNEL_MONTH:%Y-%m}", f"channel code {UNSEEN_CHANNEL}, unseen in development, on about 18% of rows"),
+)
+
 APPLICATIONS_DDL = """
 CREATE TABLE applications (
     application_id BIGINT NOT NULL,

@@ -1,0 +1,152 @@
+"""``scoremon demo``: build Quillfield Credit's book, check the demo spec, score the book.
+
+:func:`run_demo` runs :data:`STEPS` in order. A step is a function that takes the shared
+:class:`DemoRun`, does its work, leaves what later steps need on the run (the book, the spec,
+the scoring result) and returns a :class:`StepOutcome`: the lines shown under its heading and,
+if it has more to show (a table), a function that shows it. The heading, the timing and the
+wrap-up are the runner's job, so a new step is one function and one line in :data:`STEPS`.
+
+The warehouse is a DuckDB file, ``quillfield.duckdb``, in the folder given with ``--folder``
+(created if needed) or in a new temporary folder that is kept and named in the output, so the
+user can open it afterwards.
+"""
+from __future__ import annotations
+
+import tempfile
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable
+
+from scoremon import api
+from scoremon.api import ScoreResult
+from scoremon.errors import InputError
+from scoremon.report import terminal
+from scoremon.report.terminal import demo as view
+from scoremon.spec import Spec, fingerprint
+
+from . import generate
+from .generate import Book
+
+SPEC_V1 = Path(__file__).with_name("spec_v1.yaml")
+DATABASE_NAME = "quillfield.duckdb"
+SCORED = "scored_applications"
+SCORED_KEYS = (generate.KEY_COLUMN, generate.MONTH_COLUMN)
+
+
+@dataclass
+class DemoRun:
+    """What the steps share: where things are, and what each step has produced so far."""
+
+    folder: Path
+    rows: int
+    spec_path: Path = SPEC_V1
+    book: Book | None = None
+    spec: Spec | None = None
+    scored: ScoreResult | None = None
+    tables: list[str] = field(default_factory=list)
+
+    @property
+    def database(self) -> Path:
+        return self.folder / DATABASE_NAME
+
+
+@dataclass(frozen=True)
+class StepOutcome:
+    """A step's result lines and, optionally, a function that shows more (a table)."""
+
+    lines: tuple[str, ...]
+    show_details: Callable[[], None] | None = None
+
+
+Step = Callable[[DemoRun], StepOutcome]
+
+
+def build_book(run: DemoRun) -> StepOutcome:
+    with terminal.progress_bar("building the book") as progress:
+        run.book = generate.build_warehouse(run.database, run.rows, progress=progress)
+    run.tables += [generate.APPLICATIONS, generate.DEVELOPMENT]
+    book = run.book
+    first, last = book.months[0], book.months[-1]
+    lines = (
+        f"{book.rows:,} applications in {len(book.months)} monthly cohorts, {first:%Y-%m} to {last:%Y-%m}; "
+        f"as of {generate.AS_OF} outcomes are known for the {len(book.mature_months)} oldest, not yet for the "
+        f"{len(book.immature_months)} youngest. Development sample: {book.development_rows:,} rows.",
+    )
+    return StepOutcome(lines, lambda: view.print_planted("planted for monitoring to find:", generate.PLANTED))
+
+
+def check_spec(run: DemoRun) -> StepOutcome:
+    run.spec = api.load_spec(run.spec_path)
+    model = run.spec.model
+    return StepOutcome((
+        f"{model.name} version {model.version}: {len(run.spec.features)} features, {len(run.spec.grades)} grades, "
+        f"fingerprint {fingerprint(run.spec)}",
+    ))
+
+
+def score_book(run: DemoRun) -> StepOutcome:
+    engine = api.open_engine(str(run.database))
+    try:
+        # DuckDB draws its own progress bar on standard output for long queries, in the
+        # middle of the demo's text; scoremon's bar (fed from the same progress) stays.
+        engine.execute("SET enable_progress_bar_print = false", "turning off DuckDB's own progress bar")
+        with terminal.progress_bar("scoring the book") as progress:
+            run.scored = api.score(run.spec, engine, api.source_relation(table=generate.APPLICATIONS),
+                                   keys=SCORED_KEYS, out_table=SCORED, progress=progress)
+    finally:
+        engine.close()
+    run.tables.append(SCORED)
+    scored = run.scored
+    return StepOutcome(
+        (f"{scored.rows:,} rows into table {SCORED}, keyed by {' and '.join(SCORED_KEYS)}",),
+        lambda: view.print_grades(scored.grade_counts),
+    )
+
+
+# The demo, in order. Steps added later (monitoring by month, then the diff of version 1
+# against version 2) go after "score the book": they read run.book, run.spec and the
+# scored table, and may add their tables to run.tables.
+STEPS: tuple[tuple[str, Step], ...] = (
+    ("build the book", build_book),
+    ("check the spec", check_spec),
+    ("score the book", score_book),
+)
+
+
+def demo_folder(requested: str | None) -> Path:
+    """The folder to build in: the one asked for (created if missing) or a new temporary one."""
+    if requested is None:
+        return Path(tempfile.mkdtemp(prefix="scoremon-demo-"))
+    folder = Path(requested)
+    if folder.exists() and not folder.is_dir():
+        raise InputError(f"{folder} is a file, not a folder; give a folder for the demo warehouse")
+    folder.mkdir(parents=True, exist_ok=True)
+    return folder
+
+
+def run_demo(args) -> int:
+    """Run :data:`STEPS` with ``args.rows`` applications in ``args.folder``; return the exit code.
+
+    Raises :class:`~scoremon.errors.ScoremonError` subclasses for anything the user can fix
+    (a row count out of range, a folder that is a file); the CLI prints them.
+    """
+    rows = generate.DEFAULT_ROWS if args.rows is None else args.rows
+    if not generate.MIN_ROWS <= rows <= generate.MAX_ROWS:
+        raise InputError(f"--rows {rows:,} is out of range; give {generate.MIN_ROWS:,} to {generate.MAX_ROWS:,}")
+    run = DemoRun(folder=demo_folder(args.folder), rows=rows)
+    view.print_title(f"{generate.LENDER}, an invented consumer lender")
+    timings = []
+    for number, (name, step) in enumerate(STEPS, start=1):
+        started = time.perf_counter()
+        outcome = step(run)
+        seconds = time.perf_counter() - started
+        timings.append((name.split()[0], seconds))
+        view.print_step(number, name, seconds, outcome.lines)
+        if outcome.show_details:
+            outcome.show_details()
+    view.print_wrap_up(
+        [("warehouse", str(run.database)), ("tables", ", ".join(run.tables)), ("spec", str(run.spec_path))],
+        timings,
+    )
+    return 0
