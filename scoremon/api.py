@@ -17,13 +17,16 @@ from sqlglot import exp
 
 from .compiler import compile_model, identifier, output_columns
 from .dialects import render_sql
+from .diff import DiffReport, Impact, ModelDiff, diff_models, impact_query, summarise_impact
+from .diff.impact import check_outcome_type
 from .engines import DuckDBEngine, Engine, Progress, open_engine
 from .errors import InputError
 
 from .spec import fingerprint, load_spec
 from .spec.model import CategoricalFeature, Spec
 
-__all__ = ["ScoreResult", "compile_sql", "describe_source", "load_spec", "open_engine", "score", "source_relation"]
+__all__ = ["DiffReport", "Impact", "ModelDiff", "ScoreResult", "compile_sql", "describe_source", "diff_models",
+           "load_spec", "measure_impact", "open_engine", "score", "source_relation"]
 
 NUMBER_TYPE = re.compile(r"^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|UTINYINT|USMALLINT|UINTEGER|UBIGINT|UHUGEINT|"
                          r"FLOAT|DOUBLE|REAL|DECIMAL(\(.*\))?|NUMERIC(\(.*\))?|INT\d?|SMALLINT|DOUBLE PRECISION)$", re.I)
@@ -164,3 +167,49 @@ def grade_counts(engine: Engine, scored: exp.Expression) -> dict[str, int]:
     query = exp.select(grade, exp.Count(this=exp.Star())).from_(scored.copy()).group_by(grade).order_by(grade)
     rows = engine.fetch(render_sql(query, engine.dialect, pretty=False), "counting rows per grade")
     return {str(g): int(n) for g, n in rows}
+
+
+def measure_impact(
+    old: Spec,
+    new: Spec,
+    engine: Engine,
+    source: exp.Expression,
+    population: str = "",
+    outcome: str | None = None,
+    cutoff: float | None = None,
+    new_cutoff: float | None = None,
+) -> Impact:
+    """Score ``source`` under both versions in one query inside ``engine`` and summarise the move.
+
+    ``outcome`` names an optional 0/1 column (NULL: not yet known); ``cutoff`` is the score at
+    or above which a row is accepted (``new_cutoff`` for the new version, default the same).
+    Only aggregates leave the engine. Raises :class:`InputError` listing every column either
+    version needs and the input lacks, and for an empty population or a bad outcome column.
+
+    >>> engine = open_engine()
+    >>> spec = load_spec("tests/fixtures/small.yaml")
+    >>> engine.execute("CREATE TABLE book AS SELECT 30.0 AS age, 'N1' AS region_code, 0.5 AS utilisation", "demo")
+    >>> measure_impact(spec, spec, engine, source_relation(table="book")).score_change.rows_unchanged
+    1
+    """
+    if new_cutoff is not None and cutoff is None:
+        raise InputError("a cut-off for the new version needs one for the old version too; give --cutoff")
+    columns = describe_source(engine, source)
+    problems = []
+    for side, spec in (("old", old), ("new", new)):
+        problems += [f"{side} version: {p}" for p in check_columns(spec, columns, ())]
+    outcome_is_boolean = False
+    if outcome is not None:
+        try:
+            outcome_is_boolean = check_outcome_type(outcome, columns)
+        except InputError as error:
+            problems.append(str(error))
+    if problems:
+        raise InputError("the input does not fit the specs:\n" + "\n".join(f"  - {p}" for p in problems))
+    cutoffs = None if cutoff is None else (float(cutoff), float(cutoff if new_cutoff is None else new_cutoff))
+    floats = [name for name, kind in columns.items() if FLOAT_TYPE.match(kind)]
+    query = impact_query(old, new, source, floats, outcome, outcome_is_boolean, cutoffs)
+    rows = engine.fetch(render_sql(query.tree, engine.dialect, pretty=False),
+                        "scoring the population under both versions")
+    return summarise_impact(query.columns, rows, old, new, population, outcome, cutoffs)
+

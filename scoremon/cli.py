@@ -7,12 +7,16 @@ from __future__ import annotations
 
 import argparse
 import sys
+from datetime import datetime, timezone
 from pathlib import Path
 
 from . import api
 from .dialects import DIALECTS
 from .errors import InputError, ScoremonError, SpecError
 from .report import terminal
+from .report.json import to_json
+from .report.markdown import diff_markdown
+from .report.terminal import diff as diff_view
 from .report.terminal import score as score_view
 from .spec import fingerprint
 from .spec.schema import schema_text
@@ -62,6 +66,58 @@ def _schema(args) -> int:
     return EXIT_OK
 
 
+def _load_both(old_path: str, new_path: str):
+    """Both specs, or one SpecError listing the problems of both files."""
+    specs, problems = [], []
+    for path in (old_path, new_path):
+        try:
+            specs.append(api.load_spec(path))
+        except SpecError as error:
+            problems += error.problems
+    if problems:
+        raise SpecError(problems)
+    return specs
+
+
+def _writable(path: str | None) -> Path | None:
+    if path is None:
+        return None
+    target = Path(path)
+    if not target.parent.exists():
+        raise InputError(f"{target}: folder {target.parent} does not exist; create it or choose another path")
+    return target
+
+
+def _diff(args) -> int:
+    population = args.table is not None or args.input is not None
+    if not population:
+        given = [name for name, value in (("--db", args.db), ("--outcome", args.outcome), ("--cutoff", args.cutoff),
+                                          ("--new-cutoff", args.new_cutoff)) if value is not None]
+        if given:
+            raise InputError(f"{', '.join(given)} describe the population; also give --table (with --db) or --input")
+    if args.table is not None and args.db is None:
+        raise InputError("--table names a table in a database; give the database with --db (or use --input FILE)")
+    json_file, markdown_file = _writable(args.json), _writable(args.markdown)
+    old, new = _load_both(args.old, args.new)
+    diff = api.diff_models(old, new, args.old, args.new)
+    impact = None
+    if population:
+        engine = api.open_engine(args.db)
+        try:
+            source = api.source_relation(table=args.table, file=args.input)
+            where = f"table {args.table} in {args.db}" if args.table is not None else f"file {args.input}"
+            impact = api.measure_impact(old, new, engine, source, where, args.outcome, args.cutoff, args.new_cutoff)
+        finally:
+            engine.close()
+    report = api.DiffReport(diff, impact, datetime.now(timezone.utc).isoformat(timespec="seconds"))
+    diff_view.print_diff(report)
+    for target, text in ((json_file, lambda: to_json(report)), (markdown_file, lambda: diff_markdown(report))):
+        if target is not None:
+            target.write_text(text() + "\n", encoding="utf-8")
+            terminal.print_text(f"wrote {target}")
+    return EXIT_OK if diff.is_equivalent else EXIT_FOUND
+
+
 def _demo(args) -> int:
     from demo_warehouse.run import run_demo
 
@@ -103,6 +159,29 @@ def build_parser() -> argparse.ArgumentParser:
     schema = commands.add_parser("schema", help="print the spec's JSON Schema (for editors)")
     schema.add_argument("--out", help="write it to this file")
     schema.set_defaults(run=_schema)
+
+    diff = commands.add_parser(
+        "diff", help="what changed between two versions of a model, and whom it affects",
+        description="Compare two specs semantically (never as text) and classify each change by how it can "
+                    "affect a score: none, scaling only, one feature, structure. Given a population, score it "
+                    "under both versions in one query and show the score and PD change, the grade migration, "
+                    "the swap set at a cut-off and how often the first reason changes.",
+        epilog="exit codes: 0 the specs are the same model (equal fingerprints); 1 they differ; "
+               "2 invalid input (a spec, a table, a column, an option), one line per problem",
+    )
+    diff.add_argument("old", help="the old version's spec file (YAML)")
+    diff.add_argument("new", help="the new version's spec file (YAML)")
+    diff.add_argument("--db", default=None, help="DuckDB database file holding --table")
+    population = diff.add_mutually_exclusive_group()
+    population.add_argument("--table", help="population to score: a table in --db (NAME or SCHEMA.NAME)")
+    population.add_argument("--input", help="population to score: a Parquet or CSV file")
+    diff.add_argument("--outcome", help="0/1 outcome column (NULL: not yet known), for event rates")
+    diff.add_argument("--cutoff", type=float, help="accept when score >= SCORE, for the swap set", metavar="SCORE")
+    diff.add_argument("--new-cutoff", type=float, metavar="SCORE",
+                      help="the new version's cut-off when it differs from --cutoff (e.g. after a rescaling)")
+    diff.add_argument("--json", metavar="FILE", help="also write the result as JSON to FILE")
+    diff.add_argument("--markdown", metavar="FILE", help="also write an audit document (Markdown) to FILE")
+    diff.set_defaults(run=_diff)
 
     demo = commands.add_parser("demo", help="build the demo warehouse and run the whole job on it")
     demo.add_argument("--rows", type=int, default=None, help="applications in the demo book (default: about 400,000)")

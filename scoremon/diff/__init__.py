@@ -5,6 +5,19 @@ change records; :mod:`~scoremon.diff.impact` builds the one query that scores a 
 under both versions and summarises its aggregates.
 """
 from .changes import diff_models
-from .records import Change, ChangeKind, Effect, ModelDiff, ScoreMap, VersionInfo
+from .impact import Impact, impact_query, summarise_impact
+from .records import Change, ChangeKind, DiffReport, Effect, ModelDiff, ScoreMap, VersionInfo
 
-__all__ = ["Change", "ChangeKind", "Effect", "ModelDiff", "ScoreMap", "VersionInfo", "diff_models"]
+__all__ = [
+    "Change",
+    "ChangeKind",
+    "DiffReport",
+    "Effect",
+    "Impact",
+    "ModelDiff",
+    "ScoreMap",
+    "VersionInfo",
+    "diff_models",
+    "impact_query",
+    "summarise_impact",
+]

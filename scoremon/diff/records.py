@@ -24,6 +24,8 @@ from dataclasses import dataclass, field
 from enum import Enum
 from typing import Any
 
+from .impact import Impact
+
 
 class Effect(str, Enum):
     """How a change can affect a score; members compare by severity."""
@@ -164,3 +166,13 @@ class ModelDiff:
             if change.feature is not None and change.effect is not Effect.NONE:
                 seen.setdefault(change.feature)
         return tuple(seen)
+
+
+@dataclass(frozen=True)
+class DiffReport:
+    """A diff as it goes into a report: the structural comparison, the impact on a
+    population when one was given, and when the run happened (ISO 8601, UTC)."""
+
+    diff: ModelDiff
+    impact: Impact | None
+    run_at: str

@@ -25,8 +25,10 @@ def number(value: float | None, digits: int = 2) -> str:
         return "inf" if value > 0 else "-inf"
     if float(value).is_integer():
         return f"{value:.0f}"
-    text = f"{value:.{digits}f}"
-    return text if float(text) != 0 or value == 0 else f"{value:.{digits}g}"
+    text = f"{value:.{digits}f}".rstrip("0").rstrip(".")
+    if text in ("0", "-0", ""):  # smaller than the digits shown: keep its first digits
+        return f"{value:.{digits}g}"
+    return text
 
 
 def signed(value: float, digits: int = 2) -> str:
