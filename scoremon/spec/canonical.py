@@ -2,10 +2,11 @@
 
 The canonical form is the spec as data with every default filled in, every implied label and
 route resolved, and every order that carries no meaning fixed (numeric bins by lower edge,
-category groups by label, values sorted, grades by lower edge). Its SHA-256 is the
-fingerprint: reformatting the YAML, reordering keys or bins keeps it; any change that can
-alter an output changes it. The baseline is reference data about the development sample,
-not part of the model, and is left out.
+category groups by label, values sorted, grades by lower edge); -0.0 is written as 0.0 and
+the reason count as the number of reasons a row can get. Its SHA-256 is the fingerprint:
+reformatting the YAML, reordering keys or bins keeps it; any change that can alter an output
+changes it. The baseline is reference data about the development sample, not part of the
+model, and is left out.
 """
 from __future__ import annotations
 
@@ -42,12 +43,29 @@ def _feature(feature) -> dict:
     return data
 
 
+def _without_negative_zero(data):
+    """-0.0 and 0.0 score alike (as an edge, a WoE or points); write both as 0.0."""
+    if isinstance(data, dict):
+        return {key: _without_negative_zero(value) for key, value in data.items()}
+    if isinstance(data, list):
+        return [_without_negative_zero(value) for value in data]
+    if isinstance(data, float) and data == 0.0:
+        return 0.0
+    return data
+
+
 def canonical_form(spec: Spec) -> dict:
-    """The spec as plain data in canonical form (see the module docstring)."""
+    """The spec as plain data in canonical form (see the module docstring).
+
+    The result holds only dicts, lists, text, numbers (±inf for open edges) and None, so
+    ``json.loads(json.dumps(form)) == form``.
+    """
     data = spec.model_dump(mode="json", exclude={"baseline"})
     data["features"] = [_feature(f) for f in spec.features]
     data["grades"] = sorted(data["grades"], key=lambda g: g["lower"])
-    return data
+    # Rows get at most one reason per statement: an unstated count (3) over two statements gives two.
+    data["reasons"]["count"] = min(spec.reasons.count, len(spec.reasons.statements))
+    return _without_negative_zero(data)
 
 
 def fingerprint(spec: Spec) -> str:
