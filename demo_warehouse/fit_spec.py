@@ -326,19 +326,23 @@ class Fit:
 def newton_raphson(design: np.ndarray, y: np.ndarray, names: list[str], tolerance: float = 1e-10,
                    most_iterations: int = 50) -> Fit:
     """Maximum-likelihood logistic regression: β ← β + (XᵀWX)⁻¹ Xᵀ(y − μ), W = μ(1 − μ)."""
+    failure = FitError(f"the logistic regression did not converge in {most_iterations} Newton steps; look for "
+                       "a characteristic that separates the outcome perfectly or a column that repeats another")
     beta = np.zeros(design.shape[1])
     beta[0] = math.log(y.mean() / (1 - y.mean()))  # start from the base rate: the intercept-only fit
-    for iteration in range(1, most_iterations + 1):
-        mu = 1 / (1 + np.exp(-(design @ beta)))
-        hessian = design.T @ (design * (mu * (1 - mu))[:, None])
-        step = np.linalg.solve(hessian, design.T @ (y - mu))
-        beta = beta + step
-        if np.max(np.abs(step)) < tolerance:
+    try:
+        for iteration in range(1, most_iterations + 1):
             mu = 1 / (1 + np.exp(-(design @ beta)))
             hessian = design.T @ (design * (mu * (1 - mu))[:, None])
-            return Fit(names, beta, np.sqrt(np.diag(np.linalg.inv(hessian))), iteration)
-    raise FitError(f"the logistic regression did not converge in {most_iterations} Newton steps; "
-                   "look for a characteristic that separates the outcome perfectly")
+            step = np.linalg.solve(hessian, design.T @ (y - mu))
+            beta = beta + step
+            if np.max(np.abs(step)) < tolerance:
+                mu = 1 / (1 + np.exp(-(design @ beta)))
+                hessian = design.T @ (design * (mu * (1 - mu))[:, None])
+                return Fit(names, beta, np.sqrt(np.diag(np.linalg.inv(hessian))), iteration)
+    except np.linalg.LinAlgError as error:  # a singular Hessian: separation pushes μ to 0 or 1
+        raise failure from error
+    raise failure
 
 
 def fit_model(binned: dict[str, Binned], development: Development) -> tuple[Fit, list[str]]:

@@ -77,11 +77,12 @@ def _print_wrapped(text: str, first: str, later: str | None = None,
     """``text`` wrapped to the terminal's width; ``first``/``later`` start the first/other lines.
 
     ``style_of_first`` (start, length) marks a label inside ``first`` to show bold (or cyan).
+    A word longer than a line (a path) is left whole, so it can be copied.
     """
     later = first if later is None else later
     width = max(out.width, len(first) + 20)
     lines = textwrap.wrap(text, width=width, initial_indent=first, subsequent_indent=later,
-                          break_on_hyphens=False) or [first.rstrip()]
+                          break_on_hyphens=False, break_long_words=False) or [first.rstrip()]
     for number, line in enumerate(lines):
         rendered = Text(line)
         if number == 0 and style_of_first is not None:

@@ -1,0 +1,306 @@
+"""The demo: the book generator, the fit script behind spec_v1.yaml, and ``scoremon demo``.
+
+The demo's numbers are invented, so no test uses one as a check value: the generator is
+checked for determinism, shape, maturity of outcomes and the planted drift being there; the
+fit script's arithmetic is checked against outside references; the command end to end.
+"""
+from __future__ import annotations
+
+import math
+from datetime import date
+from pathlib import Path
+
+import duckdb
+import numpy as np
+import pandas as pd
+import pytest
+import scipy.stats
+
+from demo_warehouse import fit_spec, generate
+from demo_warehouse.run import DATABASE_NAME, SCORED, SPEC_V1
+from scoremon import api, cli
+from scoremon.report.cautions import CAUTIONS
+
+SMALL = 6_000
+MEDIUM = 60_000
+
+
+def query(database: Path, sql: str, parameters=()):
+    connection = duckdb.connect(str(database), read_only=True)
+    try:
+        return connection.execute(sql, list(parameters)).fetchall()
+    finally:
+        connection.close()
+
+
+def months_between(first: date, later: date) -> int:
+    return (later.year - first.year) * 12 + later.month - first.month
+
+
+@pytest.fixture(scope="module")
+def book(tmp_path_factory):
+    """One medium book shared by the read-only tests of this module."""
+    return generate.build_warehouse(tmp_path_factory.mktemp("book") / "book.duckdb", rows=MEDIUM)
+
+
+# ---------------------------------------------------------------- determinism
+
+def test_same_seed_gives_the_same_rows(tmp_path):
+    first = generate.build_warehouse(tmp_path / "first.duckdb", rows=SMALL, seed=7)
+    second = generate.build_warehouse(tmp_path / "second.duckdb", rows=SMALL, seed=7)
+    other = generate.build_warehouse(tmp_path / "other.duckdb", rows=SMALL, seed=8)
+    connection = duckdb.connect()
+    for name, book in (("first", first), ("second", second), ("other", other)):
+        connection.execute(f"ATTACH '{book.database}' AS {name} (READ_ONLY)")
+    # EXCEPT ALL compares NULL with NULL and NaN with NaN as equal, row by row with duplicates
+    differ = "SELECT count(*) FROM (SELECT * FROM {a}.{t} EXCEPT ALL SELECT * FROM {b}.{t})"
+    for table in ("applications", "development"):
+        assert connection.execute(differ.format(a="first", b="second", t=table)).fetchone()[0] == 0
+        assert connection.execute(differ.format(a="second", b="first", t=table)).fetchone()[0] == 0
+    assert connection.execute(differ.format(a="first", b="other", t="applications")).fetchone()[0] > SMALL / 2
+    connection.close()
+
+
+def test_a_chunk_depends_only_on_seed_and_position():
+    months = np.repeat(np.arange(generate.MONTHS), 50)
+    once = generate.generate_chunk(11, 3, 1_000, months)
+    again = generate.generate_chunk(11, 3, 1_000, months)
+    pd.testing.assert_frame_equal(once, again)
+    moved = generate.generate_chunk(11, 4, 1_000, months)
+    assert not once["bureau_score"].equals(moved["bureau_score"])
+
+
+# ---------------------------------------------------------------- shape
+
+def test_book_has_every_month_and_unique_ordered_ids(book):
+    rows, ids, first_id, last_id = query(book.database, "SELECT count(*), count(DISTINCT application_id), "
+                                                       "min(application_id), max(application_id) FROM applications")[0]
+    assert rows == ids == MEDIUM == book.rows
+    assert last_id - first_id + 1 == MEDIUM
+    months = [m for (m,) in query(book.database, "SELECT DISTINCT application_month FROM applications ORDER BY 1")]
+    assert len(months) == 30 and months == list(book.months)
+    assert all(m.day == 1 for m in months)
+    assert all(months_between(a, b) == 1 for a, b in zip(months, months[1:]))
+    # ids rise with the month: no id of a month is below an id of an earlier month
+    ranges = query(book.database, "SELECT application_month, min(application_id), max(application_id) "
+                                  "FROM applications GROUP BY 1 ORDER BY 1")
+    assert all(earlier[2] < later[1] for earlier, later in zip(ranges, ranges[1:]))
+
+
+def test_columns_are_the_documented_ones(book):
+    columns = dict(query(book.database, "SELECT column_name, data_type FROM information_schema.columns "
+                                        "WHERE table_name = 'applications'"))
+    numeric = ["age", "monthly_income", "debt_to_income", "revolving_utilisation", "months_at_address",
+               "months_in_job", "enquiries_6m", "delinquencies_24m", "open_accounts", "loan_amount",
+               "term_months", "bureau_score"]
+    assert set(columns) == {"application_id", "application_month", "product", "region", "channel", "housing",
+                            "bad_12m", *numeric}
+    assert columns["application_month"] == "DATE"
+    assert all(columns[name] in ("INTEGER", "DOUBLE") for name in numeric)
+    assert all(columns[name] == "VARCHAR" for name in ("product", "region", "channel", "housing"))
+
+
+def test_outcomes_are_null_exactly_for_cohorts_younger_than_the_window(book):
+    as_of = pd.Timestamp(generate.AS_OF)
+    window = pd.DateOffset(months=generate.PERFORMANCE_WINDOW_MONTHS)
+    per_month = query(book.database, "SELECT application_month, count(*), count(bad_12m), "
+                                     "count(*) FILTER (WHERE bad_12m NOT IN (0, 1)) FROM applications GROUP BY 1")
+    mature = immature = 0
+    for month, rows, with_outcome, odd in per_month:
+        assert odd == 0
+        if pd.Timestamp(month) + window <= as_of:
+            assert with_outcome == rows, month
+            mature += 1
+        else:
+            assert with_outcome == 0, month
+            immature += 1
+    assert mature >= 12 and immature >= 1
+    assert immature == len(book.immature_months)
+
+
+def test_development_is_the_earliest_mature_months_with_outcomes(book):
+    rows, with_outcome, last_month = query(book.database,
+                                           "SELECT count(*), count(bad_12m), max(application_month) FROM development")[0]
+    assert rows == with_outcome == book.development_rows > 0
+    expected = query(book.database, "SELECT count(*) FROM applications WHERE application_month <= ?", [last_month])
+    assert expected[0][0] == rows
+    assert months_between(book.months[0], last_month) + 1 == generate.DEVELOPMENT_MONTHS
+    assert pd.Timestamp(last_month) + pd.DateOffset(months=generate.PERFORMANCE_WINDOW_MONTHS) <= pd.Timestamp(generate.AS_OF)
+
+
+def test_missing_values_are_null_and_a_few_nan(book):
+    nulls, nans = query(book.database, "SELECT count(*) FILTER (WHERE revolving_utilisation IS NULL), "
+                                       "count(*) FILTER (WHERE isnan(revolving_utilisation)) FROM applications")[0]
+    assert nulls > 0 and 0 < nans < nulls
+    for column in ("monthly_income", "bureau_score", "months_in_job", "months_at_address", "housing"):
+        share = query(book.database, f'SELECT avg(CASE WHEN "{column}" IS NULL THEN 1 ELSE 0 END) FROM development')[0][0]
+        assert 0 < share < 0.2, column
+
+
+# ---------------------------------------------------------------- planted drift and incidents
+
+def share_by_period(database: Path, expression: str, since: date) -> tuple[float, float]:
+    """The mean of ``expression`` over the development table, and over the book from ``since`` on."""
+    before = query(database, f"SELECT avg({expression}) FROM development")[0][0]
+    after = query(database, f"SELECT avg({expression}) FROM applications WHERE application_month >= ?", [since])[0][0]
+    return before, after
+
+
+def test_utilisation_income_and_broker_share_drift_after_the_planted_month(book):
+    late = generate.add_months(generate.FIRST_MONTH, generate.MONTHS - 6)
+    assert late > generate.DRIFT_START
+    utilisation = "CASE WHEN isnan(revolving_utilisation) THEN NULL ELSE revolving_utilisation END"
+    before, after = share_by_period(book.database, utilisation, late)
+    assert after > before + 0.05
+    before, after = share_by_period(book.database, "CASE WHEN channel = 'broker' THEN 1.0 ELSE 0.0 END", late)
+    assert after > before + 0.08
+    income = "SELECT median(monthly_income) FROM {} WHERE application_month {} ?"
+    before = query(book.database, income.format("applications", "<"), [generate.DRIFT_START])[0][0]
+    after = query(book.database, income.format("applications", ">="), [late])[0][0]
+    assert after > before * 1.05
+    # and nothing moved inside the development months: first half against second half
+    half = generate.add_months(generate.FIRST_MONTH, generate.DEVELOPMENT_MONTHS // 2)
+    early = query(book.database, f"SELECT avg({utilisation}) FROM development WHERE application_month < ?", [half])
+    later = query(book.database, f"SELECT avg({utilisation}) FROM development WHERE application_month >= ?", [half])
+    assert abs(early[0][0] - later[0][0]) < 0.02
+
+
+def test_event_rate_rises_under_the_planted_stress(book):
+    last_mature = max(book.mature_months)
+    assert last_mature >= generate.add_months(generate.STRESS_START, 3)
+    stressed = query(book.database, "SELECT avg(bad_12m) FROM applications WHERE application_month >= ? "
+                                    "AND bad_12m IS NOT NULL", [generate.add_months(generate.STRESS_START, 3)])
+    developed = query(book.database, "SELECT avg(bad_12m) FROM development")
+    assert stressed[0][0] > developed[0][0] * 1.2
+
+
+def test_months_in_job_goes_missing_in_the_incident_month_only(book):
+    rows = query(book.database, "SELECT application_month, avg(CASE WHEN months_in_job IS NULL THEN 1.0 ELSE 0 END) "
+                                "FROM applications GROUP BY 1")
+    for month, missing in rows:
+        if month == generate.MISSING_JOB_MONTH:
+            assert missing > 0.5
+        else:
+            assert missing < 0.1, month
+
+
+def test_unseen_channel_appears_in_the_incident_month_only(book):
+    rows = dict(query(book.database, "SELECT application_month, avg(CASE WHEN channel = ? THEN 1.0 ELSE 0 END) "
+                                     "FROM applications GROUP BY 1", [generate.UNSEEN_CHANNEL]))
+    assert rows[generate.UNSEEN_CHANNEL_MONTH] > 0.1
+    assert all(share == 0 for month, share in rows.items() if month != generate.UNSEEN_CHANNEL_MONTH)
+    spec = api.load_spec(SPEC_V1)
+    channel = next(f for f in spec.features if f.name == "channel")
+    listed = {v for g in channel.groups for v in g.values} | set(channel.other.values)
+    assert generate.UNSEEN_CHANNEL not in listed  # so the spec sends it to its catch-all
+
+
+# ---------------------------------------------------------------- the row-count guard
+
+@pytest.mark.parametrize("rows", [generate.MIN_ROWS - 1, 0, -5])
+def test_too_few_rows_is_an_input_error(tmp_path, capsys, rows):
+    assert cli.main(["demo", "--rows", str(rows), "--folder", str(tmp_path)]) == 2
+    assert "--rows" in capsys.readouterr().err
+    assert not (tmp_path / DATABASE_NAME).exists()
+
+
+def test_a_file_as_folder_is_an_input_error(tmp_path, capsys):
+    blocker = tmp_path / "not_a_folder"
+    blocker.write_text("")
+    assert cli.main(["demo", "--rows", "5000", "--folder", str(blocker)]) == 2
+    assert "is a file, not a folder" in capsys.readouterr().err
+
+
+# ---------------------------------------------------------------- the fit script
+
+def test_newton_raphson_matches_the_published_spector_fit():
+    # Spector & Mazzeo (1980) data shipped with statsmodels; coefficients, standard errors and
+    # log-likelihood printed in Greene, Econometric Analysis, 5th ed., ch. 21 [pub].
+    statsmodels_api = pytest.importorskip("statsmodels.api", reason="statsmodels ships the Spector data")
+    data = statsmodels_api.datasets.spector.load_pandas()
+    design = np.column_stack([np.ones(len(data.exog)), data.exog.to_numpy(dtype=float)])
+    fit = fit_spec.newton_raphson(design, data.endog.to_numpy(dtype=float), ["const", "GPA", "TUCE", "PSI"])
+    np.testing.assert_allclose(fit.coefficients, [-13.02134832, 2.82611297, 0.09515767, 2.37868773], rtol=1e-6)
+    np.testing.assert_allclose(fit.standard_errors, [4.93132463, 1.26294115, 0.14155421, 1.06456430], rtol=1e-5)
+
+
+def test_newton_raphson_reports_separation_as_an_error():
+    x = np.array([0.0, 1, 2, 3, 4, 5])
+    with pytest.raises(fit_spec.FitError, match="did not converge"):
+        fit_spec.newton_raphson(np.column_stack([np.ones(6), x]), (x > 2.5).astype(float), ["const", "x"])
+
+
+def test_information_value_is_the_jeffreys_divergence():
+    # IV = KL(good || bad) + KL(bad || good): Rojas, Alvarez & Rojas, arXiv:2309.13183 [pub];
+    # compared live with scipy.stats.entropy [lib].
+    goods, bads = np.array([400.0, 300, 200, 100]), np.array([10.0, 20, 30, 40])
+    smoothed_goods, smoothed_bads = goods + 0.5, bads + 0.5
+    expected = (scipy.stats.entropy(smoothed_goods, smoothed_bads) + scipy.stats.entropy(smoothed_bads, smoothed_goods))
+    assert fit_spec.information_value(goods, bads, smoothed_goods.sum(), smoothed_bads.sum()) == pytest.approx(expected)
+
+
+def test_numeric_bins_hold_five_percent_and_woe_runs_one_way():
+    rng = np.random.default_rng(3)
+    x = rng.normal(size=20_000)
+    y = (rng.random(20_000) < 1 / (1 + np.exp(2.5 + 0.8 * x))).astype(float)
+    x[:300] = np.nan
+    binned = fit_spec.bin_numeric("x", x, y)
+    assert min(binned.bin_share) >= fit_spec.MIN_BIN_SHARE
+    steps = np.diff(binned.bin_woe)
+    assert np.all(steps < 0) or np.all(steps > 0)
+    assert binned.missing_own and binned.missing_share == pytest.approx(0.015)
+    # hand check of one bin's WoE = ln(%good / %bad), half a count added to each side
+    present = ~np.isnan(x)
+    top = present & (x >= binned.edges[-1])
+    goods, bads = np.sum(1 - y), np.sum(y)
+    hand = math.log(((np.sum(1 - y[top]) + 0.5) / goods) / ((np.sum(y[top]) + 0.5) / bads))
+    assert binned.bin_woe[-1] == pytest.approx(hand)
+
+
+def test_fit_script_reproduces_the_committed_spec(tmp_path):
+    book = generate.build_warehouse(tmp_path / "default.duckdb")
+    assert fit_spec.fit_spec(book.database) == SPEC_V1.read_text(encoding="utf-8")
+
+
+def test_committed_spec_checks_and_uses_the_book_columns(book):
+    spec = api.load_spec(SPEC_V1)
+    assert spec.model.performance_window_months == generate.PERFORMANCE_WINDOW_MONTHS
+    columns = {name for (name,) in query(book.database, "SELECT column_name FROM information_schema.columns "
+                                                        "WHERE table_name = 'applications'")}
+    assert {f.column or f.name for f in spec.features} <= columns
+    assert not {"age", "region"} & {f.name for f in spec.features}
+
+
+# ---------------------------------------------------------------- end to end
+
+def test_demo_runs_end_to_end_and_scores_every_row(tmp_path, capsys):
+    assert cli.main(["demo", "--rows", "20000", "--folder", str(tmp_path)]) == 0
+    printed = capsys.readouterr().out
+    database = tmp_path / DATABASE_NAME
+    assert str(database) in printed
+    assert "20,000" in printed
+    assert " ".join(CAUTIONS.split()[:6]) in " ".join(printed.split())
+    # fits 80 columns, except a path too long for one line, which is kept whole to be copied
+    assert all(len(line) <= 80 for line in printed.splitlines() if str(tmp_path) not in line)
+    applications, scored, matched, complete = query(database, f"""
+        SELECT (SELECT count(*) FROM applications),
+               (SELECT count(*) FROM {SCORED}),
+               (SELECT count(*) FROM applications a JOIN {SCORED} s
+                   ON a.application_id = s.application_id AND a.application_month = s.application_month),
+               (SELECT count(*) FROM {SCORED} WHERE score IS NOT NULL AND pd > 0 AND pd < 1 AND grade IS NOT NULL)
+    """)[0]
+    assert applications == scored == matched == complete == 20_000
+    grades = dict(query(database, f"SELECT grade, count(*) FROM {SCORED} GROUP BY 1"))
+    spec = api.load_spec(SPEC_V1)
+    assert set(grades) <= {g.name for g in spec.grades}
+    for grade, rows in grades.items():
+        assert f"{rows:,}" in printed, grade
+
+
+def test_demo_without_folder_keeps_a_temporary_one_and_names_it(tmp_path, monkeypatch, capsys):
+    monkeypatch.setattr("tempfile.tempdir", str(tmp_path))
+    assert cli.main(["demo", "--rows", "5000"]) == 0
+    printed = capsys.readouterr().out
+    made = [p for p in tmp_path.iterdir() if p.is_dir()]
+    assert len(made) == 1 and (made[0] / DATABASE_NAME).exists()
+    assert str(made[0] / DATABASE_NAME) in printed
