@@ -120,6 +120,9 @@ IDENTITY = {
 }
 
 
+READ_DEVELOPMENT = "SELECT * FROM development ORDER BY application_id"
+
+
 class FitError(ScoremonError):
     """The development data cannot be fitted as this script expects."""
 
@@ -142,7 +145,7 @@ def read_development(database: Path) -> Development:
     except duckdb.Error as error:
         raise FitError(f"{database}: cannot open the demo database ({error}); build it with scoremon demo") from error
     try:
-        frame = connection.execute(f"SELECT * FROM {generate.DEVELOPMENT} ORDER BY {generate.KEY_COLUMN}").df()
+        frame = connection.execute(READ_DEVELOPMENT).df()
     except duckdb.Error as error:
         raise FitError(f"{database}: no readable development table ({error}); rebuild the demo book") from error
     finally:

@@ -51,7 +51,8 @@ def test_same_seed_gives_the_same_rows(tmp_path):
     other = generate.build_warehouse(tmp_path / "other.duckdb", rows=SMALL, seed=8)
     connection = duckdb.connect()
     for name, book in (("first", first), ("second", second), ("other", other)):
-        connection.execute(f"ATTACH '{book.database}' AS {name} (READ_ONLY)")
+        path = str(book.database).replace("'", "''")  # a SQL string literal
+        connection.execute(f"ATTACH '{path}' AS {name} (READ_ONLY)")
     # EXCEPT ALL compares NULL with NULL and NaN with NaN as equal, row by row with duplicates
     differ = "SELECT count(*) FROM (SELECT * FROM {a}.{t} EXCEPT ALL SELECT * FROM {b}.{t})"
     for table in ("applications", "development"):
