@@ -14,7 +14,7 @@ import math
 from ..spec.canonical import canonical_form, fingerprint
 from ..spec.model import LinearFeature, Spec
 from ..spec.terms import base_points, feature_terms, interval_label, linear_points, linear_points_slope
-from .features import SCORE_OUTPUTS, FeatureComparison, compare_feature, differing_paths
+from .features import SCORE_OUTPUTS, FeatureComparison, compare_feature, differing_paths, written_in_points
 from .records import Change, ChangeKind, Effect, ModelDiff, ScoreMap, VersionInfo
 from .wording import number, same, signed, values_list
 
@@ -108,9 +108,24 @@ def _scaling(old: Spec, new: Spec) -> list[Change]:
         delta = None if key == "rounding" else now - was
         outputs = ("score", "grade") if key in ("base_score", "base_odds") else ("score", "pd", "grade", "reasons")
         summary = f"{words} {number(was, 4)} → {number(now, 4)}" if delta is not None else f"{words} {now} (was {was})"
-        found.append(Change(ChangeKind.SCALING_CHANGED, f"scaling.{key}", summary, Effect.SCALING_ONLY, outputs,
+        effect = Effect.SCALING_ONLY
+        if key == "pdo" and _mixes_units(old, new):
+            # A bin given in points keeps its points and a bin given in WoE or log-odds keeps
+            # its log-odds, so a new PDO stretches one kind against the other.
+            effect = Effect.STRUCTURE
+            summary += ("; features given in points keep their points while the others are rescaled, so their "
+                        "relative weights change and rows can change order")
+        found.append(Change(ChangeKind.SCALING_CHANGED, f"scaling.{key}", summary, effect, outputs,
                             None, was, now, delta))
     return found
+
+
+def _mixes_units(old: Spec, new: Spec) -> bool:
+    """True when the features both versions share include some given in points in both and
+    some not."""
+    by_new = {f.name: f for f in new.features}
+    kinds = {written_in_points(f) and written_in_points(by_new[f.name]) for f in old.features if f.name in by_new}
+    return len(kinds) == 2
 
 
 # ---------------------------------------------------------------- features
@@ -173,7 +188,7 @@ def _features(old: Spec, new: Spec) -> tuple[list[Change], list[tuple[object, ob
     comparisons = []
     for was, now in pairs:
         if was.name != now.name:  # compare a renamed feature under its new name
-            was = was.model_copy(update={"name": now.name})
+            was = was.model_copy(update={"name": now.name, "column": was.column or was.name})
         comparison = compare_feature(old, new, was, now)
         comparisons.append((was, now, comparison))
         found += comparison.changes

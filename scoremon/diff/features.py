@@ -64,7 +64,7 @@ def compare_feature(old_spec: Spec, new_spec: Spec, old, new) -> FeatureComparis
                         f"{name} is now a {new.type} feature (was {old.type})", Effect.ONE_FEATURE,
                         SCORE_OUTPUTS + ("bin_labels",), name, old.type, new.type)
         return FeatureComparison((change,), (), True)
-    in_points = _written_in_points(old) and _written_in_points(new)
+    in_points = written_in_points(old) and written_in_points(new)
     t_old, t_new = feature_terms(old_spec, old), feature_terms(new_spec, new)
     if isinstance(new, NumericFeature):
         found = _Numeric(old, new, t_old, t_new, in_points)
@@ -112,7 +112,8 @@ def probe_changed(probe: Probe, in_points: bool) -> bool:
     return not same(probe.old.log_odds, probe.new.log_odds)
 
 
-def _written_in_points(feature) -> bool:
+def written_in_points(feature) -> bool:
+    """True when every bin of the feature is given in points."""
     return not isinstance(feature, LinearFeature) and _value_kinds(feature) == ("points",)
 
 
@@ -478,8 +479,8 @@ class _Linear:
         self.is_changed = any(probe_changed(p, False) for p in self.probes)
         effect = Effect.ONE_FEATURE if self.is_changed else Effect.NONE
         outputs = SCORE_OUTPUTS if self.is_changed else ()
-        ends = [p for p in self.probes[:-1] if p.where in (f"= {number(new.lower, 6)}", f"= {number(new.upper, 6)}")]
-        at_clips = "; ".join(f"points at x {p.where}: {number(p.old.points)} → {number(p.new.points)}" for p in ends)
+        moved = [p for p in self.probes[:-1] if probe_changed(p, False)]
+        at_clips = "; ".join(f"points at x {p.where}: {number(p.old.points)} → {number(p.new.points)}" for p in moved)
         for key, kind, words in self.PARTS:
             was, now = getattr(old, key), getattr(new, key)
             if was != now:

@@ -9,10 +9,12 @@ How a change can affect a score (:class:`Effect`), from least to most:
 
 ``none``          no score or PD can move: identity, texts, labels, grades, reasons, or a
                   restatement that leaves every contribution as it was;
-``scaling_only``  the intercept or the scaling moved: every row moves by the same rule, and
-                  the rank order of rows is kept;
+``scaling_only``  only the intercept or the scaling moved: every score moves by one rule
+                  (see :class:`ScoreMap`), and the order of rows by score is kept (rounding
+                  aside);
 ``one_feature``   one feature's contribution changed for some inputs;
-``structure``     features added or removed, or several features changed together.
+``structure``     features added or removed, several features changed together, or a new
+                  PDO that stretches features given in points against the others.
 
 Grades and reasons do not move a score but can change a decision; each record also lists
 the ``outputs`` it can alter (``score``, ``pd``, ``grade``, ``reasons``, ``bin_labels``,

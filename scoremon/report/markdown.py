@@ -45,8 +45,9 @@ def diff_markdown(report) -> str:
     else:
         lines += [f"- Result: **{len(diff.changes)} changes**; overall class **{diff.effect.words}**.", ""]
         lines += ["Classes, by how a change can affect a score: *none* (no score or PD can move), *scaling only* "
-                  "(every score moves by one rule; rank order kept), *one feature* (one feature's contribution "
-                  "changed), *structure* (features added or removed, or several features changed).", ""]
+                  "(only the intercept or scaling changed; the order of rows by score is kept, rounding aside), *one feature* (one feature's contribution "
+                  "changed), *structure* (features added or removed, several features changed, or a new PDO that "
+                  "stretches features given in points against the others).", ""]
         lines += ["## Changes", ""]
         lines += _table(["#", "class", "what changed", "outputs it can alter"],
                         [[i, c.effect.words, c.summary, ", ".join(c.outputs) or "–"]

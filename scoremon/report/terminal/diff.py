@@ -14,7 +14,7 @@ from . import out, print_cautions
 EFFECT_STYLE = {"none": "dim", "scaling_only": "cyan", "one_feature": "yellow", "structure": "bold red"}
 EFFECT_MEANING = {
     "none": "no score or PD can move",
-    "scaling_only": "every score moves by one rule; rank order kept",
+    "scaling_only": "only the intercept or scaling changed; order of rows kept",
     "one_feature": "one feature's contribution changed",
     "structure": "features added or removed, or several features changed",
 }
