@@ -56,7 +56,7 @@ import duckdb
 import numpy as np
 import pandas as pd
 
-from scoremon.errors import InputError
+from scoremon.errors import EngineError, InputError
 
 LENDER = "Quillfield Credit"
 SEED = 20_261_130
@@ -215,7 +215,8 @@ def build_warehouse(database: str | Path, rows: int = DEFAULT_ROWS, seed: int = 
 
     The file appears whole or not at all: it is built under a temporary name beside the
     target and renamed at the end. ``progress`` is called with the share done (0 to 1).
-    Raises :class:`InputError` for a row count out of range or a folder that does not exist.
+    Raises :class:`InputError` for a row count out of range or a folder that does not exist,
+    and :class:`EngineError` if DuckDB fails (a full disk, say).
 
     >>> import tempfile, pathlib
     >>> book = build_warehouse(pathlib.Path(tempfile.mkdtemp()) / "book.duckdb", rows=5_000)
@@ -230,7 +231,10 @@ def build_warehouse(database: str | Path, rows: int = DEFAULT_ROWS, seed: int = 
     partial = database.with_name(f".{database.name}.{uuid.uuid4().hex}.partial")
     month_ends = np.cumsum(monthly_volumes(rows))  # row k belongs to the first month whose end exceeds k
     try:
-        connection = duckdb.connect(str(partial))
+        try:
+            connection = duckdb.connect(str(partial))
+        except duckdb.Error as error:
+            raise EngineError("creating the demo book", f"duckdb {partial}", str(error).splitlines()[0]) from error
         try:
             connection.execute(APPLICATIONS_DDL)
             for chunk_index, start in enumerate(range(0, rows, CHUNK_ROWS)):
@@ -245,8 +249,13 @@ def build_warehouse(database: str | Path, rows: int = DEFAULT_ROWS, seed: int = 
             connection.execute(COPY_DEVELOPMENT, [development_end()])
             development_rows = connection.execute("SELECT count(*) FROM development").fetchone()[0]
             connection.execute("CHECKPOINT")
+        except duckdb.Error as error:
+            raise EngineError("building the demo book", f"duckdb {partial}", str(error).splitlines()[0]) from error
         finally:
             connection.close()
+        stale_log = database.with_name(database.name + ".wal")
+        if stale_log.exists():  # an old book's write-ahead log would be replayed onto the new file
+            stale_log.unlink()
         os.replace(partial, database)
     finally:
         for leftover in (partial, partial.with_name(partial.name + ".wal")):
