@@ -1,0 +1,282 @@
+"""The benchmark run: generate the rows, time each comparison side by side, measure memory.
+
+Five comparisons, each a ratio of two timings taken in turns in this one run (see
+:mod:`scoremon.bench.timing`), each with the goal the project set:
+
+(a) compiled scoring ÷ a bare scan of the same columns                          goal ≤ 6
+(b) compiled scoring ÷ a hand-written CASE chain                                goal ≤ 1.0
+(c) fetch into numpy and score there ÷ compiled scoring                         goal ≥ 10
+(d) scored output to Parquet ÷ copying the input columns to Parquet             goal ≤ 1.2
+(e) peak memory of a fresh process scoring ``memory_rows`` rows to Parquet      goal < 2 GiB
+
+(a)–(c) time an aggregate over the scored rows (rows, mean score and mean PD per grade), so
+the comparison is about scoring, not about moving rows to Python. DuckDB drops whatever an
+aggregate does not use (labels, reasons); one more line, not a goal, times the reasons too.
+"""
+from __future__ import annotations
+
+import shutil
+import tempfile
+from contextlib import AbstractContextManager, nullcontext
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable, Protocol
+
+from sqlglot import exp
+
+from .. import api
+from ..compiler import compile_model, output_columns
+from ..dialects import render_sql
+from ..engines import DuckDBEngine, Progress
+from ..errors import InputError
+from ..spec.model import Spec
+from . import queries, workload
+from .memory import measure_peak_memory
+from .numpy_scorer import GradeSummary, score_with_numpy
+from .timing import PairTiming, time_pair
+
+GIB = 1024 ** 3
+TABLE = "input"
+
+
+@dataclass(frozen=True)
+class BenchSettings:
+    """What to run: row counts, rounds per comparison, DuckDB threads, where temporary data goes."""
+
+    rows: int = 10_000_000
+    repeat: int = 5
+    threads: int | None = None
+    memory_rows: int = 50_000_000
+    skip_memory: bool = False
+    memory_limit: str = "1GB"
+    folder: str | None = None
+
+
+@dataclass(frozen=True)
+class Goal:
+    """A bound on a ratio (or on GiB): ``at_most`` true means the value must stay at or below."""
+
+    bound: float
+    at_most: bool
+    strict: bool = False
+
+    def met(self, value: float) -> bool:
+        if self.at_most:
+            return value < self.bound if self.strict else value <= self.bound
+        return value > self.bound if self.strict else value >= self.bound
+
+    @property
+    def text(self) -> str:
+        sign = ("<" if self.strict else "≤") if self.at_most else (">" if self.strict else "≥")
+        return f"{sign} {self.bound:g}"
+
+
+@dataclass(frozen=True)
+class BenchLine:
+    """One line of the report: what was compared, both measurements, the ratio and the goal."""
+
+    key: str
+    title: str
+    first_label: str
+    first_value: float
+    second_label: str
+    second_value: float
+    ratio: float
+    unit: str  # "s" for timings, "GiB" for memory
+    goal: Goal | None
+    rounds: int = 0
+    detail: str = ""
+
+    @property
+    def goal_met(self) -> bool | None:
+        return None if self.goal is None else self.goal.met(self.ratio)
+
+
+@dataclass(frozen=True)
+class BenchReport:
+    """Everything a benchmark run measured, in the order it was measured."""
+
+    rows: int
+    threads: int
+    repeat: int
+    lines: tuple[BenchLine, ...]
+    notes: tuple[str, ...] = field(default_factory=tuple)
+
+
+class BenchObserver(Protocol):
+    """How a run reports as it goes (the CLI draws progress bars and prints lines)."""
+
+    def stage(self, description: str) -> AbstractContextManager[Progress | None]: ...
+
+    def measured(self, line: BenchLine) -> None: ...
+
+
+class _Silent:
+    """An observer that shows nothing (library use, tests)."""
+
+    def stage(self, description: str):
+        return nullcontext(None)
+
+    def measured(self, line: BenchLine) -> None:
+        pass
+
+
+# ---------------------------------------------------------------- one run
+
+class _Bench:
+    """The state of one run: its folder, engine, spec and the SQL it times."""
+
+    def __init__(self, settings: BenchSettings, observer: BenchObserver, folder: Path):
+        self.settings, self.observer, self.folder = settings, observer, folder
+        self.spec: Spec = workload.bench_spec()
+        self.engine = DuckDBEngine(str(folder / "input.duckdb"), threads=settings.threads)
+        self.engine.execute("SET enable_progress_bar_print = false", "quieting DuckDB's own progress bar")
+        self.lines: list[BenchLine] = []
+        self.notes: list[str] = []
+
+    def sql(self, tree: exp.Expression) -> str:
+        return render_sql(tree, "duckdb", pretty=False)
+
+    def fetch(self, tree: exp.Expression, purpose: str) -> list[tuple]:
+        return self.engine.fetch(self.sql(tree), purpose)
+
+    def add(self, line: BenchLine) -> None:
+        self.lines.append(line)
+        self.observer.measured(line)
+
+    def timed_line(self, key: str, title: str, first_label: str, first, second_label: str, second,
+                   goal: Goal | None) -> PairTiming:
+        with self.observer.stage(f"({key}) {title}"):
+            timing = time_pair(first, second, self.settings.repeat)
+        self.add(BenchLine(key, title, first_label, timing.first_seconds, second_label, timing.second_seconds,
+                           timing.ratio, "s", goal, self.settings.repeat))
+        return timing
+
+    # -- the steps
+
+    def generate(self) -> None:
+        with self.observer.stage(f"generating {self.settings.rows:,} rows") as progress:
+            self.engine.write_table(self.sql(workload.generate_rows(self.settings.rows)), [TABLE],
+                                    "generating the bench rows", progress)
+        columns = api.describe_source(self.engine, queries.relation(TABLE))
+        floats = [name for name, kind in columns.items() if api.FLOAT_TYPE.match(kind)]
+        self.scoring = compile_model(self.spec, queries.relation(TABLE), (), floats)
+
+    def compare_scan_and_hand(self) -> None:
+        numeric = [name for name in workload.input_columns() if name not in workload.text_columns()]
+        compiled = self.sql(queries.grade_summary(self.scoring))
+        bare = self.sql(queries.bare_scan(TABLE, numeric, workload.text_columns()))
+        hand = self.sql(queries.grade_summary(queries.hand_written_score(self.spec, TABLE)))
+        run = self.engine.fetch
+        self.timed_line("a", "compiled scoring ÷ bare scan",
+                        "compiled", lambda: run(compiled, "compiled scoring"),
+                        "bare scan", lambda: run(bare, "bare scan"), Goal(6.0, at_most=True))
+        self.timed_line("b", "compiled ÷ hand-written CASE chain",
+                        "compiled", lambda: run(compiled, "compiled scoring"),
+                        "hand-written", lambda: run(hand, "hand-written scoring"), Goal(1.0, at_most=True))
+        reasons = self.sql(queries.reason_summary(self.scoring, output_columns(self.spec).reasons))
+        self.timed_line("a+", "compiled with 3 reasons ÷ bare scan",
+                        "with reasons", lambda: run(reasons, "compiled scoring with reasons"),
+                        "bare scan", lambda: run(bare, "bare scan"), None)
+
+    def compare_numpy(self) -> None:
+        compiled = self.sql(queries.grade_summary(self.scoring))
+        export = self.sql(queries.input_copy(TABLE, workload.input_columns()))
+        results: dict[str, object] = {}
+
+        def numpy_route():
+            frame = self.engine.fetch_frame(export, "fetching the input into numpy")
+            results["numpy"] = score_with_numpy(self.spec, frame)
+
+        def compiled_route():
+            results["compiled"] = self.engine.fetch(compiled, "compiled scoring")
+
+        self.timed_line("c", "export to numpy, score ÷ compiled",
+                        "numpy", numpy_route, "compiled", compiled_route, Goal(10.0, at_most=False))
+        self.notes.append(_agreement(results["numpy"], results["compiled"]))
+
+    def compare_parquet(self) -> None:
+        scored_sql = self.sql(self.scoring)
+        copy_sql = self.sql(queries.input_copy(TABLE, workload.input_columns()))
+        scored_file, copy_file = self.folder / "scored.parquet", self.folder / "copy.parquet"
+        write = self.engine.write_parquet
+        self.timed_line("d", "scored to Parquet ÷ input copy",
+                        "scored", lambda: write(scored_sql, scored_file, "writing scored Parquet"),
+                        "copy", lambda: write(copy_sql, copy_file, "copying the input to Parquet"),
+                        Goal(1.2, at_most=True))
+        scored_file.unlink(missing_ok=True)
+        copy_file.unlink(missing_ok=True)
+
+    def measure_memory(self) -> None:
+        rows = self.settings.memory_rows
+        database = self.folder / "memory.duckdb"
+        generator = DuckDBEngine(str(database), threads=self.settings.threads)
+        try:
+            generator.execute("SET enable_progress_bar_print = false", "quieting DuckDB's own progress bar")
+            with self.observer.stage(f"generating {rows:,} rows for the memory test") as progress:
+                generator.write_table(self.sql(workload.generate_rows(rows)), [TABLE],
+                                      "generating the memory-test rows", progress)
+        finally:
+            generator.close()
+        out_file = self.folder / "memory-scored.parquet"
+        with self.observer.stage(f"scoring {rows:,} rows in a child process") as progress:
+            result = measure_peak_memory(database, out_file, self.settings.threads, self.settings.memory_limit,
+                                         progress)
+        out_file.unlink(missing_ok=True)
+        database.unlink(missing_ok=True)
+        peak = result.peak_bytes / GIB
+        self.add(BenchLine("e", "peak memory scoring to Parquet", "peak RSS", peak, "", 0.0,
+                           peak, "GiB", Goal(2.0, at_most=True, strict=True), 1,
+                           f"{result.rows:,} rows in {result.seconds:.1f} s, DuckDB memory_limit "
+                           f"{self.settings.memory_limit}"))
+
+    def threads(self) -> int:
+        return int(self.engine.fetch("SELECT current_setting('threads')", "reading the thread count")[0][0])
+
+
+def _agreement(numpy_summary: GradeSummary, compiled_rows: list[tuple]) -> str:
+    compiled = {str(g): int(n) for g, n, *_ in compiled_rows}
+    route = dict(zip(numpy_summary.grades, numpy_summary.rows))
+    if compiled == route:
+        return "numpy and compiled scoring agree on the rows in every grade"
+    return f"numpy and compiled scoring DISAGREE on rows per grade: numpy {route}, compiled {compiled}"
+
+
+def _check_settings(settings: BenchSettings) -> None:
+    problems = [f"{name} must be at least 1, not {value}" for name, value in
+                (("rows", settings.rows), ("repeat", settings.repeat), ("memory rows", settings.memory_rows))
+                if value < 1]
+    if settings.threads is not None and settings.threads < 1:
+        problems.append(f"threads must be at least 1, not {settings.threads}")
+    if problems:
+        raise InputError("; ".join(problems))
+
+
+def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) -> BenchReport:
+    """Run the benchmark; temporary data lives in a fresh folder that is removed afterwards.
+
+    >>> report = run_bench(BenchSettings(rows=2_000, repeat=1, skip_memory=True))
+    >>> [line.key for line in report.lines]
+    ['a', 'b', 'a+', 'c', 'd']
+    """
+    _check_settings(settings)
+    observer = observer or _Silent()
+    parent = Path(settings.folder) if settings.folder else None
+    if parent is not None:
+        parent.mkdir(parents=True, exist_ok=True)
+    folder = Path(tempfile.mkdtemp(prefix="scoremon-bench-", dir=parent))
+    try:
+        bench = _Bench(settings, observer, folder)
+        try:
+            bench.generate()
+            bench.compare_scan_and_hand()
+            bench.compare_numpy()
+            bench.compare_parquet()
+            threads = bench.threads()
+        finally:
+            bench.engine.close()
+        if not settings.skip_memory:
+            bench.measure_memory()
+        return BenchReport(settings.rows, threads, settings.repeat, tuple(bench.lines), tuple(bench.notes))
+    finally:
+        shutil.rmtree(folder, ignore_errors=True)

@@ -1,0 +1,92 @@
+"""``scoremon bench`` runs end to end on a few rows and reports every comparison.
+
+Functional only: no assertion here is about speed (speed is what the command prints, never
+what a test checks).
+"""
+import math
+
+import pytest
+
+from scoremon.bench import BenchSettings, run_bench
+from scoremon.bench.numpy_scorer import score_with_numpy
+from scoremon.bench.queries import grade_summary, input_copy, relation
+from scoremon.bench.workload import bench_spec, create_table, input_columns
+from scoremon.cli import main
+from scoremon.compiler import compile_model
+from scoremon.dialects import render_sql
+from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature
+
+EVERY_LINE = ["a", "b", "a+", "c", "d", "e"]
+
+
+@pytest.fixture(scope="module")
+def report(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("bench")
+    return folder, run_bench(BenchSettings(rows=3_000, repeat=2, memory_rows=3_000, folder=str(folder)))
+
+
+def test_bench_spec_has_the_documented_shape():
+    spec = bench_spec()
+    numeric = [f for f in spec.features if isinstance(f, NumericFeature)]
+    categorical = [f for f in spec.features if isinstance(f, CategoricalFeature)]
+    assert len(numeric) == 12 and all(6 <= len(f.bins) <= 10 for f in numeric)
+    sizes = sorted(sum(len(g.values) for g in f.groups) + 1 for f in categorical)
+    assert sizes == [5, 12, 30]
+    assert sum(isinstance(f, LinearFeature) for f in spec.features) == 1
+    assert spec.reasons.count == 3
+
+
+def test_every_comparison_is_reported_with_both_sides_and_a_goal(report):
+    _, report = report
+    assert [line.key for line in report.lines] == EVERY_LINE
+    for line in report.lines:
+        assert math.isfinite(line.ratio) and line.ratio > 0, line
+        assert line.first_value > 0, line
+        if line.unit == "s":
+            assert line.second_value > 0 and line.rounds == 2, line
+    goals = {line.key: line.goal.text for line in report.lines if line.goal}
+    assert goals == {"a": "≤ 6", "b": "≤ 1", "c": "≥ 10", "d": "≤ 1.2", "e": "< 2"}
+    assert all(isinstance(line.goal_met, bool) for line in report.lines if line.goal)
+    memory = report.lines[-1]
+    assert memory.unit == "GiB" and "3,000 rows" in memory.detail
+
+
+def test_numpy_route_agrees_with_compiled_scoring(report):
+    _, report = report
+    assert report.notes == ("numpy and compiled scoring agree on the rows in every grade",)
+
+
+def test_temporary_data_is_removed(report):
+    folder, _ = report
+    assert list(folder.iterdir()) == []
+
+
+def test_numpy_scorer_matches_the_compiled_grade_summary(engine):
+    spec = bench_spec()
+    engine.execute(render_sql(create_table("input", 5_000), "duckdb"), "generating rows")
+    compiled = engine.fetch(render_sql(grade_summary(compile_model(spec, relation("input"))), "duckdb"), "scoring")
+    frame = engine.fetch_frame(render_sql(input_copy("input", input_columns()), "duckdb"), "fetching")
+    summary = score_with_numpy(spec, frame)
+    assert summary.grades == tuple(row[0] for row in compiled)
+    assert summary.rows == tuple(row[1] for row in compiled)
+    assert sum(summary.rows) == 5_000
+    for mine, theirs in zip(summary.mean_score, (row[2] for row in compiled)):
+        assert mine == pytest.approx(theirs, rel=1e-12)
+    for mine, theirs in zip(summary.mean_pd, (row[3] for row in compiled)):
+        assert mine == pytest.approx(theirs, rel=1e-9)
+
+
+def test_cli_prints_every_line_and_its_verdict(tmp_path, capsys):
+    code = main(["bench", "--rows", "2000", "--repeat", "1", "--skip-memory", "--folder", str(tmp_path)])
+    printed = capsys.readouterr().out
+    assert code in (0, 1)  # 1 when a goal is missed, which tiny inputs usually do
+    for key in ["(a)", "(b)", "(a+)", "(c)", "(d)"]:
+        assert key in printed
+    assert "(e)" not in printed
+    assert ("missed" in printed) == (code == 1)
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_cli_refuses_nonsense_sizes(capsys):
+    assert main(["bench", "--rows", "0", "--skip-memory"]) == 2
+    assert "rows must be at least 1" in capsys.readouterr().err
