@@ -302,9 +302,10 @@ def _check_reasons(reasons: Reasons, names: Sequence[str] | None, report: Report
 
 def _check_baseline(baseline: Baseline, names: Sequence[str] | None, report: Report) -> None:
     if names is not None:
-        for name in baseline.feature_shares:
-            if name not in names:
-                report(("baseline", "feature_shares", name), f"no feature is named {name!r}{suggest(name, names)}")
+        for key in ("feature_shares", "mean_points", "unseen_rate"):
+            for name in getattr(baseline, key):
+                if name not in names:
+                    report(("baseline", key, name), f"no feature is named {name!r}{suggest(name, names)}")
     if baseline.score_bands:
         _check_intervals([(b.lower, b.upper) for b in baseline.score_bands], ("baseline", "score_bands"),
                          "score band", report)

@@ -229,11 +229,16 @@ class Baseline(Part):
     computed_from: str = ""
     computed_at: str = ""
     rows: int = Field(ge=0)
+    rows_per_month: FiniteFloat | None = Field(default=None, ge=0, description="mean rows per month of development")
     event_rate: FiniteFloat | None = None
     auc: FiniteFloat | None = None
     ks: FiniteFloat | None = None
+    mean_score: FiniteFloat | None = None
     score_bands: list[BaselineBand] = Field(default_factory=list)
     feature_shares: dict[str, dict[str, FiniteFloat]] = Field(default_factory=dict)
+    mean_points: dict[str, FiniteFloat] = Field(default_factory=dict, description="mean points per feature")
+    unseen_rate: dict[str, FiniteFloat] = Field(
+        default_factory=dict, description="share of rows per categorical feature whose value no group lists")
 
 
 class Spec(Part):
