@@ -74,6 +74,21 @@ class DuckDBEngine:
 
         self._run(work, purpose, progress)
 
+    def execute_atomically(self, statements: Sequence[str], purpose: str) -> None:
+        """Run ``statements`` in one transaction: all take effect, or (on any error) none."""
+
+        def work():
+            self.connection.execute("BEGIN TRANSACTION")
+            try:
+                for statement in statements:
+                    self.connection.execute(statement)
+                self.connection.execute("COMMIT")
+            except BaseException:
+                self.connection.execute("ROLLBACK")
+                raise
+
+        self._run(work, purpose)
+
     def write_rows(self, table: list[str], columns: Sequence[ColumnSpec], rows: Sequence[Sequence[Any]],
                    purpose: str) -> None:
         """Replace ``table`` with ``rows`` in one transaction (an Arrow table keeps NaN apart from NULL)."""

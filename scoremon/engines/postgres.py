@@ -107,6 +107,16 @@ class PostgresEngine:
         self._swap_in(table, scratch, [f"CREATE TABLE {render_table(scratch, self.dialect)} ({definition})", copy_rows],
                       purpose)
 
+    def execute_atomically(self, statements: Sequence[str], purpose: str) -> None:
+        """Run ``statements`` in one transaction: all take effect, or (on any error) none."""
+
+        def work():
+            with self.connection.transaction(), self.connection.cursor() as cursor:
+                for statement in statements:
+                    cursor.execute(statement)
+
+        self._run(work, purpose)
+
     def close(self) -> None:
         self.connection.close()
 

@@ -46,5 +46,8 @@ class Engine(Protocol):
                    purpose: str) -> None:
         """Replace ``table`` with ``rows`` (None is NULL; float NaN and ±inf are kept), all or nothing."""
 
+    def execute_atomically(self, statements: Sequence[str], purpose: str) -> None:
+        """Run ``statements`` in order in one transaction: all take effect, or (on any error) none."""
+
     def close(self) -> None:
         """Release the connection (a shared Spark session is left running)."""
