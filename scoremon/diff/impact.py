@@ -32,7 +32,7 @@ from typing import Iterable, Mapping, Sequence
 
 from sqlglot import exp
 
-from ..compiler import compile_model, output_columns
+from ..compiler import INTERNAL, compile_model, output_columns
 from ..errors import InputError
 from ..spec.model import Spec
 
@@ -198,6 +198,35 @@ def _fresh(base: str, taken: set[str]) -> str:
     return name
 
 
+def _with_own_step_names(query: exp.Select, prefix: str, source: exp.Expression) -> exp.Select:
+    """``query`` with its CTEs renamed ``prefix + name`` (and every reference to them).
+
+    The two scoring queries nest inside each other and both name their steps ``binned``,
+    ``pointed``…; Spark refuses duplicate CTE names even in nested scopes. The source
+    subquery is left alone: a table in it may be called ``binned`` too.
+    """
+    query = query.copy()
+    ctes = query.args["with_"].expressions
+    names = {cte.alias: f"{prefix}{cte.alias}" for cte in ctes}
+    for cte in ctes:
+        cte.set("alias", exp.TableAlias(this=_id(names[cte.alias])))
+    for clause in list(query.find_all(exp.From)):
+        if any(isinstance(a, exp.Subquery) and a.alias == source.alias for a in _ancestors(clause)):
+            continue
+        target = clause.this
+        if isinstance(target, exp.Identifier) and target.name in names:
+            clause.set("this", _id(names[target.name]))
+        elif isinstance(target, exp.Table) and not target.args.get("db") and target.name in names:
+            target.set("this", _id(names[target.name]))
+    return query
+
+
+def _ancestors(node: exp.Expression):
+    while node.parent is not None:
+        node = node.parent
+        yield node
+
+
 def _inputs(spec: Spec) -> list[str]:
     return list(dict.fromkeys(f.column or f.name for f in spec.features))
 
@@ -237,8 +266,10 @@ def impact_query(
     step0 = exp.select(*[_col(n) for n in inputs_old], *[_as(_col(n), carry[n]) for n in carried]).from_(source.copy())
 
     # step 1: the old version scores each row and passes the carried columns through
-    step1 = compile_model(old, exp.Subquery(this=step0, alias=exp.TableAlias(this=_id("population"))),
-                          keys=[carry[n] for n in carried], float_columns=[n for n in inputs_old if n in floats])
+    population = exp.Subquery(this=step0, alias=exp.TableAlias(this=_id("population")))
+    step1 = compile_model(old, population, keys=[carry[n] for n in carried],
+                          float_columns=[n for n in inputs_old if n in floats])
+    step1 = _with_own_step_names(step1, f"{INTERNAL}old_", population)
     old_names = {k: _fresh(f"old_{k}", taken) for k in ("score", "pd", "grade", "reason")}
     outcome_name = carry[outcome] if outcome else None
     old_reason = "reason_1" if output_columns(old).reasons else None
@@ -256,8 +287,9 @@ def impact_query(
     # step 2: the new version scores the same row
     keys = [old_names["score"], old_names["pd"], old_names["grade"], old_names["reason"]]
     keys += [outcome_name] if outcome else []
-    step2 = compile_model(new, exp.Subquery(this=step1b, alias=exp.TableAlias(this=_id("carried"))),
-                          keys=keys, float_columns=[n for n in inputs_new if n in floats])
+    carried_rows = exp.Subquery(this=step1b, alias=exp.TableAlias(this=_id("carried")))
+    step2 = compile_model(new, carried_rows, keys=keys, float_columns=[n for n in inputs_new if n in floats])
+    step2 = _with_own_step_names(step2, f"{INTERNAL}new_", carried_rows)
     new_reason = "reason_1" if output_columns(new).reasons else None
 
     # paired: our own names from here on
@@ -310,8 +342,6 @@ def impact_query(
         _as(centred_rank("old_score"), "old_rank"),
         _as(centred_rank("new_score"), "new_rank"),
     ]
-    for quantity in ("score_change", "pd_change"):
-        ranked_columns.append(_as(_order_statistic_pick(f"{quantity}_position"), f"{quantity}_pick"))
     if cutoffs is not None:
         accepted_old = exp.GTE(this=_col("old_score"), expression=_num(cutoffs[0]))
         accepted_new = exp.GTE(this=_col("new_score"), expression=_num(cutoffs[1]))
@@ -321,6 +351,11 @@ def impact_query(
             (accepted_new.copy(), exp.Literal.string("swap_in")),
         ], exp.Literal.string("declined_by_both")), "swap_cell"))
     ranked = exp.select(*ranked_columns).from_(exp.Subquery(this=paired, alias=exp.TableAlias(this=_id("paired"))))
+
+    # picked: the rows quantiles need (a step of its own: PostgreSQL cannot refer to a column
+    # alias of the same SELECT)
+    picks = [_as(_order_statistic_pick(f"{q}_position"), f"{q}_pick") for q in ("score_change", "pd_change")]
+    picked = exp.select(exp.Star(), *picks).from_(exp.Subquery(this=ranked, alias=exp.TableAlias(this=_id("ranked"))))
 
     # the aggregates
     groups = {"migration": ("old_grade", "new_grade"), "swap": ("swap_cell",), "reason": ("old_reason", "new_reason"),
@@ -354,7 +389,7 @@ def impact_query(
         ("sum_new_rank_squares", exp.Sum(this=_col("new_rank") * _col("new_rank"))),
     ]
     query = exp.select(*[_as(e, n) for n, e in selected]).from_(
-        exp.Subquery(this=ranked, alias=exp.TableAlias(this=_id("ranked"))))
+        exp.Subquery(this=picked, alias=exp.TableAlias(this=_id("picked"))))
     sets = [exp.Tuple(expressions=[])] + [exp.Tuple(expressions=[_col(n) for n in names]) for names in groups.values()]
     query.set("group", exp.Group(grouping_sets=[exp.GroupingSets(expressions=sets)]))
     return ImpactQuery(query, tuple(n for n, _ in selected))
