@@ -236,6 +236,8 @@ def build_warehouse(database: str | Path, rows: int = DEFAULT_ROWS, seed: int = 
         except duckdb.Error as error:
             raise EngineError("creating the demo book", f"duckdb {partial}", str(error).splitlines()[0]) from error
         try:
+            # DuckDB would draw its own progress bar on standard output, inside the demo's text
+            connection.execute("SET enable_progress_bar_print = false")
             connection.execute(APPLICATIONS_DDL)
             for chunk_index, start in enumerate(range(0, rows, CHUNK_ROWS)):
                 stop = min(start + CHUNK_ROWS, rows)
