@@ -1,0 +1,198 @@
+"""The baseline: the development distribution a model was approved on, measured in the engine.
+
+:func:`measure_baseline` runs the aggregate passes of :mod:`scoremon.monitor.queries` over the
+development rows (a development table, or a range of months of the monitored table) and
+returns a :class:`~scoremon.spec.model.Baseline`. :func:`spec_text_with_baseline` writes it
+into a copy of a spec file's text, keeping every other line as it was.
+
+Score bands are the development score's deciles: the band edges are the lowest score values
+with at least 10 %, 20 %, …, 90 % of development rows strictly below them; repeated edges
+(ties at a score value) are merged, so a heavily tied score gets fewer bands. Bands are
+``[lower, upper)``, the first open below, the last open above.
+"""
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from datetime import datetime, timezone
+from typing import Sequence
+
+import yaml
+from sqlglot import exp
+
+from ..dialects import render_sql
+from ..errors import InputError
+from ..spec.model import LINEAR_LABELS, Baseline, BaselineBand, LinearFeature, Spec
+from ..spec.terms import feature_terms
+from . import queries
+from .queries import MonitoredRows
+from .statistics import HistogramSums, discrimination
+
+
+@dataclass(frozen=True)
+class BinLabel:
+    """A bin of a feature as monitoring reads it: its label and its points (None when they vary)."""
+
+    label: str
+    points: float | None
+
+
+def feature_bins(spec: Spec, feature) -> list[BinLabel]:
+    """A feature's bins in the spec's order (the order of :func:`~scoremon.spec.terms.feature_terms`).
+
+    A linear term's rows are labelled clipped_low / in_range / clipped_high / its missing label;
+    only the missing bin has fixed points.
+    """
+    terms = feature_terms(spec, feature)
+    if isinstance(feature, LinearFeature):
+        return [BinLabel(label, None) for label in LINEAR_LABELS] + [BinLabel(terms.bins[-1].label, terms.bins[-1].points)]
+    return [BinLabel(b.label, b.points) for b in terms.bins]
+
+
+def band_edges(bands: Sequence[BaselineBand]) -> list[float]:
+    """The inner edges of score bands ordered by their lower edge."""
+    ordered = sorted(bands, key=lambda b: b.lower)
+    return [b.lower for b in ordered[1:]]
+
+
+def run(engine, tree: exp.Expression, purpose: str) -> list[tuple]:
+    """Render ``tree`` for the engine and fetch its rows."""
+    return engine.fetch(render_sql(tree, engine.dialect, pretty=False), purpose)
+
+
+def measure_baseline(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expression,
+                     where: exp.Expression | None = None, computed_from: str = "") -> Baseline:
+    """The baseline of the rows in ``relation`` (those matching ``where``), measured in the engine.
+
+    Development volume always; per month only when the rows have a month; event rate, AUC and
+    KS only when they have an outcome. Raises :class:`InputError` when there are no rows or
+    the outcome holds values other than 0, 1 and NULL.
+    """
+    month_rows = run(engine, queries.month_pass(relation, spec, rows, where), "measuring the development volume")
+    with_month = [r for r in month_rows if not rows.has_month or r[0] is not None]
+    offset = 1 if rows.has_month else 0
+    total = sum(int(r[offset] or 0) for r in with_month)
+    if total == 0:
+        raise InputError(f"{computed_from or 'the development rows'}: no rows to compute a baseline from")
+    invalid = sum(int(r[-1] or 0) for r in with_month)
+    if invalid:
+        raise InputError(f"{computed_from}: the outcome holds {invalid:,} values that are neither 1, 0 nor NULL; "
+                         "fix the outcome column")
+    score_sum = sum(float(r[offset + 1] or 0.0) for r in with_month)
+    points_sums = [sum(float(r[offset + 2 + i] or 0.0) for r in with_month) for i in range(len(spec.features))]
+    unseen_offset = offset + 2 + len(spec.features)
+    unseen_sums = {name: sum(int(r[unseen_offset + i] or 0) for r in with_month)
+                   for i, name in enumerate(rows.unseen_features)}
+
+    edge_row = run(engine, queries.decile_edges_pass(relation, _and(where, _has_month(rows))), "finding the score deciles")[0]
+    edges = sorted({float(e) for e in edge_row if e is not None})
+    bins = run(engine, queries.bins_pass(relation, spec, edges, False, _and(where, _has_month(rows))),
+               "counting development rows per score band and bin")
+    band_counts = [0] * (len(edges) + 1)
+    feature_counts: list[dict[str, int]] = [{} for _ in spec.features]
+    for row in bins:
+        count = int(row[-1])
+        if row[0] is not None:
+            band_counts[int(row[0])] += count
+            continue
+        for i in range(len(spec.features)):
+            if row[1 + i] is not None:
+                feature_counts[i][str(row[1 + i])] = count
+                break
+    lowers = [-math.inf] + edges
+    uppers = edges + [math.inf]
+    score_bands = [BaselineBand(lower=lo, upper=hi, share=n / total) for lo, hi, n in zip(lowers, uppers, band_counts)]
+
+    feature_shares = {}
+    for i, feature in enumerate(spec.features):
+        feature_shares[feature.name] = {b.label: feature_counts[i].get(b.label, 0) / total for b in feature_bins(spec, feature)}
+
+    event_rate = auc = ks = None
+    if rows.has_outcome:
+        sums = run(engine, queries.discrimination_pass(relation, _and(where, _has_month(rows)), False),
+                   "measuring development discrimination")
+        if sums and sums[0][0] is not None:
+            histogram = HistogramSums(*[float(v) for v in sums[0]])
+            known = histogram.events + histogram.non_events
+            event_rate = histogram.events / known if known else None
+            found = discrimination(histogram)
+            if found is not None:
+                auc, ks = found.auc, found.ks
+
+    months = [r for r in with_month if int(r[offset] or 0) > 0] if rows.has_month else []
+    return Baseline(
+        computed_from=computed_from,
+        computed_at=datetime.now(timezone.utc).replace(microsecond=0).isoformat(),
+        rows=total,
+        rows_per_month=total / len(months) if months else None,
+        event_rate=event_rate,
+        auc=auc,
+        ks=ks,
+        mean_score=score_sum / total,
+        score_bands=score_bands,
+        feature_shares=feature_shares,
+        mean_points={f.name: points_sums[i] / total for i, f in enumerate(spec.features)},
+        unseen_rate={name: n / total for name, n in unseen_sums.items()},
+    )
+
+
+def _has_month(rows: MonitoredRows) -> exp.Expression | None:
+    if not rows.has_month:
+        return None
+    return exp.Not(this=exp.Is(this=queries.column(queries.MONTH), expression=exp.Null()))
+
+
+def _and(*conditions: exp.Expression | None) -> exp.Expression | None:
+    present = [c.copy() for c in conditions if c is not None]
+    if not present:
+        return None
+    return present[0] if len(present) == 1 else exp.and_(*present, copy=False)
+
+
+# ---------------------------------------------------------------- writing it into a spec file
+
+BASELINE_HEADER = """\
+# Baseline: the development distribution this model was approved on, written by
+# `scoremon baseline`; monitoring compares every month with it. Shares are fractions of the
+# development rows. Score bands are the development score's deciles ([lower, upper)). The
+# baseline is reference data, not part of the model: it does not change the fingerprint.
+"""
+
+TOP_LEVEL_KEY = re.compile(r"^[^\s#-][^:]*:")
+
+
+def baseline_yaml(baseline: Baseline) -> str:
+    """The ``baseline:`` section as YAML text (with a comment saying what it is)."""
+    data = baseline.model_dump(mode="python", exclude_none=True)
+    data["score_bands"] = [{"lower": b["lower"], "upper": b["upper"], "share": b["share"]} for b in data["score_bands"]]
+    body = yaml.safe_dump({"baseline": data}, sort_keys=False, default_flow_style=None, allow_unicode=True, width=100)
+    return BASELINE_HEADER + body
+
+
+def spec_text_with_baseline(spec_text: str, baseline: Baseline) -> str:
+    """``spec_text`` with its ``baseline:`` section replaced by (or, without one, followed by) ``baseline``.
+
+    Every other line, comments included, is kept as written. A section is the top-level
+    ``baseline:`` line and every line after it up to the next top-level key.
+    """
+    lines = spec_text.splitlines(keepends=True)
+    start = next((i for i, line in enumerate(lines) if re.match(r"^baseline\s*:", line)), None)
+    if start is None:
+        kept = spec_text if spec_text.endswith("\n") or not spec_text else spec_text + "\n"
+        return kept + "\n" + baseline_yaml(baseline)
+    end = start + 1
+    while end < len(lines) and not TOP_LEVEL_KEY.match(lines[end]):
+        end += 1
+    # comments and blank lines just before the next key belong to that key
+    while end > start + 1 and (not lines[end - 1].strip() or lines[end - 1].startswith("#")) and end < len(lines):
+        end -= 1
+    # comment lines directly above the old section belonged to it (e.g. an earlier header)
+    while start > 0 and lines[start - 1].startswith("#"):
+        start -= 1
+    before = "".join(lines[:start])
+    after = "".join(lines[end:])
+    section = baseline_yaml(baseline)
+    if after:
+        section += "\n"
+    return before + section + after

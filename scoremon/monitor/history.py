@@ -1,0 +1,201 @@
+"""Monitoring history: every run appended to two tables in the monitored database.
+
+``scoremon_monitor_runs``     one row per run: run id, when, the model's identity and
+                              fingerprint, the as-of date, what was monitored against what,
+                              the thresholds used (as JSON text), the run's status;
+``scoremon_monitor_metrics``  one row per figure: run id, month, family, metric, subject
+                              (a feature, a grade, a score band, or empty), value, status.
+
+A run only ever adds rows: re-running a month adds a run and leaves earlier runs alone. The
+tables are created if missing and the rows inserted in one transaction
+(:meth:`~scoremon.engines.Engine.execute_atomically`), so a run that fails part-way leaves the
+history exactly as it was. Readable copies of the definitions: ``sql/monitor_history.sql``
+(regenerate with ``python -m scoremon.monitor.history > sql/monitor_history.sql``).
+"""
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass
+from datetime import datetime
+from typing import Iterator, Sequence
+
+from sqlglot import exp
+
+from ..compiler import identifier, integer, number, text
+from ..dialects import render_sql
+from .records import MATURE, MonitorReport
+
+RUNS_TABLE = "scoremon_monitor_runs"
+METRICS_TABLE = "scoremon_monitor_metrics"
+INSERT_BATCH = 500  # rows per INSERT statement, all inside the one transaction
+
+RUNS_COLUMNS = (
+    ("run_id", "VARCHAR", True),
+    ("run_at", "TIMESTAMP", True),
+    ("model_name", "VARCHAR", True),
+    ("model_version", "VARCHAR", True),
+    ("model_fingerprint", "VARCHAR", True),
+    ("as_of", "DATE", True),
+    ("performance_window_months", "INTEGER", True),
+    ("source", "VARCHAR", True),
+    ("baseline_source", "VARCHAR", True),
+    ("thresholds", "VARCHAR", True),
+    ("months", "INTEGER", True),
+    ("status", "VARCHAR", True),
+)
+METRICS_COLUMNS = (
+    ("run_id", "VARCHAR", True),
+    ("month", "VARCHAR", True),
+    ("family", "VARCHAR", True),
+    ("metric", "VARCHAR", True),
+    ("subject", "VARCHAR", True),
+    ("value", "DOUBLE", False),
+    ("status", "VARCHAR", False),
+)
+
+
+@dataclass(frozen=True)
+class MetricRow:
+    """One figure of one month: ``subject`` is a feature, grade or score band, or empty."""
+
+    month: str
+    family: str
+    metric: str
+    subject: str
+    value: float | None
+    status: str | None = None
+
+
+def _table(name: str) -> exp.Table:
+    return exp.Table(this=identifier(name))
+
+
+def _create(name: str, columns) -> exp.Create:
+    definitions = []
+    for column, kind, required in columns:
+        constraints = [exp.ColumnConstraint(kind=exp.NotNullColumnConstraint())] if required else []
+        definitions.append(exp.ColumnDef(this=identifier(column), kind=exp.DataType.build(kind), constraints=constraints))
+    return exp.Create(this=exp.Schema(this=_table(name), expressions=definitions), kind="TABLE", exists=True)
+
+
+def create_statements() -> list[exp.Create]:
+    """``CREATE TABLE IF NOT EXISTS`` for both history tables."""
+    return [_create(RUNS_TABLE, RUNS_COLUMNS), _create(METRICS_TABLE, METRICS_COLUMNS)]
+
+
+def history_ddl_text(dialect: str = "duckdb") -> str:
+    """The readable copy kept in ``sql/monitor_history.sql``."""
+    header = ("-- The monitoring history tables scoremon creates (if missing) in the monitored database.\n"
+              "-- Generated from scoremon/monitor/history.py; regenerate with\n"
+              "--   python -m scoremon.monitor.history > sql/monitor_history.sql\n"
+              "-- Runs only ever add rows. status is ok, watch or alert; value is NULL when a figure\n"
+              "-- cannot be computed (no rows, no events).\n")
+    return header + "\n" + "\n\n".join(render_sql(s, dialect) + ";" for s in create_statements()) + "\n"
+
+
+def _value(value) -> exp.Expression:
+    if value is None:
+        return exp.Null()
+    if isinstance(value, str):
+        return text(value)
+    if isinstance(value, int) and not isinstance(value, bool):
+        return integer(value)
+    value = float(value)
+    return exp.Null() if not math.isfinite(value) else number(value)
+
+
+def metric_rows(report: MonitorReport) -> list[MetricRow]:
+    """Every figure of ``report`` that the history keeps, month by month."""
+    rows: list[MetricRow] = []
+    for m in report.months:
+        def add(family: str, metric: str, value, status: str | None = None, subject: str = "") -> None:
+            if value is not None or status is not None:
+                rows.append(MetricRow(m.month, family, metric, subject, value, status))
+
+        add("month", "status", None, m.status)
+        add("data_quality", "rows", m.rows)
+        add("data_quality", "volume_change", m.volume_change, m.volume_status)
+        add("data_quality", "status", None, m.data_quality_status)
+        for q in m.quality:
+            for metric in ("missing_rate", "unseen_rate", "catch_all_share"):
+                add("data_quality", metric, getattr(q, metric), subject=q.feature)
+                add("data_quality", f"{metric}_change", getattr(q, f"{metric}_change"),
+                    getattr(q, f"{metric}_status"), subject=q.feature)
+        add("stability", "score_psi", m.score_psi, m.score_psi_status)
+        add("stability", "score_psi_critical_value", m.score_psi_critical_value)
+        add("stability", "mean_score", m.mean_score)
+        add("stability", "mean_score_shift", m.mean_score_shift)
+        add("stability", "status", None, m.stability_status)
+        for band in m.score_bands:
+            add("stability", "score_band_share", band.actual, subject=band.label)
+        for c in m.characteristics:
+            add("stability", "characteristic_psi", c.psi, c.status, subject=c.feature)
+            add("stability", "points_shift", c.points_shift, subject=c.feature)
+        add("calibration", "mature", 1 if m.maturity == MATURE else 0)
+        if m.calibration is not None:
+            cal = m.calibration
+            add("calibration", "status", None, cal.status)
+            for metric in ("rows", "events", "mean_pd", "event_rate", "jeffreys_p", "binomial_p", "chi_square",
+                           "chi_square_df", "chi_square_p", "spiegelhalter_z", "spiegelhalter_p", "brier",
+                           "rows_without_outcome"):
+                add("calibration", metric, getattr(cal, metric))
+            for g in cal.grades:
+                for metric in ("rows", "events", "mean_pd", "event_rate", "binomial_p"):
+                    add("calibration", metric, getattr(g, metric), subject=g.grade)
+                add("calibration", "jeffreys_p", g.jeffreys_p, g.status, subject=g.grade)
+        if m.discrimination is not None:
+            d = m.discrimination
+            add("discrimination", "status", None, d.status)
+            for metric in ("events", "non_events", "auc", "auc_lower", "auc_upper", "gini", "ks"):
+                add("discrimination", metric, getattr(d, metric))
+            add("discrimination", "auc_change", d.auc_change, d.status)
+    return rows
+
+
+def _batches(items: Sequence, size: int) -> Iterator[Sequence]:
+    for start in range(0, len(items), size):
+        yield items[start:start + size]
+
+
+def insert_statements(report: MonitorReport) -> list[exp.Insert]:
+    """The INSERTs that append ``report`` to the history (the run row first)."""
+    run_at = datetime.fromisoformat(report.run_at).strftime("%Y-%m-%d %H:%M:%S")
+    run_row = exp.Tuple(expressions=[
+        text(report.run_id),
+        exp.Cast(this=text(run_at), to=exp.DataType.build("TIMESTAMP")),
+        text(report.model_name), text(report.model_version), text(report.model_fingerprint),
+        exp.Cast(this=text(report.as_of.isoformat()), to=exp.DataType.build("DATE")),
+        integer(report.performance_window_months),
+        text(report.source), text(report.baseline_source),
+        text(json.dumps(report.thresholds, sort_keys=True)),
+        integer(len(report.months)),
+        text(report.status or "ok"),
+    ])
+    statements = [_insert(RUNS_TABLE, RUNS_COLUMNS, [run_row])]
+    rows = [exp.Tuple(expressions=[text(report.run_id), text(r.month), text(r.family), text(r.metric), text(r.subject),
+                                   _value(r.value), _value(r.status)])
+            for r in metric_rows(report)]
+    statements += [_insert(METRICS_TABLE, METRICS_COLUMNS, list(batch)) for batch in _batches(rows, INSERT_BATCH)]
+    return statements
+
+
+def _insert(table: str, columns, rows: list[exp.Tuple]) -> exp.Insert:
+    target = exp.Schema(this=_table(table), expressions=[identifier(name) for name, _, _ in columns])
+    return exp.Insert(this=target, expression=exp.Values(expressions=rows))
+
+
+def write_history(engine, report: MonitorReport) -> int:
+    """Append ``report`` to the history tables in one transaction; return the metric rows written.
+
+    Raises :class:`~scoremon.errors.EngineError` (and leaves the history unchanged) when the
+    database refuses any statement.
+    """
+    statements = create_statements() + insert_statements(report)
+    engine.execute_atomically([render_sql(s, engine.dialect, pretty=False) for s in statements],
+                              "appending the run to the monitoring history")
+    return len(metric_rows(report))
+
+
+if __name__ == "__main__":
+    print(history_ddl_text(), end="")

@@ -1,0 +1,494 @@
+"""Measuring a book month by month: run the grouped passes, compute the statistics, set statuses.
+
+:func:`read_months` runs the month pass (volume, score and points sums, unseen values) and
+decides which months are reported: every month from the first to the last that has rows, up
+to the as-of date, a month without rows in between included (its volume is then zero).
+:func:`measure_book` runs the other three passes once each — bins and score bands over every
+reported month, calibration and discrimination over the mature ones — and turns their small
+result tables into a :class:`~scoremon.monitor.records.MonitorReport`.
+
+Statuses (thresholds in :mod:`scoremon.monitor.thresholds`):
+
+* a PSI (score or characteristic) is ``watch`` when it reaches the watch level *and* exceeds
+  the sample-size-aware critical value at the watch confidence; ``alert`` likewise with the
+  alert levels. A shift must be both material and more than sampling would produce.
+* volume: |rows / expected rows − 1|, the expected rows being the baseline's rows per month;
+* missing rate, unseen-category rate, catch-all share: |month − baseline|, and, as for PSI,
+  only when the change also exceeds what sampling produces at the ``psi_confidence`` levels
+  (z·√(r(1−r)(1/M + 1/N)), r the baseline rate);
+* calibration of a month: the worse of its Jeffreys p-value (the month as one pool, at its
+  mean PD) and its grade-level chi-square p-value; each grade also gets its Jeffreys status;
+* discrimination: the AUC's drop below the baseline AUC.
+
+A month's status is the worst of its families; the run's is the worst of its months.
+"""
+from __future__ import annotations
+
+import uuid
+from contextlib import contextmanager
+from dataclasses import dataclass, field
+from datetime import date, datetime, timezone
+from statistics import median
+from typing import Any, Iterator, Sequence
+
+from sqlglot import exp
+
+from ..dialects import render_sql
+from ..errors import InputError
+from ..spec.model import Baseline, CategoricalFeature, LinearFeature, Spec
+from . import queries
+from .baseline import band_edges, feature_bins, run
+from .months import Month, calendar_between, is_mature, month_of
+from .queries import MonitoredRows
+from .records import (
+    IMMATURE,
+    MATURE,
+    BinShare,
+    Calibration,
+    CharacteristicStability,
+    Discrimination,
+    Drift,
+    FeatureQuality,
+    GradeCalibration,
+    MonitorReport,
+    MonthResult,
+)
+from .statistics import (
+    HistogramSums,
+    binomial_p,
+    brier,
+    discrimination,
+    grade_chi_square,
+    jeffreys_p,
+    points_shift,
+    psi,
+    psi_critical_value,
+    rate_change_critical_value,
+    shares_with_empty_bin_rule,
+    spiegelhalter,
+)
+from .thresholds import ALERT, OK, STATUS_ORDER, WATCH, Limit, Thresholds, worst
+
+
+@contextmanager
+def monitored_relation(engine, rows: MonitoredRows) -> Iterator[exp.Expression]:
+    """The relation the passes read: the monitored rows as a subquery over a scored table, or,
+    when rows are scored on the fly, a temporary table holding them, so that the scoring runs
+    once and not once per pass. The temporary table is dropped on the way out."""
+    if not rows.scored_on_the_fly:
+        yield exp.Subquery(this=rows.select.copy(), alias=exp.TableAlias(this=queries.identifier("monitored")))
+        return
+    name = f"scoremon_monitored_{uuid.uuid4().hex[:12]}"
+    engine.execute(render_sql(queries.temporary_table(name, rows.select), engine.dialect, pretty=False),
+                   "scoring the monitored rows into a temporary table")
+    try:
+        yield exp.Table(this=queries.identifier(name))
+    finally:
+        engine.execute(render_sql(queries.drop_table(name), engine.dialect, pretty=False),
+                       "dropping the temporary table of monitored rows")
+
+
+@dataclass(frozen=True)
+class MonthRow:
+    """One month as the month pass returned it (``value`` is the month column's own value)."""
+
+    month: Month
+    value: Any
+    rows: int
+    score_sum: float
+    points_sums: tuple[float, ...]
+    unseen_rows: dict[str, int]
+    outcome_rows: int
+
+
+@dataclass(frozen=True)
+class BookMonths:
+    """The months a run reports, oldest first, and what was left out."""
+
+    months: tuple[MonthRow, ...]
+    notes: tuple[str, ...] = ()
+
+    def values_between(self, first: Month, last: Month) -> list:
+        return [m.value for m in self.months if first <= m.month <= last and m.rows > 0]
+
+
+def read_months(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expression, as_of: date,
+                month_column: str) -> BookMonths:
+    """Run the month pass and decide the reported months (see the module docstring).
+
+    Raises :class:`InputError` when the outcome holds values other than 0, 1 and NULL, when the
+    month column holds something that is not a month, or when no month is on or before ``as_of``.
+    """
+    result = run(engine, queries.month_pass(relation, spec, rows), "counting rows per month")
+    notes: list[str] = []
+    invalid = sum(int(r[-1] or 0) for r in result)
+    if invalid:
+        raise InputError(f"the outcome column holds {invalid:,} values that are neither 1, 0 nor NULL; "
+                         "fix the outcome column (1 = event, 0 = no event, NULL = not known yet)")
+    features = len(spec.features)
+    found: dict[Month, MonthRow] = {}
+    later = 0
+    for r in result:
+        if r[0] is None:
+            notes.append(f"{int(r[1]):,} rows have no month and are left out")
+            continue
+        month = month_of(r[0], month_column)
+        if month in found:
+            raise InputError(f"month column {month_column!r} holds several values for {month} "
+                             f"({found[month].value!r}, {r[0]!r}); give one value per month")
+        if month.first_day > as_of:
+            later += int(r[1])
+            continue
+        unseen = {name: int(r[3 + features + i] or 0) for i, name in enumerate(rows.unseen_features)}
+        found[month] = MonthRow(month, r[0], int(r[1]), float(r[2] or 0.0),
+                                tuple(float(r[3 + i] or 0.0) for i in range(features)), unseen, int(r[-2] or 0))
+    if later:
+        notes.append(f"{later:,} rows are in months after the as-of date {as_of} and are left out")
+    if not found:
+        raise InputError(f"no rows have a month on or before the as-of date {as_of}; check --as-of and --month-column")
+    ordered = sorted(found)
+    months = []
+    for month in calendar_between(ordered[0], ordered[-1]):
+        months.append(found.get(month) or MonthRow(month, None, 0, 0.0, (0.0,) * features, {}, 0))
+    return BookMonths(tuple(months), tuple(notes))
+
+
+def _material_and_real(value: float | None, limit: Limit, critical_watch: float | None,
+                       critical_alert: float | None) -> str | None:
+    """``watch`` / ``alert`` only for a value at the level *and* beyond its sampling critical value."""
+    if value is None:
+        return None
+    if value >= limit.alert and (critical_alert is None or value > critical_alert):
+        return ALERT
+    if value >= limit.watch and (critical_watch is None or value > critical_watch):
+        return WATCH
+    return OK
+
+
+@dataclass(frozen=True)
+class _Shift:
+    psi: float | None
+    critical_watch: float | None
+    critical_alert: float | None
+
+
+def _shift(actual_rows: Sequence[float], expected_shares: Sequence[float], baseline_rows: int,
+           thresholds: Thresholds) -> _Shift:
+    """PSI of a month's rows per bin against baseline shares, with the empty-bin rule.
+
+    Bins empty on both sides carry no information and are left out before the rule applies.
+    """
+    pairs = [(a, e * baseline_rows) for a, e in zip(actual_rows, expected_shares) if a > 0 or e > 0]
+    if len(pairs) < 2 or baseline_rows <= 0:
+        return _Shift(None, None, None)
+    actual = shares_with_empty_bin_rule([a for a, _ in pairs])
+    expected = shares_with_empty_bin_rule([e for _, e in pairs])
+    if actual is None or expected is None:
+        return _Shift(None, None, None)
+    rows = sum(a for a, _ in pairs)
+    confidence = thresholds.psi_confidence
+    return _Shift(psi(actual, expected),
+                  psi_critical_value(len(pairs), baseline_rows, rows, confidence.watch),
+                  psi_critical_value(len(pairs), baseline_rows, rows, confidence.alert))
+
+
+def _ratio(numerator: float, denominator: float) -> float | None:
+    return numerator / denominator if denominator else None
+
+
+def _change(actual: float | None, expected: float | None) -> float | None:
+    return None if actual is None or expected is None else actual - expected
+
+
+def _abs(value: float | None) -> float | None:
+    return None if value is None else abs(value)
+
+
+@dataclass
+class _Passes:
+    """The bins, calibration and discrimination results, keyed by month."""
+
+    bands: dict[Month, list[int]] = field(default_factory=dict)
+    bins: dict[Month, list[dict[str, int]]] = field(default_factory=dict)
+    grades: dict[Month, dict[str, tuple]] = field(default_factory=dict)
+    histograms: dict[Month, HistogramSums] = field(default_factory=dict)
+
+
+def measure_book(
+    engine,
+    spec: Spec,
+    rows: MonitoredRows,
+    relation: exp.Expression,
+    book: BookMonths,
+    *,
+    as_of: date,
+    month_column: str,
+    baseline: Baseline,
+    baseline_source: str,
+    thresholds: Thresholds,
+    source: str,
+    notes: Sequence[str] = (),
+    fingerprint: str,
+) -> MonitorReport:
+    """Every figure for every reported month of ``book``, with statuses (see the module docstring)."""
+    notes = list(notes) + list(book.notes)
+    window = spec.model.performance_window_months
+    edges = band_edges(baseline.score_bands)
+    with_rows = [m for m in book.months if m.rows > 0]
+    mature = [m for m in with_rows if rows.has_outcome and is_mature(m.month, window, as_of)]
+    passes = _Passes()
+
+    bins = run(engine, queries.bins_pass(relation, spec, edges, True, queries.months_in([m.value for m in with_rows])),
+               "counting rows per month, score band and bin")
+    by_value = {m.value: m.month for m in with_rows}
+    for r in bins:
+        month = by_value.get(r[0])
+        if month is None:
+            continue
+        count = int(r[-1])
+        if r[1] is not None:
+            passes.bands.setdefault(month, [0] * (len(edges) + 1))[int(r[1])] += count
+            continue
+        per_feature = passes.bins.setdefault(month, [{} for _ in spec.features])
+        for i in range(len(spec.features)):
+            if r[2 + i] is not None:
+                per_feature[i][str(r[2 + i])] = count
+                break
+
+    if mature:
+        where = queries.months_in([m.value for m in mature])
+        for r in run(engine, queries.calibration_pass(relation, where), "back-testing calibration per month and grade"):
+            month = by_value.get(r[0])
+            if month is not None:
+                passes.grades.setdefault(month, {})[str(r[1])] = tuple(r[2:])
+        for r in run(engine, queries.discrimination_pass(relation, where, True), "measuring discrimination per month"):
+            month = by_value.get(r[0])
+            if month is not None:
+                passes.histograms[month] = HistogramSums(*[float(v) for v in r[1:]])
+
+    expected_rows = baseline.rows_per_month
+    if expected_rows is None:
+        expected_rows = median([m.rows for m in with_rows])
+        notes.append(f"the baseline has no rows per month; volume is compared with this run's median month "
+                     f"({expected_rows:,.0f} rows)")
+    missing_baseline = [f.name for f in spec.features if f.name not in baseline.feature_shares]
+    if missing_baseline:
+        notes.append(f"the baseline has no bin shares for {', '.join(missing_baseline)}: no PSI for them")
+    if not rows.has_outcome:
+        notes.append("no outcome column was given: no calibration or discrimination")
+    unreadable = [f.name for f in spec.features if isinstance(f, CategoricalFeature) and f.name not in rows.unseen_features]
+    if unreadable:
+        notes.append(f"the raw column of {', '.join(unreadable)} is not in the table: no unseen-category rate for it")
+
+    results = []
+    for m in book.months:
+        results.append(_month_result(spec, m, baseline, expected_rows, thresholds, passes,
+                                     is_mature(m.month, window, as_of), rows))
+    drifts = _drifts(spec, results)
+    status = worst(*(r.status for r in results)) or OK
+    return MonitorReport(
+        run_id=uuid.uuid4().hex,
+        run_at=datetime.now(timezone.utc).replace(microsecond=0).isoformat(),
+        model_name=spec.model.name,
+        model_version=spec.model.version,
+        model_fingerprint=fingerprint,
+        as_of=as_of,
+        performance_window_months=window,
+        source=source,
+        baseline_source=baseline_source,
+        baseline_rows=baseline.rows,
+        expected_monthly_rows=expected_rows,
+        thresholds=thresholds.as_dict(),
+        months=tuple(results),
+        drifts=tuple(drifts),
+        notes=tuple(notes),
+        status=status,
+    )
+
+
+def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: float, thresholds: Thresholds,
+                  passes: _Passes, mature: bool, rows: MonitoredRows) -> MonthResult:
+    volume_change = _ratio(m.rows, expected_rows)
+    volume_change = None if volume_change is None else volume_change - 1.0
+    volume_status = thresholds.volume_change.status(_abs(volume_change))
+
+    # score bands
+    bands = sorted(baseline.score_bands, key=lambda b: b.lower)
+    band_rows = passes.bands.get(m.month, [0] * len(bands))
+    expected = [b.share for b in bands]
+    shift = _shift(band_rows, expected, baseline.rows, thresholds) if m.rows and bands else _Shift(None, None, None)
+    score_psi_status = _material_and_real(shift.psi, thresholds.score_psi, shift.critical_watch, shift.critical_alert)
+    score_bands = tuple(BinShare(_band_label(b.lower, b.upper), b.share, _ratio(n, m.rows), None)
+                        for b, n in zip(bands, band_rows))
+    mean_score = _ratio(m.score_sum, m.rows)
+
+    characteristics, quality = [], []
+    month_bins = passes.bins.get(m.month, [{} for _ in spec.features])
+    for i, feature in enumerate(spec.features):
+        characteristics.append(_characteristic(spec, feature, i, m, month_bins[i], baseline, thresholds))
+        quality.append(_quality(feature, m, month_bins[i], baseline, thresholds, rows))
+
+    calibration = discrimination_record = None
+    if mature and rows.has_outcome and m.rows:
+        calibration = _calibration(spec, passes.grades.get(m.month, {}), m, thresholds)
+        discrimination_record = _discrimination(passes.histograms.get(m.month), baseline, thresholds)
+
+    stability_status = worst(score_psi_status, *(c.status for c in characteristics))
+    quality_status = worst(volume_status, *(q.status for q in quality))
+    calibration_status = calibration.status if calibration else None
+    discrimination_status = discrimination_record.status if discrimination_record else None
+    return MonthResult(
+        month=m.month.label,
+        rows=m.rows,
+        maturity=MATURE if mature else IMMATURE,
+        volume_change=volume_change,
+        volume_status=volume_status,
+        score_psi=shift.psi,
+        score_psi_critical_value=shift.critical_watch,
+        score_psi_status=score_psi_status,
+        mean_score=mean_score,
+        mean_score_shift=_change(mean_score, baseline.mean_score),
+        score_bands=score_bands,
+        characteristics=tuple(characteristics),
+        quality=tuple(quality),
+        calibration=calibration,
+        discrimination=discrimination_record,
+        stability_status=stability_status,
+        data_quality_status=quality_status,
+        calibration_status=calibration_status,
+        discrimination_status=discrimination_status,
+        status=worst(stability_status, quality_status, calibration_status, discrimination_status),
+    )
+
+
+def _band_label(lower: float, upper: float) -> str:
+    def edge(value: float) -> str:
+        if value in (float("inf"), float("-inf")):
+            return "inf" if value > 0 else "-inf"
+        return f"{value:g}"
+
+    return f"[{edge(lower)}, {edge(upper)})"
+
+
+def _characteristic(spec: Spec, feature, index: int, m: MonthRow, counts: dict[str, int], baseline: Baseline,
+                    thresholds: Thresholds) -> CharacteristicStability:
+    labels = feature_bins(spec, feature)
+    expected_shares = baseline.feature_shares.get(feature.name)
+    if expected_shares is None or not m.rows:
+        return CharacteristicStability(feature.name, None, None, None, None, ())
+    actual_rows = [counts.get(b.label, 0) for b in labels]
+    expected = [expected_shares.get(b.label, 0.0) for b in labels]
+    shift = _shift(actual_rows, expected, baseline.rows, thresholds)
+    actual = [n / m.rows for n in actual_rows]
+    if isinstance(feature, LinearFeature):
+        # points vary inside a linear term's bins: its shift is the change of its mean points
+        dev_mean = baseline.mean_points.get(feature.name)
+        shift_points = None if dev_mean is None else m.points_sums[index] / m.rows - dev_mean
+    else:
+        shift_points = points_shift(actual, expected, [b.points for b in labels])
+    status = _material_and_real(shift.psi, thresholds.characteristic_psi, shift.critical_watch, shift.critical_alert)
+    bins = tuple(BinShare(b.label, e, a, b.points) for b, e, a in zip(labels, expected, actual))
+    return CharacteristicStability(feature.name, shift.psi, shift.critical_watch, shift_points, status, bins)
+
+
+def _quality(feature, m: MonthRow, counts: dict[str, int], baseline: Baseline, thresholds: Thresholds,
+             rows: MonitoredRows) -> FeatureQuality:
+    if not m.rows:
+        return FeatureQuality(feature.name, None, None, None)
+    shares = baseline.feature_shares.get(feature.name, {})
+    missing_label = feature.missing.label
+
+    def rate(actual: float, expected: float | None, limit: Limit) -> tuple[float | None, str | None]:
+        change = _change(actual, expected)
+        if change is None:
+            return None, None
+        confidence = thresholds.psi_confidence
+        critical = [rate_change_critical_value(expected, baseline.rows, m.rows, level)
+                    for level in (confidence.watch, confidence.alert)]
+        return change, _material_and_real(abs(change), limit, *critical)
+
+    missing_rate = counts.get(missing_label, 0) / m.rows
+    missing_change, missing_status = rate(missing_rate, shares.get(missing_label), thresholds.missing_rate_change)
+    unseen = unseen_change = unseen_status = catch_all = catch_all_change = catch_all_status = None
+    if isinstance(feature, CategoricalFeature):
+        catch_all = counts.get(feature.other.label, 0) / m.rows
+        catch_all_change, catch_all_status = rate(catch_all, shares.get(feature.other.label),
+                                                  thresholds.catch_all_share_change)
+        if feature.name in rows.unseen_features:
+            unseen = m.unseen_rows.get(feature.name, 0) / m.rows
+            unseen_change, unseen_status = rate(unseen, baseline.unseen_rate.get(feature.name),
+                                                thresholds.unseen_rate_change)
+    return FeatureQuality(feature.name, missing_rate, missing_change, missing_status, unseen, unseen_change,
+                          unseen_status, catch_all, catch_all_change, catch_all_status,
+                          worst(missing_status, unseen_status, catch_all_status))
+
+
+def _calibration(spec: Spec, grades: dict[str, tuple], m: MonthRow, thresholds: Thresholds) -> Calibration:
+    limit = thresholds.calibration_p_value
+    records = []
+    total_rows = total_events = 0
+    pd_sum = numerator = variance = squared_error = 0.0
+    for grade in spec.grades:
+        n, d, p_sum, z_sum, z_variance, se_sum = grades.get(grade.name, (0, 0, 0.0, 0.0, 0.0, 0.0))
+        n, d = int(n), int(d or 0)
+        mean_pd = _ratio(float(p_sum or 0.0), n)
+        jeffreys = jeffreys_p(n, d, mean_pd) if n else None
+        records.append(GradeCalibration(grade.name, n, d, mean_pd, _ratio(d, n), jeffreys,
+                                        binomial_p(n, d, mean_pd) if n else None, limit.status(jeffreys)))
+        total_rows += n
+        total_events += d
+        pd_sum += float(p_sum or 0.0)
+        numerator += float(z_sum or 0.0)
+        variance += float(z_variance or 0.0)
+        squared_error += float(se_sum or 0.0)
+    mean_pd = _ratio(pd_sum, total_rows)
+    jeffreys = jeffreys_p(total_rows, total_events, mean_pd) if total_rows else None
+    chi = grade_chi_square([g.rows for g in records], [g.events for g in records], [g.mean_pd for g in records])
+    z = spiegelhalter(numerator, variance) if total_rows else None
+    chi_p = chi.p_value if chi else None
+    return Calibration(
+        rows=total_rows,
+        events=total_events,
+        mean_pd=mean_pd,
+        event_rate=_ratio(total_events, total_rows),
+        jeffreys_p=jeffreys,
+        binomial_p=binomial_p(total_rows, total_events, mean_pd) if total_rows else None,
+        chi_square=chi.statistic if chi else None,
+        chi_square_df=chi.degrees_of_freedom if chi else None,
+        chi_square_p=chi_p,
+        spiegelhalter_z=z.z if z else None,
+        spiegelhalter_p=z.p_value if z else None,
+        brier=brier(squared_error, total_rows),
+        rows_without_outcome=m.rows - m.outcome_rows,
+        status=worst(limit.status(jeffreys), limit.status(chi_p)),
+        grades=tuple(records),
+    )
+
+
+def _discrimination(sums: HistogramSums | None, baseline: Baseline, thresholds: Thresholds) -> Discrimination:
+    if sums is None:
+        return Discrimination(0, 0, None, None, None, None, None, None, None)
+    found = discrimination(sums)
+    if found is None:
+        return Discrimination(int(sums.events), int(sums.non_events), None, None, None, None, None, None, None)
+    change = _change(found.auc, baseline.auc)
+    status = thresholds.auc_drop.status(None if change is None else -change)
+    return Discrimination(int(sums.events), int(sums.non_events), found.auc, found.auc_lower, found.auc_upper,
+                          found.gini, found.ks, change, status)
+
+
+def _drifts(spec: Spec, results: Sequence[MonthResult]) -> list[Drift]:
+    """Every characteristic, ranked: worst status first, then highest PSI over the run."""
+    measured = [r for r in results if r.rows]
+    drifts = []
+    for i, feature in enumerate(spec.features):
+        series = [(r.month, r.characteristics[i]) for r in measured if r.characteristics[i].psi is not None]
+        if not series:
+            continue
+        worst_month, worst_item = max(series, key=lambda s: s[1].psi)
+        latest = series[-1][1]
+        flagged = sum(1 for _, c in series if c.status in (WATCH, ALERT))
+        drifts.append(Drift(feature.name, worst_month, worst_item.psi, worst(*(c.status for _, c in series)),
+                            latest.psi, latest.points_shift, flagged))
+    drifts.sort(key=lambda d: (-STATUS_ORDER[d.status], -d.worst_psi, d.feature))
+    return drifts
