@@ -31,6 +31,8 @@ from .rows import arrow_table
 
 INTERNAL = "__scoremon_"  # prefix of the names scoremon gives its own scratch tables and views
 _LOCAL = re.compile(r"^local(\[(\d+|\*)\])?$")
+# Spark's session catalog accepts only these table and schema names (INVALID_SCHEMA_OR_RELATION_NAME)
+_CATALOG_NAME = re.compile(r"^[A-Za-z0-9_]+$")
 
 
 def spark_master(url: str, threads: int | None = None) -> tuple[str, dict[str, str]]:
@@ -132,6 +134,7 @@ class SparkEngine:
 
     def write_table(self, sql: str, table: list[str], purpose: str, progress: Progress | None = None) -> None:
         """Replace ``table`` with the result of ``sql``, best-effort atomic (see the module docstring)."""
+        _check_catalog_name(table)
         token = uuid.uuid4().hex
         scratch = table[:-1] + [f"{INTERNAL}new_{token}"]
         aside = table[:-1] + [f"{INTERNAL}old_{token}"]
@@ -160,6 +163,7 @@ class SparkEngine:
                    purpose: str) -> None:
         """Replace ``table`` with ``rows``: a DataFrame with an explicit schema (Arrow's), then
         :meth:`write_table`. Spark's DOUBLE keeps NaN and ±inf apart from NULL."""
+        _check_catalog_name(table)
         data = arrow_table(columns, rows)
         view = f"{INTERNAL}rows_{uuid.uuid4().hex}"
         self._run(lambda: self.session.createDataFrame(data).createOrReplaceTempView(view), purpose)
@@ -175,10 +179,8 @@ class SparkEngine:
     # -- helpers
 
     def _exists(self, table: list[str]) -> bool:
-        # the catalog API takes the names as values, so nothing is parsed as SQL
-        if len(table) == 2:
-            return self.session.catalog.tableExists(table[1], table[0])
-        return self.session.catalog.tableExists(table[0])
+        # the catalog parses the name as a (multi-part) identifier: hand it the quoted rendering
+        return self.session.catalog.tableExists(render_table(table, self.dialect))
 
     def _drop_quietly(self, rendered: str) -> None:
         try:
@@ -191,6 +193,13 @@ class SparkEngine:
             return work()
         except self._driver_errors as error:
             raise EngineError(purpose, self.label, _first_line(error)) from error
+
+
+def _check_catalog_name(table: list[str]) -> None:
+    bad = [part for part in table if not _CATALOG_NAME.match(part)]
+    if bad:
+        raise InputError(f"Spark cannot name a table or schema {bad[0]!r}: its catalog accepts letters, digits "
+                         "and _ only; choose such a name (column names may hold any character)")
 
 
 def _cores(master: str) -> int:
