@@ -63,19 +63,21 @@ def validate_source(source: SpecSource) -> Spec:
 
 def _valid_parts(data: dict) -> ValidParts:
     """The parts of a spec with shape problems that are right on their own."""
-    features = data.get("features")
-    if not isinstance(features, list):
-        return ValidParts(grades=_valid(GRADES, data, "grades"), reasons=_valid(REASONS, data, "reasons"),
-                          baseline=_valid(BASELINE, data, "baseline"))
+    features = data["features"] if isinstance(data.get("features"), list) else None
     valid = {}
-    for position, feature in enumerate(features):
+    for position, feature in enumerate(features or []):
         try:
             valid[position] = FEATURE.validate_python(feature)
         except ValidationError:
             pass  # its shape problems are already reported
-    names = tuple(f.get("name") if isinstance(f, dict) and isinstance(f.get("name"), str) else None for f in features)
+    names = None if features is None else tuple(_name_of(feature) for feature in features)
     return ValidParts(valid, names, _valid(GRADES, data, "grades"), _valid(REASONS, data, "reasons"),
                       _valid(BASELINE, data, "baseline"))
+
+
+def _name_of(feature: Any) -> str | None:
+    name = feature.get("name") if isinstance(feature, dict) else None
+    return name if isinstance(name, str) else None
 
 
 def _valid(adapter: TypeAdapter, data: dict, key: str) -> Any:
