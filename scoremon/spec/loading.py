@@ -48,14 +48,16 @@ def parse_spec(text: str, file: str = "<spec>") -> Spec:
 def validate_source(source: SpecSource) -> Spec:
     """Validate parsed data; raise :class:`SpecError` with every problem found."""
     if not isinstance(source.data, dict):
-        raise SpecError([source.problem((), f"the top level is {_describe(source.data)}, not a mapping; "
-                                             "start the file with keys such as `model:` and `features:`")])
+        raise SpecError(source.problems + [source.problem((), f"the top level is {_describe(source.data)}, not a "
+                                                              "mapping; start the file with keys such as `model:` "
+                                                              "and `features:`")])
+    problems = list(source.problems)  # a key given twice: its first value is validated below
     try:
         spec = Spec.model_validate(source.data)
     except ValidationError as error:
-        problems = _translate(error, source) + check_parts(_valid_parts(source.data), source)
+        problems += _translate(error, source) + check_parts(_valid_parts(source.data), source)
         raise SpecError(problems) from None
-    problems = check_spec(spec, source)
+    problems += check_spec(spec, source)
     if problems:
         raise SpecError(problems)
     return spec

@@ -3,6 +3,10 @@
 PyYAML's composer keeps a mark on every node; we walk the node tree ourselves so that each
 path (``("features", 2, "bins", 1, "upper")``) maps to where it stands in the file. Validation
 errors are then reported at the exact key a user must edit.
+
+Syntax errors stop reading at once. A key given twice or a key that is not a plain name is
+recorded in :attr:`SpecSource.problems` instead, so that validation can report it together
+with everything else.
 """
 from __future__ import annotations
 
@@ -24,6 +28,7 @@ class SpecSource:
     key_marks: dict[tuple, tuple[int, int]] = field(default_factory=dict)
     value_marks: dict[tuple, tuple[int, int]] = field(default_factory=dict)
     texts: dict[tuple, str] = field(default_factory=dict)
+    problems: list[Problem] = field(default_factory=list)  # keys given twice or not plain names
 
     def written(self, path: tuple) -> str | None:
         """A scalar exactly as the file writes it (``NO`` where YAML reads false), if known."""
@@ -63,7 +68,10 @@ def format_path(path: tuple) -> str:
 
 
 def read_spec_text(text: str, file: str = "<spec>") -> SpecSource:
-    """Parse YAML text into a :class:`SpecSource`. Raises :class:`SpecError` on bad YAML."""
+    """Parse YAML text into a :class:`SpecSource`; keys given twice go to its ``problems``.
+
+    Raises :class:`SpecError` when the text is not YAML or is empty.
+    """
     try:
         node = yaml.compose(text, Loader=yaml.SafeLoader)
     except yaml.MarkedYAMLError as error:
@@ -76,10 +84,7 @@ def read_spec_text(text: str, file: str = "<spec>") -> SpecSource:
     if node is None:
         raise SpecError([Problem(1, 1, "", "the file is empty; a spec needs at least model, intercept, scaling, "
                                           "features and grades", file)])
-    problems: list[Problem] = []
-    source.data = _build(node, (), source, problems)
-    if problems:
-        raise SpecError(problems)
+    source.data = _build(node, (), source, source.problems)
     return source
 
 
@@ -133,16 +138,17 @@ def _build(node: yaml.Node, path: tuple, source: SpecSource, problems: list[Prob
             key = _scalar(key_node)
             if not isinstance(key, (str, int)) or isinstance(key, bool):
                 line, column = _mark(key_node)
-                what = f"a {'list' if isinstance(key, yaml.SequenceNode) else 'mapping'}" if isinstance(key, yaml.Node) else repr(key)
-                problems.append(Problem(line, column, format_path(path), f"a key must be a plain name, not {what}; "
-                                                                         "write a word followed by ':'", source.file))
+                problems.append(Problem(line, column, format_path(path), f"a key must be a plain name, not "
+                                                                         f"{_describe_key(key)}; write a word "
+                                                                         "followed by ':'", source.file))
                 continue
             key = str(key)
             child = path + (key,)
             if key in result:
                 line, column = _mark(key_node)
                 first = source.key_marks[child][0]
-                problems.append(Problem(line, column, format_path(child), f"key appears twice (first on line {first}); keep one", source.file))
+                problems.append(Problem(line, column, format_path(child),
+                                        f"key appears twice (first on line {first}); keep one", source.file))
                 continue
             source.key_marks[child] = _mark(key_node)
             result[key] = _build(value_node, child, source, problems)
@@ -156,6 +162,14 @@ def _build(node: yaml.Node, path: tuple, source: SpecSource, problems: list[Prob
         return items
     source.texts[path] = node.value
     return _scalar(node)
+
+
+def _describe_key(key: Any) -> str:
+    if isinstance(key, yaml.SequenceNode):
+        return "a list"
+    if isinstance(key, yaml.MappingNode):
+        return "a mapping"
+    return repr(key)
 
 
 _CONSTRUCTOR = yaml.SafeLoader("")

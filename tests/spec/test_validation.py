@@ -209,6 +209,16 @@ def test_baseline_problems():
     ]
 
 
+def test_a_key_given_twice_does_not_hide_other_problems():
+    # The first value is the one validated; the repeat is reported where it stands.
+    text = edited(("  pdo: 20", "  pdo: 20\n  pdo: 0"),
+                  ("{name: B, lower: 600, upper: 640}", "{name: B, lower: 610, upper: 640}"))
+    assert problems(text) == [
+        "17:3: scaling.pdo: key appears twice (first on line 16); keep one",
+        "49:15: grades[1].lower: nothing covers 600 to 610: grades[2] ends at 600; set this lower edge to 600",
+    ]
+
+
 def test_a_list_used_as_a_key():
     assert problems(SMALL + "[a, b]: 1\n") == ["57:1: a key must be a plain name, not a list; write a word followed by ':'"]
 
