@@ -165,7 +165,8 @@ def test_the_baseline_is_not_part_of_the_model():
 
 
 SCORE_CHANGES = {
-    "bin-edge": [("upper: 40, woe: 0.1}", "upper: 41, woe: 0.1}"), ("{lower: 40, upper: .inf", "{lower: 41, upper: .inf")],
+    "bin-edge": [("upper: 40, woe: 0.1}", "upper: 41, woe: 0.1}"),
+                 ("{lower: 40, upper: .inf", "{lower: 41, upper: .inf")],
     "closed-side": ("    closed: lower", "    closed: upper"),
     "woe": ("{lower: 25, upper: 40, woe: 0.1}", "{lower: 25, upper: 40, woe: 0.11}"),
     "coefficient": ("    coefficient: -1.0", "    coefficient: -1.1"),
@@ -187,7 +188,8 @@ SCORE_CHANGES = {
     "linear-clip": ("    upper: 1.2", "    upper: 1.3"),
     "linear-center": ("    upper: 1.2", "    upper: 1.2\n    center: 0.5"),
     "linear-scale": ("    upper: 1.2", "    upper: 1.2\n    scale: 2"),
-    "grade-edge": [("{name: A, lower: 640", "{name: A, lower: 645"), ("lower: 600, upper: 640}", "lower: 600, upper: 645}")],
+    "grade-edge": [("{name: A, lower: 640", "{name: A, lower: 645"),
+                   ("lower: 600, upper: 640}", "lower: 600, upper: 645}")],
     "grade-name": ("{name: B, lower: 600, upper: 640}", "{name: BB, lower: 600, upper: 640}"),
     "reason-mapping": [("Region risk, features: [region]}", "Region risk, features: [utilisation]}"),
                        ("High utilisation, features: [utilisation]}", "High utilisation, features: [region]}")],

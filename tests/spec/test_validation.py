@@ -220,7 +220,9 @@ def test_a_key_given_twice_does_not_hide_other_problems():
 
 
 def test_a_list_used_as_a_key():
-    assert problems(SMALL + "[a, b]: 1\n") == ["57:1: a key must be a plain name, not a list; write a word followed by ':'"]
+    assert problems(SMALL + "[a, b]: 1\n") == [
+        "57:1: a key must be a plain name, not a list; write a word followed by ':'",
+    ]
 
 
 def test_two_documents_in_one_file():
