@@ -238,9 +238,10 @@ class _Numeric:
         removed = sorted(set(old_cuts) - set(new_cuts))
         added = sorted(set(new_cuts) - set(old_cuts))
         if removed and added and len(removed) == len(added):
-            for was, now in zip(removed, added):
-                self._structure(ChangeKind.EDGES_MOVED, f"{name} edge {number(was, 6)} moved to {number(now, 6)}",
-                                was, now, effect)
+            moves = ", ".join(f"{number(was, 6)} → {number(now, 6)}" for was, now in zip(removed, added))
+            self._structure(ChangeKind.EDGES_MOVED,
+                            f"{name} {'edge' if len(removed) == 1 else f'{len(removed)} edges'} moved: {moves}",
+                            removed, added, effect)
         else:
             for bin_ in old_bins:
                 cuts = [c for c in added if bin_.lower < c < bin_.upper]

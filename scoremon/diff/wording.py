@@ -24,9 +24,9 @@ def number(value: float | None, digits: int = 2) -> str:
     if math.isinf(value):
         return "inf" if value > 0 else "-inf"
     if float(value).is_integer():
-        return f"{value:.0f}"
+        return f"{value + 0.0:.0f}"  # + 0.0 turns −0 into 0
     text = f"{value:.{digits}f}".rstrip("0").rstrip(".")
-    if text in ("0", "-0", ""):  # smaller than the digits shown: keep its first digits
+    if text in ("0", "-0"):  # smaller than the digits shown: keep its first digits
         return f"{value:.{digits}g}"
     return text
 

@@ -230,7 +230,8 @@ def test_woe_change_reports_points_from_the_scaling_formula():
 def test_edge_move_reports_the_range_that_changed_bin():
     diff = diff_models(base(), variant(_age_bins((-INF, 25, -0.6), (25, 45, 0.1), (45, 60, 0.4), (60, INF, 0.7))))
     moved = only(diff, ChangeKind.EDGES_MOVED)
-    assert (moved.old, moved.new) == (40.0, 45.0)
+    assert (moved.old, moved.new) == ([40.0], [45.0])
+    assert "edge moved: 40 → 45" in moved.summary
     value = only(diff, ChangeKind.BIN_VALUE_CHANGED)
     assert "in [40, 45)" in value.summary  # ages 40 to 45 now fall in the bin below
     assert value.delta == pytest.approx(-FACTOR * -0.9 * (0.1 - 0.4), abs=1e-9)

@@ -21,6 +21,7 @@ EFFECT_MEANING = {
 SWAP_WORDS = {"accepted_by_both": "accepted by both", "swap_in": "swap-in (declined → accepted)",
               "swap_out": "swap-out (accepted → declined)", "declined_by_both": "declined by both"}
 INDENT = 2
+FOLD_AFTER = 4  # value changes shown per feature before the rest fold into one line
 
 
 def _table(*columns: tuple[str, str]) -> Table:
@@ -57,6 +58,25 @@ def _pct(share: float | None, digits: int = 1) -> str:
     return "–" if share is None else f"{share:.{digits}%}"
 
 
+def _folded(changes, keep: int = FOLD_AFTER):
+    """(change, 0) for each change shown, and (last change, n) where a feature's value changes
+    beyond ``keep`` are folded into one line; a re-binned feature can list dozens."""
+    shown: dict[str, int] = {}
+    total: dict[str, int] = {}
+    for change in changes:
+        if change.kind.value == "bin_value_changed":
+            total[change.feature] = total.get(change.feature, 0) + 1
+    for i, change in enumerate(changes):
+        if change.kind.value != "bin_value_changed" or total[change.feature] <= keep + 1:
+            yield change, 0
+            continue
+        shown[change.feature] = shown.get(change.feature, 0) + 1
+        if shown[change.feature] <= keep:
+            yield change, 0
+        elif shown[change.feature] == total[change.feature]:
+            yield change, total[change.feature] - keep
+
+
 def print_diff(report) -> None:
     """Print a :class:`~scoremon.diff.records.DiffReport`."""
     diff, impact = report.diff, report.impact
@@ -79,8 +99,12 @@ def print_diff(report) -> None:
         _title(f"changes ({len(diff.changes)})")
         table = _table(("effect", "left"), ("change", "left"))
         table.columns[0].no_wrap = True
-        for change in diff.changes:
-            table.add_row(_effect(change.effect.value), change.summary)
+        for change, folded in _folded(diff.changes):
+            if folded:
+                table.add_row("", Text(f"… and {folded} more value changes of {change.feature} "
+                                       "(each one is in the --json and --markdown output)", style="dim"))
+            else:
+                table.add_row(_effect(change.effect.value), change.summary)
         _emit(table)
         out.print()
     if diff.score_map is not None and not diff.is_equivalent:
