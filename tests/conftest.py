@@ -69,10 +69,15 @@ def spark_engine(tmp_path_factory):
 
 @contextmanager
 def open_test_engine(request, name: str):
-    """Engine ``name`` for one test; what the test made is dropped afterwards."""
+    """Engine ``name`` for one test; what the test made is dropped afterwards.
+
+    ``engine.test_url`` is a URL that opens the same database again (for CLI tests).
+    """
     scratch = f"test_{uuid.uuid4().hex[:12]}"
     if name == "duckdb":
-        engine = DuckDBEngine(":memory:")
+        url = str(request.getfixturevalue("tmp_path") / "test.duckdb")
+        engine = open_engine(url)
+        engine.test_url = url
         try:
             yield engine
         finally:
@@ -82,7 +87,9 @@ def open_test_engine(request, name: str):
         admin = open_engine(server.url)
         admin.execute(f"CREATE SCHEMA {render_name(scratch, 'postgres')}", "making a test schema")
         separator = "&" if "?" in server.url else "?"
-        engine = open_engine(f"{server.url}{separator}options=-csearch_path%3D{scratch}")
+        url = f"{server.url}{separator}options=-csearch_path%3D{scratch}"
+        engine = open_engine(url)
+        engine.test_url = url
         try:
             yield engine
         finally:
@@ -95,6 +102,7 @@ def open_test_engine(request, name: str):
         shared.execute(f"CREATE DATABASE {database}", "making a test database")
         shared.execute(f"USE {database}", "using the test database")
         engine = open_engine("spark://local[1]")  # reuses the running session, as a library user's would
+        engine.test_url = "spark://local[1]"
         try:
             yield engine
         finally:
