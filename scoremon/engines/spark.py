@@ -172,6 +172,22 @@ class SparkEngine:
         finally:
             self.session.catalog.dropTempView(view)
 
+    def execute_atomically(self, statements: Sequence[str], purpose: str) -> None:
+        """Run ``statements`` in order, best effort: Spark's catalogs have no transactions.
+
+        Each statement is atomic on its own (an INSERT commits its files whole or not at all), but
+        a failure part-way leaves the statements before it in effect; the error says how many.
+        """
+        for done, statement in enumerate(statements):
+            try:
+                self._run(lambda: self.session.sql(statement).collect(), purpose)
+            except EngineError as error:
+                if done:
+                    raise EngineError(f"{purpose} (Spark has no transactions: the first {done} of "
+                                      f"{len(statements)} statements took effect)", self.label,
+                                      str(error).split(" failed: ", 1)[-1]) from error.__cause__
+                raise
+
     def close(self) -> None:
         if self._owns_session:
             self.session.stop()
