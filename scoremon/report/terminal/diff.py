@@ -82,13 +82,11 @@ def print_diff(report) -> None:
     diff, impact = report.diff, report.impact
     _emit(Text.assemble(("diff", "bold"), f"  {diff.old.name} {diff.old.version} → "
                         f"{diff.new.name} {diff.new.version}"), indent=0)
-    versions = Table.grid(padding=(0, 2))
-    for _ in range(3):
-        versions.add_column(overflow="fold")
     for side, info in (("old", diff.old), ("new", diff.new)):
-        versions.add_row(Text(side, style="bold"), f"version {info.version}, fingerprint {info.fingerprint}",
-                         info.source)
-    _emit(versions)
+        line = Text.assemble((side, "bold"), f"  version {info.version}, fingerprint {info.fingerprint}",
+                             f", {info.source}" if info.source else "")
+        line.overflow = "fold"
+        _emit(line)
     if diff.is_equivalent:
         _emit(Text.assemble(("no change", "bold green"), ": the two specs are the same model (equal fingerprints)"))
     else:
