@@ -25,25 +25,10 @@ FOLD_AFTER = 4  # value changes shown per feature before the rest fold into one 
 
 
 def _table(*columns: tuple[str, str]) -> Table:
-    table = Table(show_edge=False, pad_edge=False, box=None,
-                  header_style="bold", padding=(0, 1))
+    table = Table(show_edge=False, pad_edge=False, box=None, header_style="bold", padding=(0, 1))
     for name, justify in columns:
         table.add_column(name, justify=justify, overflow="fold")
     return table
-
-
-def _emit(renderable, indent: int = INDENT) -> None:
-    """Print ``renderable`` indented, wrapped to the terminal's width, without trailing blanks
-    (rich pads table cells and padded blocks with spaces; copied output should not carry them)."""
-    options = out.options.update(width=max(out.width - indent, 40))
-    for line in out.render_lines(renderable, options, pad=False):
-        text = Text.assemble(*[(segment.text, segment.style) for segment in line if not segment.control])
-        text.rstrip()
-        out.print(Text(" " * indent) + text if text.plain else text, no_wrap=True, crop=False, soft_wrap=True)
-
-
-def _title(words: str) -> None:
-    _emit(Text(words, style="bold"))
 
 
 def _effect(value: str) -> Text:
@@ -66,7 +51,7 @@ def _folded(changes, keep: int = FOLD_AFTER):
     for change in changes:
         if change.kind.value == "bin_value_changed":
             total[change.feature] = total.get(change.feature, 0) + 1
-    for i, change in enumerate(changes):
+    for change in changes:
         if change.kind.value != "bin_value_changed" or total[change.feature] <= keep + 1:
             yield change, 0
             continue
@@ -78,23 +63,35 @@ def _folded(changes, keep: int = FOLD_AFTER):
 
 
 def print_diff(report) -> None:
-    """Print a :class:`~scoremon.diff.records.DiffReport`."""
-    diff, impact = report.diff, report.impact
-    _emit(Text.assemble(("diff", "bold"), f"  {diff.old.name} {diff.old.version} → "
-                        f"{diff.new.name} {diff.new.version}"), indent=0)
+    """Print a :class:`~scoremon.diff.records.DiffReport`: the versions, the changes, the
+    impact when a population was given, and the cautions."""
+    diff = report.diff
+    view = _View(0)
+    view.emit(Text.assemble(("diff", "bold"), f"  {diff.old.name} {diff.old.version} → "
+                            f"{diff.new.name} {diff.new.version}"), extra=0)
     for side, info in (("old", diff.old), ("new", diff.new)):
         line = Text.assemble((side, "bold"), f"  version {info.version}, fingerprint {info.fingerprint}",
                              f", {info.source}" if info.source else "")
         line.overflow = "fold"
-        _emit(line)
+        view.emit(line)
     if diff.is_equivalent:
-        _emit(Text.assemble(("no change", "bold green"), ": the two specs are the same model (equal fingerprints)"))
+        view.emit(Text.assemble(("no change", "bold green"),
+                                ": the two specs are the same model (equal fingerprints)"))
     else:
-        _emit(Text.assemble(("class ", "bold"), _effect(diff.effect.value), f" — {EFFECT_MEANING[diff.effect.value]}"))
+        view.emit(Text.assemble(("class ", "bold"), _effect(diff.effect.value),
+                                f" — {EFFECT_MEANING[diff.effect.value]}"))
     out.print()
+    print_diff_details(report)
+    print_cautions()
 
+
+def print_diff_details(report, indent: int = 0) -> None:
+    """The changes, what they do to every score, and the impact, indented by ``indent``
+    (the demo shows them under its step heading)."""
+    diff, impact = report.diff, report.impact
+    view = _View(indent)
     if diff.changes:
-        _title(f"changes ({len(diff.changes)})")
+        view.title(f"changes ({len(diff.changes)})")
         table = _table(("effect", "left"), ("change", "left"))
         table.columns[0].no_wrap = True
         for change, folded in _folded(diff.changes):
@@ -103,87 +100,102 @@ def print_diff(report) -> None:
                                        "(each one is in the --json and --markdown output)", style="dim"))
             else:
                 table.add_row(_effect(change.effect.value), change.summary)
-        _emit(table)
+        view.emit(table)
         out.print()
     if diff.score_map is not None and not diff.is_equivalent:
-        _emit(Text.assemble(("every score: ", "bold"), diff.score_map.summary))
+        view.emit(Text.assemble(("every score: ", "bold"), diff.score_map.summary))
         out.print()
     for note in diff.notes:
-        _emit(Text(f"note: {note}", style="dim"))
+        view.emit(Text(f"note: {note}", style="dim"))
     if diff.notes:
         out.print()
     if impact is not None:
-        print_impact(impact)
-    print_cautions()
+        view.impact(impact)
 
 
-def print_impact(impact) -> None:
-    """Print an :class:`~scoremon.diff.impact.Impact`."""
-    known = ""
-    if impact.outcome:
-        known = (f"; outcome {impact.outcome!r} known for {impact.rows_with_outcome:,} rows "
-                 f"(event rate {_pct(impact.event_rate, 2)})")
-    _emit(Text.assemble(("impact", "bold"), f" on {impact.population}: {impact.rows:,} rows{known}"), indent=0)
-    spearman = "–" if impact.spearman is None else f"{impact.spearman:.4f}"
-    _emit(Text(f"mean score {impact.mean_score_old:.2f} → {impact.mean_score_new:.2f}; "
-               f"mean PD {impact.mean_pd_old:.2%} → {impact.mean_pd_new:.2%}; "
-               f"Spearman rank correlation of old and new scores {spearman}"))
-    out.print()
-    _print_distribution("score change (new − old, points)", impact.score_change, 1.0)
-    _print_distribution("PD change (new − old, percentage points)", impact.pd_change, 100.0)
-    _print_migration(impact.migration, impact.rows)
-    if impact.swap_set is not None:
-        _print_swap(impact.swap_set, impact.outcome is not None)
-    first = impact.first_reason
-    moves = ", ".join(f"{a or '(none)'} → {b or '(none)'} {n:,}" for a, b, n in first.top_moves)
-    _emit(Text.assemble(("first reason", "bold"),
-                        f" changes for {first.rows_changed:,} rows ({_pct(first.share_changed)})"
-                        + (f"; most often {moves}" if moves else "")))
-    out.print()
+class _View:
+    """Prints blocks indented by a base amount, wrapped to the terminal's width."""
 
+    def __init__(self, base: int):
+        self.base = base
 
-def _print_distribution(title: str, distribution, scale: float) -> None:
-    _title(title)
-    table = _table(("band", "left"), ("rows", "right"), ("share", "right"), ("", "left"))
-    for band in distribution.bands:
-        if band.rows:
-            table.add_row(band.label, f"{band.rows:,}", _pct(band.share), _bar(band.share))
-    _emit(table)
-    q = distribution.quantiles
-    shown = " ".join(f"{k} {v * scale:+.2f}" for k, v in q.items() if k in ("p01", "p25", "p50", "p75", "p99"))
-    _emit(Text(f"mean {distribution.mean * scale:+.2f}; {shown}; up {distribution.rows_up:,}, "
-               f"unchanged {distribution.rows_unchanged:,}, down {distribution.rows_down:,}", style="dim"))
-    out.print()
+    def emit(self, renderable, extra: int = INDENT) -> None:
+        """Print ``renderable`` indented, without trailing blanks (rich pads table cells and
+        padded blocks with spaces; copied output should not carry them)."""
+        indent = self.base + extra
+        options = out.options.update(width=max(out.width - indent, 40))
+        for line in out.render_lines(renderable, options, pad=False):
+            text = Text.assemble(*[(segment.text, segment.style) for segment in line if not segment.control])
+            text.rstrip()
+            out.print(Text(" " * indent) + text if text.plain else text, no_wrap=True, crop=False, soft_wrap=True)
 
+    def title(self, words: str) -> None:
+        self.emit(Text(words, style="bold"))
 
-def _print_migration(migration, rows: int) -> None:
-    _title("grade migration (% of each old grade's rows)")
-    table = _table(("old \\ new", "left"), *[(g, "right") for g in migration.new_grades], ("rows", "right"))
-    for i, (grade, counts) in enumerate(zip(migration.old_grades, migration.counts)):
-        total = sum(counts)
-        cells = [Text(f"{n / total:.1%}" if n else "·", style="bold" if n and i == j else "")
-                 for j, n in enumerate(counts)]
-        table.add_row(grade, *cells, f"{total:,}")
-    _emit(table)
-    note = "" if migration.is_same_grades else " (grades differ: positions in each version's list compared)"
-    _emit(Text(f"up {migration.rows_up:,} ({_pct(migration.rows_up / rows)}), same {migration.rows_same:,} "
-               f"({_pct(migration.rows_same / rows)}), down {migration.rows_down:,} "
-               f"({_pct(migration.rows_down / rows)}){note}", style="dim"))
-    out.print()
+    def impact(self, impact) -> None:
+        known = ""
+        if impact.outcome:
+            known = (f"; outcome {impact.outcome!r} known for {impact.rows_with_outcome:,} rows "
+                     f"(event rate {_pct(impact.event_rate, 2)})")
+        self.emit(Text.assemble(("impact", "bold"), f" on {impact.population}: {impact.rows:,} rows{known}"),
+                  extra=0)
+        spearman = "–" if impact.spearman is None else f"{impact.spearman:.4f}"
+        self.emit(Text(f"mean score {impact.mean_score_old:.2f} → {impact.mean_score_new:.2f}; "
+                       f"mean PD {impact.mean_pd_old:.2%} → {impact.mean_pd_new:.2%}; "
+                       f"Spearman rank correlation of old and new scores {spearman}"))
+        out.print()
+        self.distribution("score change (new − old, points)", impact.score_change, 1.0)
+        self.distribution("PD change (new − old, percentage points)", impact.pd_change, 100.0)
+        self.migration(impact.migration, impact.rows)
+        if impact.swap_set is not None:
+            self.swap(impact.swap_set, impact.outcome is not None)
+        first = impact.first_reason
+        moves = ", ".join(f"{a or '(none)'} → {b or '(none)'} {n:,}" for a, b, n in first.top_moves)
+        self.emit(Text.assemble(("first reason", "bold"),
+                                f" changes for {first.rows_changed:,} rows ({_pct(first.share_changed)})"
+                                + (f"; most often {moves}" if moves else "")))
+        out.print()
 
+    def distribution(self, title: str, distribution, scale: float) -> None:
+        self.title(title)
+        table = _table(("band", "left"), ("rows", "right"), ("share", "right"), ("", "left"))
+        for band in distribution.bands:
+            if band.rows:
+                table.add_row(band.label, f"{band.rows:,}", _pct(band.share), _bar(band.share))
+        self.emit(table)
+        q = distribution.quantiles
+        shown = " ".join(f"{k} {v * scale:+.2f}" for k, v in q.items() if k in ("p01", "p25", "p50", "p75", "p99"))
+        self.emit(Text(f"mean {distribution.mean * scale:+.2f}; {shown}; up {distribution.rows_up:,}, "
+                       f"unchanged {distribution.rows_unchanged:,}, down {distribution.rows_down:,}", style="dim"))
+        out.print()
 
-def _print_swap(swap, has_outcome: bool) -> None:
-    cutoff = (f"{swap.cutoff_old:g}" if swap.cutoff_old == swap.cutoff_new
-              else f"{swap.cutoff_old:g} (old) / {swap.cutoff_new:g} (new)")
-    _title(f"swap set at cut-off {cutoff} (accept: score ≥ cut-off)")
-    columns = [("cell", "left"), ("rows", "right"), ("share", "right")]
-    if has_outcome:
-        columns += [("with outcome", "right"), ("event rate", "right")]
-    table = _table(*columns)
-    for cell in swap.cells:
-        row = [SWAP_WORDS[cell.name], f"{cell.rows:,}", _pct(cell.share)]
+    def migration(self, migration, rows: int) -> None:
+        self.title("grade migration (% of each old grade's rows)")
+        table = _table(("old \\ new", "left"), *[(g, "right") for g in migration.new_grades], ("rows", "right"))
+        for i, (grade, counts) in enumerate(zip(migration.old_grades, migration.counts)):
+            total = sum(counts)
+            cells = [Text(f"{n / total:.1%}" if n else "·", style="bold" if n and i == j else "")
+                     for j, n in enumerate(counts)]
+            table.add_row(grade, *cells, f"{total:,}")
+        self.emit(table)
+        note = "" if migration.is_same_grades else " (grades differ: positions in each version's list compared)"
+        self.emit(Text(f"up {migration.rows_up:,} ({_pct(migration.rows_up / rows)}), same "
+                       f"{migration.rows_same:,} ({_pct(migration.rows_same / rows)}), down "
+                       f"{migration.rows_down:,} ({_pct(migration.rows_down / rows)}){note}", style="dim"))
+        out.print()
+
+    def swap(self, swap, has_outcome: bool) -> None:
+        cutoff = (f"{swap.cutoff_old:g}" if swap.cutoff_old == swap.cutoff_new
+                  else f"{swap.cutoff_old:g} (old) / {swap.cutoff_new:g} (new)")
+        self.title(f"swap set at cut-off {cutoff} (accept: score ≥ cut-off)")
+        columns = [("cell", "left"), ("rows", "right"), ("share", "right")]
         if has_outcome:
-            row += [f"{cell.rows_with_outcome:,}", _pct(cell.event_rate, 2)]
-        table.add_row(*row)
-    _emit(table)
-    out.print()
+            columns += [("with outcome", "right"), ("event rate", "right")]
+        table = _table(*columns)
+        for cell in swap.cells:
+            row = [SWAP_WORDS[cell.name], f"{cell.rows:,}", _pct(cell.share)]
+            if has_outcome:
+                row += [f"{cell.rows_with_outcome:,}", _pct(cell.event_rate, 2)]
+            table.add_row(*row)
+        self.emit(table)
+        out.print()
