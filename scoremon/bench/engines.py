@@ -1,0 +1,145 @@
+"""``scoremon bench --engines``: scoring on each engine against that engine's own bare scan.
+
+The rows are the benchmark's synthetic workload (:mod:`.workload`), drawn once inside DuckDB and
+loaded into every other engine through its own :meth:`~scoremon.engines.Engine.write_rows`, so
+each engine scores the same values. Per engine two comparisons, timed side by side in turns
+(:mod:`.timing`):
+
+* compiled scoring (rows, mean score and mean PD per grade) ÷ a bare scan of the same columns;
+* the same with the three reasons counted too (reasons are the costly part: on PostgreSQL an
+  inlined CTE chain copied the scoring expressions into the plan many times).
+
+On PostgreSQL the run also counts the CASE expressions in ``EXPLAIN VERBOSE`` of the scoring
+query against those in its SQL text: about 1 means the plan computes each expression once
+(the scoring CTEs are ``MATERIALIZED``, see :mod:`scoremon.dialects`); a large number means the
+plan copied them.
+"""
+from __future__ import annotations
+
+import re
+from contextlib import nullcontext
+from dataclasses import dataclass
+from typing import Sequence
+
+from sqlglot import exp
+
+from ..compiler import compile_model, identifier, output_columns
+from ..dialects import render_sql, table_path
+from ..engines import DuckDBEngine, Engine, open_engine
+from ..errors import InputError
+from . import queries, workload
+from .run import BenchLine, BenchObserver, BenchReport
+from .timing import time_pair
+
+TABLE = "scoremon_bench_input"
+# what DuckDB calls the generated columns' types → the portable kinds write_rows takes
+_KINDS = {"INTEGER": "BIGINT", "BIGINT": "BIGINT", "DOUBLE": "DOUBLE", "VARCHAR": "VARCHAR"}
+
+
+@dataclass(frozen=True)
+class EngineBenchSettings:
+    """Engine URLs to measure besides DuckDB (always measured), rows, timed rounds, DuckDB threads."""
+
+    urls: tuple[str, ...] = ()
+    rows: int = 1_000_000
+    repeat: int = 3
+    threads: int | None = None
+
+
+def run_engine_bench(settings: EngineBenchSettings, observer: BenchObserver | None = None) -> BenchReport:
+    """Measure scoring ÷ bare scan on DuckDB and on each engine in ``settings.urls``.
+
+    >>> report = run_engine_bench(EngineBenchSettings(rows=500, repeat=1))
+    >>> [line.key for line in report.lines]
+    ['duckdb', 'duckdb+']
+    """
+    if settings.rows < 1 or settings.repeat < 1:
+        raise InputError("rows and repeat must be at least 1")
+    observer = observer or _Quiet()
+    spec = workload.bench_spec()
+    lines: list[BenchLine] = []
+    notes: list[str] = []
+    duckdb = DuckDBEngine(":memory:", threads=settings.threads)
+    try:
+        duckdb.execute("SET enable_progress_bar_print = false", "quieting DuckDB's own progress bar")
+        with observer.stage(f"generating {settings.rows:,} rows") as progress:
+            duckdb.write_table(render_sql(workload.generate_rows(settings.rows), "duckdb", pretty=False), [TABLE],
+                               "generating the bench rows", progress)
+        threads = int(duckdb.fetch("SELECT current_setting('threads')", "reading the thread count")[0][0])
+        lines += _measure(duckdb, spec, settings.repeat, observer, notes)
+        if settings.urls:
+            columns = _columns(duckdb)
+            with observer.stage("reading the rows out of DuckDB"):
+                rows = duckdb.fetch(_select_all(columns, "duckdb"), "reading the bench rows")
+            for url in settings.urls:
+                engine = open_engine(url)
+                try:
+                    with observer.stage(f"loading {len(rows):,} rows into {engine.dialect}"):
+                        engine.write_rows([TABLE], columns, rows, "loading the bench rows")
+                    try:
+                        lines += _measure(engine, spec, settings.repeat, observer, notes)
+                    finally:
+                        drop = exp.Drop(tables=[table_path([TABLE])], kind="TABLE", exists=True)
+                        engine.execute(render_sql(drop, engine.dialect, pretty=False), "dropping the bench rows")
+                finally:
+                    engine.close()
+    finally:
+        duckdb.close()
+    return BenchReport(settings.rows, threads, settings.repeat, tuple(lines), tuple(notes))
+
+
+class _Quiet:
+    """An observer that shows nothing (library use, tests)."""
+
+    def stage(self, description: str):
+        return nullcontext(None)
+
+    def measured(self, line: BenchLine) -> None:
+        pass
+
+
+def _columns(engine: Engine) -> list[tuple[str, str]]:
+    names = workload.input_columns()
+    query = exp.select(*[exp.column(identifier(n)) for n in names]).from_(table_path([TABLE]))
+    kinds = dict(engine.describe(render_sql(query, engine.dialect, pretty=False), "reading the bench columns"))
+    return [(name, _KINDS[kinds[name].upper()]) for name in names]
+
+
+def _select_all(columns: Sequence[tuple[str, str]], dialect: str) -> str:
+    query = exp.select(*[exp.column(identifier(name)) for name, _ in columns]).from_(table_path([TABLE]))
+    return render_sql(query, dialect, pretty=False)
+
+
+def _measure(engine: Engine, spec, repeat: int, observer: BenchObserver, notes: list[str]) -> list[BenchLine]:
+    dialect = engine.dialect
+    relation = table_path([TABLE])
+    kinds = dict(engine.describe(render_sql(exp.select(exp.Star()).from_(relation), dialect, pretty=False),
+                                 "reading the bench columns"))
+    floats = [name for name, kind in kinds.items() if re.match(r"^(DOUBLE|FLOAT\d?|DOUBLE PRECISION)$", kind, re.I)]
+    scoring = compile_model(spec, relation, (), floats)
+    numeric = [name for name in workload.input_columns() if name not in workload.text_columns()]
+    bare = render_sql(queries.bare_scan(TABLE, numeric, workload.text_columns()), dialect, pretty=False)
+    compiled = render_sql(queries.grade_summary(scoring), dialect, pretty=False)
+    reasons = render_sql(queries.reason_summary(scoring, output_columns(spec).reasons), dialect, pretty=False)
+    run = engine.fetch
+    measured = []
+    for key, title, sql in ((dialect, f"{dialect}: compiled scoring ÷ bare scan", compiled),
+                            (f"{dialect}+", f"{dialect}: scoring with 3 reasons ÷ bare scan", reasons)):
+        with observer.stage(f"({key}) {title}"):
+            timing = time_pair(lambda: run(sql, "compiled scoring"), lambda: run(bare, "bare scan"), repeat)
+        line = BenchLine(key, title, "scoring", timing.first_seconds, "bare scan", timing.second_seconds,
+                         timing.ratio, "s", None, repeat)
+        observer.measured(line)
+        measured.append(line)
+    if dialect == "postgres":
+        notes.append(_plan_note(engine, reasons))
+    return measured
+
+
+def _plan_note(engine: Engine, sql: str) -> str:
+    """How many CASE expressions PostgreSQL's plan holds for each one in the SQL."""
+    plan = "\n".join(str(row[0]) for row in engine.fetch(f"EXPLAIN (VERBOSE, COSTS OFF) {sql}",
+                                                         "explaining the scoring query"))
+    in_plan, in_sql = len(re.findall(r"\bCASE\b", plan)), len(re.findall(r"\bCASE\b", sql))
+    return (f"postgres plan: {in_plan:,} CASE expressions in EXPLAIN VERBOSE for {in_sql:,} in the SQL "
+            f"(ratio {in_plan / max(in_sql, 1):.2f}; about 1 means no scoring expression is copied)")
