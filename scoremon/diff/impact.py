@@ -7,8 +7,8 @@ columns the new version needs (under fresh names), and the new version's scoring
 over that. Each step only adds columns to the row it reads, so no key or join is needed to
 line the two scores up, and the source is read once. Over the paired rows, window functions
 give each row its position by score change and PD change (for exact quantiles) and its
-average rank by old and by new score (for Spearman's rank correlation); one
-``GROUP BY GROUPING SETS`` then returns every aggregate the summary needs:
+average rank by old and by new score (for Spearman's rank correlation); one GROUP BY over
+every key, then ``GROUPING SETS`` over its result, returns every aggregate the summary needs:
 
 * ``()``                       totals, sums, order statistics, rank sums;
 * ``(old_grade, new_grade)``   the grade migration matrix;
@@ -324,10 +324,13 @@ def impact_query(
     n_rows = _double(_window(exp.Count(this=exp.Star())))
 
     def centred_rank(name: str) -> exp.Expression:
-        # average rank of tied values = RANK + (ties − 1) / 2; its mean over all rows is (n + 1) / 2
-        ties = _double(_window(exp.Count(this=exp.Star()), partition=name))
-        rank = _double(_window(exp.Anonymous(this="RANK"), order=name))
-        return rank + exp.paren(ties - _num(1.0)) / _num(2.0) - exp.paren(n_rows.copy() + _num(1.0)) / _num(2.0)
+        # The average rank of tied values is halfway between the first tie's rank (RANK) and
+        # the last's: the count of rows up to and including the ties (COUNT with the default
+        # frame, which takes in peers). Both use the same ordering, so engines sort once.
+        # The mean of average ranks over all rows is (n + 1) / 2.
+        first = _double(_window(exp.Anonymous(this="RANK"), order=name))
+        last = _double(_window(exp.Count(this=exp.Star()), order=name))
+        return exp.paren(first + last) / _num(2.0) - exp.paren(n_rows.copy() + _num(1.0)) / _num(2.0)
 
     ranked_columns = [
         _col(c) for c in ("old_score", "new_score", "old_pd", "new_pd", "old_grade", "new_grade", "old_reason",
@@ -357,39 +360,45 @@ def impact_query(
     picks = [_as(_order_statistic_pick(f"{q}_position"), f"{q}_pick") for q in ("score_change", "pd_change")]
     picked = exp.select(exp.Star(), *picks).from_(exp.Subquery(this=ranked, alias=exp.TableAlias(this=_id("ranked"))))
 
-    # the aggregates
+    # the aggregates, in two passes: one GROUP BY over every key at once (a single hash table
+    # over the rows), then GROUPING SETS over that small result; summing the partial sums is
+    # the same as summing the rows, and grouping the rows themselves by each set was as slow
+    # again as scoring both versions.
     groups = {"migration": ("old_grade", "new_grade"), "swap": ("swap_cell",), "reason": ("old_reason", "new_reason"),
               "score_band": ("score_band",), "pd_band": ("pd_band",),
               "score_change_pick": ("score_change_pick",), "pd_change_pick": ("pd_change_pick",)}
     if cutoffs is None:
         del groups["swap"]
-    selected: list[tuple[str, exp.Expression]] = []
-    for names in groups.values():
-        for name in names:
-            selected.append((name, _col(name)))
+    keys = [name for names in groups.values() for name in names]
+    partial = [  # (name, aggregate over rows, how partial results combine)
+        ("rows", exp.Count(this=exp.Star()), exp.Sum),
+        ("events", exp.Sum(this=_col("outcome")), exp.Sum),
+        ("rows_with_outcome", exp.Count(this=_col("outcome")), exp.Sum),
+        ("invalid_outcomes", exp.Sum(this=_col("invalid_outcome")), exp.Sum),
+        ("sum_score_change", exp.Sum(this=_col("score_change")), exp.Sum),
+        ("min_score_change", exp.Min(this=_col("score_change")), exp.Min),
+        ("max_score_change", exp.Max(this=_col("score_change")), exp.Max),
+        ("sum_pd_change", exp.Sum(this=_col("pd_change")), exp.Sum),
+        ("min_pd_change", exp.Min(this=_col("pd_change")), exp.Min),
+        ("max_pd_change", exp.Max(this=_col("pd_change")), exp.Max),
+        ("sum_old_score", exp.Sum(this=_col("old_score")), exp.Sum),
+        ("sum_new_score", exp.Sum(this=_col("new_score")), exp.Sum),
+        ("sum_old_pd", exp.Sum(this=_col("old_pd")), exp.Sum),
+        ("sum_new_pd", exp.Sum(this=_col("new_pd")), exp.Sum),
+        ("sum_rank_products", exp.Sum(this=_col("old_rank") * _col("new_rank")), exp.Sum),
+        ("sum_old_rank_squares", exp.Sum(this=_col("old_rank") * _col("old_rank")), exp.Sum),
+        ("sum_new_rank_squares", exp.Sum(this=_col("new_rank") * _col("new_rank")), exp.Sum),
+    ]
+    cells = exp.select(*[_col(k) for k in keys], *[_as(e, n) for n, e, _ in partial]).from_(
+        exp.Subquery(this=picked, alias=exp.TableAlias(this=_id("picked"))))
+    cells = cells.group_by(*[_col(k) for k in keys])
+
+    selected: list[tuple[str, exp.Expression]] = [(k, _col(k)) for k in keys]
     for grouping, names in groups.items():
         selected.append((f"grouping_{grouping}", exp.Grouping(expressions=[_col(names[0])])))
-    selected += [
-        ("rows", exp.Count(this=exp.Star())),
-        ("events", exp.Sum(this=_col("outcome"))),
-        ("rows_with_outcome", exp.Count(this=_col("outcome"))),
-        ("invalid_outcomes", exp.Sum(this=_col("invalid_outcome"))),
-        ("sum_score_change", exp.Sum(this=_col("score_change"))),
-        ("min_score_change", exp.Min(this=_col("score_change"))),
-        ("max_score_change", exp.Max(this=_col("score_change"))),
-        ("sum_pd_change", exp.Sum(this=_col("pd_change"))),
-        ("min_pd_change", exp.Min(this=_col("pd_change"))),
-        ("max_pd_change", exp.Max(this=_col("pd_change"))),
-        ("sum_old_score", exp.Sum(this=_col("old_score"))),
-        ("sum_new_score", exp.Sum(this=_col("new_score"))),
-        ("sum_old_pd", exp.Sum(this=_col("old_pd"))),
-        ("sum_new_pd", exp.Sum(this=_col("new_pd"))),
-        ("sum_rank_products", exp.Sum(this=_col("old_rank") * _col("new_rank"))),
-        ("sum_old_rank_squares", exp.Sum(this=_col("old_rank") * _col("old_rank"))),
-        ("sum_new_rank_squares", exp.Sum(this=_col("new_rank") * _col("new_rank"))),
-    ]
+    selected += [(n, combine(this=_col(n))) for n, _, combine in partial]
     query = exp.select(*[_as(e, n) for n, e in selected]).from_(
-        exp.Subquery(this=picked, alias=exp.TableAlias(this=_id("picked"))))
+        exp.Subquery(this=cells, alias=exp.TableAlias(this=_id("cells"))))
     sets = [exp.Tuple(expressions=[])] + [exp.Tuple(expressions=[_col(n) for n in names]) for names in groups.values()]
     query.set("group", exp.Group(grouping_sets=[exp.GroupingSets(expressions=sets)]))
     return ImpactQuery(query, tuple(n for n, _ in selected))
@@ -467,7 +476,7 @@ def summarise_impact(
         return wanted
 
     total = of(None)[0]
-    n = int(total["rows"])
+    n = int(total["rows"] or 0)  # an empty population has a total row with NULL sums
     if n == 0:
         raise InputError(f"{population}: the population has no rows; there is nothing to compare")
     if outcome and total["invalid_outcomes"]:
