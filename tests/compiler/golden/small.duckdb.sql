@@ -1,0 +1,204 @@
+WITH "binned" AS (
+  SELECT
+    "application_id",
+    CASE
+      WHEN "age" IS NULL
+      THEN 3
+      WHEN "age" = CAST('NaN' AS DOUBLE)
+      THEN 3
+      WHEN "age" = CAST('Infinity' AS DOUBLE)
+      THEN 2
+      WHEN "age" = CAST('-Infinity' AS DOUBLE)
+      THEN 0
+      WHEN "age" < CAST(25.0 AS DOUBLE)
+      THEN 0
+      WHEN "age" < CAST(40.0 AS DOUBLE)
+      THEN 1
+      ELSE 2
+    END AS "__scoremon_bin_0",
+    CASE
+      WHEN "region_code" IS NULL
+      THEN 3
+      ELSE COALESCE(MAP(['N1', 'N2', 'S1'], [0, 0, 1])["region_code"], 2)
+    END AS "__scoremon_bin_1",
+    CASE
+      WHEN "utilisation" IS NULL
+      THEN 3
+      WHEN "utilisation" = CAST('NaN' AS DOUBLE)
+      THEN 3
+      WHEN "utilisation" < CAST(0.0 AS DOUBLE)
+      THEN 0
+      WHEN "utilisation" > CAST(1.2 AS DOUBLE)
+      THEN 2
+      ELSE 1
+    END AS "__scoremon_bin_2",
+    CASE
+      WHEN "utilisation" IS NULL
+      THEN NULL
+      WHEN "utilisation" = CAST('NaN' AS DOUBLE)
+      THEN NULL
+      WHEN "utilisation" < CAST(0.0 AS DOUBLE)
+      THEN CAST(0.0 AS DOUBLE)
+      WHEN "utilisation" > CAST(1.2 AS DOUBLE)
+      THEN CAST(1.2 AS DOUBLE)
+      ELSE CAST("utilisation" AS DOUBLE)
+    END AS "__scoremon_value_2"
+  FROM "input"
+), "pointed" AS (
+  SELECT
+    "application_id",
+    ['[-inf, 25)', '[25, 40)', '[40, inf)', 'missing']["__scoremon_bin_0" + 1] AS "age_bin",
+    [
+      CAST(-14.426950408889635 AS DOUBLE),
+      CAST(2.885390081777927 AS DOUBLE),
+      CAST(17.312340490667562 AS DOUBLE),
+      CAST(-5.770780163555854 AS DOUBLE)
+    ]["__scoremon_bin_0" + 1] AS "age_points",
+    ['north', 'south', 'elsewhere', 'missing']["__scoremon_bin_1" + 1] AS "region_bin",
+    [
+      CAST(-8.656170245333781 AS DOUBLE),
+      CAST(2.885390081777927 AS DOUBLE),
+      CAST(-1.4426950408889636 AS DOUBLE),
+      CAST(-5.770780163555854 AS DOUBLE)
+    ]["__scoremon_bin_1" + 1] AS "region_points",
+    ['clipped_low', 'in_range', 'clipped_high', 'missing']["__scoremon_bin_2" + 1] AS "utilisation_bin",
+    CASE
+      WHEN "__scoremon_bin_2" = 3
+      THEN CAST(-11.541560327111709 AS DOUBLE)
+      ELSE CAST(-43.2808512266689 AS DOUBLE) * (
+        "__scoremon_value_2" - CAST(0.0 AS DOUBLE)
+      )
+    END AS "utilisation_points",
+    CAST(-2.0 AS DOUBLE) + [
+      CAST(0.5 AS DOUBLE),
+      CAST(-0.1 AS DOUBLE),
+      CAST(-0.6 AS DOUBLE),
+      CAST(0.2 AS DOUBLE)
+    ]["__scoremon_bin_0" + 1] + [
+      CAST(0.3 AS DOUBLE),
+      CAST(-0.1 AS DOUBLE),
+      CAST(0.05 AS DOUBLE),
+      CAST(0.2 AS DOUBLE)
+    ]["__scoremon_bin_1" + 1] + CASE
+      WHEN "__scoremon_bin_2" = 3
+      THEN CAST(0.4 AS DOUBLE)
+      ELSE CAST(1.5 AS DOUBLE) * (
+        "__scoremon_value_2" - CAST(0.0 AS DOUBLE)
+      )
+    END AS "__scoremon_eta"
+  FROM "binned"
+), "totalled" AS (
+  SELECT
+    "application_id",
+    "age_bin",
+    "age_points",
+    "region_bin",
+    "region_points",
+    "utilisation_bin",
+    "utilisation_points",
+    "__scoremon_eta",
+    CAST(544.830677840064 AS DOUBLE) + "age_points" + "region_points" + "utilisation_points" AS "score",
+    CAST(17.312340490667562 AS DOUBLE) - (
+      "age_points"
+    ) AS "__scoremon_shortfall_0",
+    CAST(2.885390081777927 AS DOUBLE) - (
+      "region_points"
+    ) AS "__scoremon_shortfall_1",
+    CAST(-0.0 AS DOUBLE) - (
+      "utilisation_points"
+    ) AS "__scoremon_shortfall_2"
+  FROM "pointed"
+), "ranked" AS (
+  SELECT
+    "application_id",
+    "age_bin",
+    "age_points",
+    "region_bin",
+    "region_points",
+    "utilisation_bin",
+    "utilisation_points",
+    "__scoremon_eta",
+    "score",
+    CASE
+      WHEN "__scoremon_shortfall_0" > CAST(0.0 AS DOUBLE)
+      THEN 1 + CASE WHEN "__scoremon_shortfall_1" > "__scoremon_shortfall_0" THEN 1 ELSE 0 END + CASE WHEN "__scoremon_shortfall_2" > "__scoremon_shortfall_0" THEN 1 ELSE 0 END
+      ELSE NULL
+    END AS "__scoremon_rank_0",
+    CASE
+      WHEN "__scoremon_shortfall_1" > CAST(0.0 AS DOUBLE)
+      THEN 1 + CASE
+        WHEN "__scoremon_shortfall_0" > "__scoremon_shortfall_1"
+        OR "__scoremon_shortfall_0" = "__scoremon_shortfall_1"
+        THEN 1
+        ELSE 0
+      END + CASE WHEN "__scoremon_shortfall_2" > "__scoremon_shortfall_1" THEN 1 ELSE 0 END
+      ELSE NULL
+    END AS "__scoremon_rank_1",
+    CASE
+      WHEN "__scoremon_shortfall_2" > CAST(0.0 AS DOUBLE)
+      THEN 1 + CASE
+        WHEN "__scoremon_shortfall_0" > "__scoremon_shortfall_2"
+        OR "__scoremon_shortfall_0" = "__scoremon_shortfall_2"
+        THEN 1
+        ELSE 0
+      END + CASE
+        WHEN "__scoremon_shortfall_1" > "__scoremon_shortfall_2"
+        OR "__scoremon_shortfall_1" = "__scoremon_shortfall_2"
+        THEN 1
+        ELSE 0
+      END
+      ELSE NULL
+    END AS "__scoremon_rank_2"
+  FROM "totalled"
+)
+SELECT
+  "application_id",
+  "age_bin",
+  "age_points",
+  "region_bin",
+  "region_points",
+  "utilisation_bin",
+  "utilisation_points",
+  "score",
+  CAST(1.0 AS DOUBLE) / (
+    CAST(1.0 AS DOUBLE) + EXP(
+      -(
+        CASE
+          WHEN "__scoremon_eta" > CAST(700.0 AS DOUBLE)
+          THEN CAST(700.0 AS DOUBLE)
+          WHEN "__scoremon_eta" < CAST(-700.0 AS DOUBLE)
+          THEN CAST(-700.0 AS DOUBLE)
+          ELSE "__scoremon_eta"
+        END
+      )
+    )
+  ) AS "pd",
+  CASE
+    WHEN "score" >= CAST(640.0 AS DOUBLE)
+    THEN 'A'
+    WHEN "score" >= CAST(600.0 AS DOUBLE)
+    THEN 'B'
+    ELSE 'C'
+  END AS "grade",
+  CASE
+    WHEN "__scoremon_rank_0" = 1
+    THEN 'R1'
+    WHEN "__scoremon_rank_1" = 1
+    THEN 'R2'
+    WHEN "__scoremon_rank_2" = 1
+    THEN 'R3'
+    ELSE NULL
+  END AS "reason_1",
+  CASE
+    WHEN "__scoremon_rank_0" = 2
+    THEN 'R1'
+    WHEN "__scoremon_rank_1" = 2
+    THEN 'R2'
+    WHEN "__scoremon_rank_2" = 2
+    THEN 'R3'
+    ELSE NULL
+  END AS "reason_2",
+  'small_test_model' AS "model_name",
+  '3' AS "model_version",
+  '1cd64850b6a4935e' AS "model_fingerprint"
+FROM "ranked"
