@@ -198,33 +198,44 @@ def _fresh(base: str, taken: set[str]) -> str:
     return name
 
 
-def _with_own_step_names(query: exp.Select, prefix: str, source: exp.Expression) -> exp.Select:
-    """``query`` with its CTEs renamed ``prefix + name`` (and every reference to them).
+PLACEHOLDER = f"{INTERNAL}rows"  # stands for a scoring query's source until the real one is put in
+
+
+def _scoring_step(spec: Spec, source: exp.Subquery, prefix: str, keys: Sequence[str],
+                  float_columns: Sequence[str]) -> exp.Select:
+    """``spec``'s scoring query over ``source``, its steps (CTEs) renamed ``prefix + name``.
 
     The two scoring queries nest inside each other and both name their steps ``binned``,
-    ``pointed``…; Spark refuses duplicate CTE names even in nested scopes. The source
-    subquery is left alone: a table in it may be called ``binned`` too.
+    ``pointed``…; Spark refuses duplicate CTE names even in nested scopes. The query is
+    compiled over a placeholder and ``source`` is put in afterwards: the compiler copies its
+    source, and here the source holds the whole first scoring query; renaming before the
+    source is in also leaves a table in the source called ``binned`` alone.
     """
-    query = query.copy()
+    query = compile_model(spec, exp.Table(this=_id(PLACEHOLDER)), keys=keys, float_columns=float_columns)
     ctes = query.args["with_"].expressions
     names = {cte.alias: f"{prefix}{cte.alias}" for cte in ctes}
     for cte in ctes:
         cte.set("alias", exp.TableAlias(this=_id(names[cte.alias])))
+    placeholders = []
     for clause in list(query.find_all(exp.From)):
-        if any(isinstance(a, exp.Subquery) and a.alias == source.alias for a in _ancestors(clause)):
-            continue
         target = clause.this
         if isinstance(target, exp.Identifier) and target.name in names:
             clause.set("this", _id(names[target.name]))
         elif isinstance(target, exp.Table) and not target.args.get("db") and target.name in names:
             target.set("this", _id(names[target.name]))
+        elif isinstance(target, exp.Table) and target.name == PLACEHOLDER:
+            placeholders.append(clause)
+    if len(placeholders) != 1:
+        raise RuntimeError(f"expected the scoring query to read its source once, found {len(placeholders)}")  # a bug
+    placeholders[0].set("this", source)
     return query
 
 
-def _ancestors(node: exp.Expression):
-    while node.parent is not None:
-        node = node.parent
-        yield node
+def _over(columns: Sequence[exp.Expression], query: exp.Expression, alias: str) -> exp.Select:
+    """``SELECT columns FROM (query) AS alias`` without copying ``query`` (it can be large)."""
+    select = exp.Select(expressions=list(columns))
+    select.set("from_", exp.From(this=exp.Subquery(this=query, alias=exp.TableAlias(this=_id(alias)))))
+    return select
 
 
 def _inputs(spec: Spec) -> list[str]:
@@ -263,33 +274,32 @@ def impact_query(
     # step 0: the old version's inputs, plus everything later steps need under fresh names
     carried = list(dict.fromkeys(inputs_new + ([outcome] if outcome else [])))
     carry = {name: _fresh(f"carried_{i}", taken) for i, name in enumerate(carried, start=1)}
-    step0 = exp.select(*[_col(n) for n in inputs_old], *[_as(_col(n), carry[n]) for n in carried]).from_(source.copy())
+    step0 = exp.Select(expressions=[_col(n) for n in inputs_old] + [_as(_col(n), carry[n]) for n in carried])
+    step0.set("from_", exp.From(this=source.copy()))
 
     # step 1: the old version scores each row and passes the carried columns through
     population = exp.Subquery(this=step0, alias=exp.TableAlias(this=_id("population")))
-    step1 = compile_model(old, population, keys=[carry[n] for n in carried],
-                          float_columns=[n for n in inputs_old if n in floats])
-    step1 = _with_own_step_names(step1, f"{INTERNAL}old_", population)
+    step1 = _scoring_step(old, population, f"{INTERNAL}old_", [carry[n] for n in carried],
+                          [n for n in inputs_old if n in floats])
     old_names = {k: _fresh(f"old_{k}", taken) for k in ("score", "pd", "grade", "reason")}
     outcome_name = carry[outcome] if outcome else None
     old_reason = "reason_1" if output_columns(old).reasons else None
 
     # step 1b: the new version's inputs under their own names, and the old results
-    step1b = exp.select(
+    step1b = _over([
         *[_as(_col(carry[n]), n) for n in inputs_new],
         *([_col(outcome_name)] if outcome else []),
         _as(_col("score"), old_names["score"]), _as(_col("pd"), old_names["pd"]),
         _as(_col("grade"), old_names["grade"]),
         _as(_col(old_reason) if old_reason else exp.Cast(this=exp.Null(), to=exp.DataType.build("VARCHAR")),
             old_names["reason"]),
-    ).from_(exp.Subquery(this=step1, alias=exp.TableAlias(this=_id("scored_old"))))
+    ], step1, "scored_old")
 
     # step 2: the new version scores the same row
     keys = [old_names["score"], old_names["pd"], old_names["grade"], old_names["reason"]]
     keys += [outcome_name] if outcome else []
     carried_rows = exp.Subquery(this=step1b, alias=exp.TableAlias(this=_id("carried")))
-    step2 = compile_model(new, carried_rows, keys=keys, float_columns=[n for n in inputs_new if n in floats])
-    step2 = _with_own_step_names(step2, f"{INTERNAL}new_", carried_rows)
+    step2 = _scoring_step(new, carried_rows, f"{INTERNAL}new_", keys, [n for n in inputs_new if n in floats])
     new_reason = "reason_1" if output_columns(new).reasons else None
 
     # paired: our own names from here on
@@ -308,7 +318,7 @@ def impact_query(
                                    exp.Not(this=exp.paren(exp.or_(exp.EQ(this=o.copy(), expression=_int(0)),
                                                                   exp.EQ(this=o.copy(), expression=_int(1)))))),
                           _int(1))], _int(0))
-    paired = exp.select(
+    paired = _over([
         _as(_col(old_names["score"]), "old_score"), _as(_col("score"), "new_score"),
         _as(_col(old_names["pd"]), "old_pd"), _as(_col("pd"), "new_pd"),
         _as(_col(old_names["grade"]), "old_grade"), _as(_col("grade"), "new_grade"),
@@ -318,7 +328,7 @@ def impact_query(
         _as(outcome_value, "outcome"), _as(invalid, "invalid_outcome"),
         _as(_col("score") - _col(old_names["score"]), "score_change"),
         _as(_col("pd") - _col(old_names["pd"]), "pd_change"),
-    ).from_(exp.Subquery(this=step2, alias=exp.TableAlias(this=_id("scored_new"))))
+    ], step2, "scored_new")
 
     # ranked: bands, swap cell, positions and centred average ranks
     n_rows = _double(_window(exp.Count(this=exp.Star())))
@@ -353,12 +363,12 @@ def impact_query(
             (accepted_old.copy(), exp.Literal.string("swap_out")),
             (accepted_new.copy(), exp.Literal.string("swap_in")),
         ], exp.Literal.string("declined_by_both")), "swap_cell"))
-    ranked = exp.select(*ranked_columns).from_(exp.Subquery(this=paired, alias=exp.TableAlias(this=_id("paired"))))
+    ranked = _over(ranked_columns, paired, "paired")
 
     # picked: the rows quantiles need (a step of its own: PostgreSQL cannot refer to a column
     # alias of the same SELECT)
     picks = [_as(_order_statistic_pick(f"{q}_position"), f"{q}_pick") for q in ("score_change", "pd_change")]
-    picked = exp.select(exp.Star(), *picks).from_(exp.Subquery(this=ranked, alias=exp.TableAlias(this=_id("ranked"))))
+    picked = _over([exp.Star(), *picks], ranked, "ranked")
 
     # the aggregates, in two passes: one GROUP BY over every key at once (a single hash table
     # over the rows), then GROUPING SETS over that small result; summing the partial sums is
@@ -389,16 +399,14 @@ def impact_query(
         ("sum_old_rank_squares", exp.Sum(this=_col("old_rank") * _col("old_rank")), exp.Sum),
         ("sum_new_rank_squares", exp.Sum(this=_col("new_rank") * _col("new_rank")), exp.Sum),
     ]
-    cells = exp.select(*[_col(k) for k in keys], *[_as(e, n) for n, e, _ in partial]).from_(
-        exp.Subquery(this=picked, alias=exp.TableAlias(this=_id("picked"))))
-    cells = cells.group_by(*[_col(k) for k in keys])
+    cells = _over([*[_col(k) for k in keys], *[_as(e, n) for n, e, _ in partial]], picked, "picked")
+    cells.set("group", exp.Group(expressions=[_col(k) for k in keys]))
 
     selected: list[tuple[str, exp.Expression]] = [(k, _col(k)) for k in keys]
     for grouping, names in groups.items():
         selected.append((f"grouping_{grouping}", exp.Grouping(expressions=[_col(names[0])])))
     selected += [(n, combine(this=_col(n))) for n, _, combine in partial]
-    query = exp.select(*[_as(e, n) for n, e in selected]).from_(
-        exp.Subquery(this=cells, alias=exp.TableAlias(this=_id("cells"))))
+    query = _over([_as(e, n) for n, e in selected], cells, "cells")
     sets = [exp.Tuple(expressions=[])] + [exp.Tuple(expressions=[_col(n) for n in names]) for names in groups.values()]
     query.set("group", exp.Group(grouping_sets=[exp.GroupingSets(expressions=sets)]))
     return ImpactQuery(query, tuple(n for n, _ in selected))

@@ -85,11 +85,12 @@ def print_diff(report) -> None:
     print_cautions()
 
 
-def print_diff_details(report, indent: int = 0) -> None:
+def print_diff_details(report, indent: int = 0, brief: bool = False) -> None:
     """The changes, what they do to every score, and the impact, indented by ``indent``
-    (the demo shows them under its step heading)."""
+    (the demo shows them under its step heading); ``brief`` leaves out the histograms of
+    the score and PD change, keeping their one-line summaries."""
     diff, impact = report.diff, report.impact
-    view = _View(indent)
+    view = _View(indent, brief)
     if diff.changes:
         view.title(f"changes ({len(diff.changes)})")
         table = _table(("effect", "left"), ("change", "left"))
@@ -116,8 +117,9 @@ def print_diff_details(report, indent: int = 0) -> None:
 class _View:
     """Prints blocks indented by a base amount, wrapped to the terminal's width."""
 
-    def __init__(self, base: int):
+    def __init__(self, base: int, brief: bool = False):
         self.base = base
+        self.brief = brief
 
     def emit(self, renderable, extra: int = INDENT) -> None:
         """Print ``renderable`` indented, without trailing blanks (rich pads table cells and
@@ -158,11 +160,12 @@ class _View:
 
     def distribution(self, title: str, distribution, scale: float) -> None:
         self.title(title)
-        table = _table(("band", "left"), ("rows", "right"), ("share", "right"), ("", "left"))
-        for band in distribution.bands:
-            if band.rows:
-                table.add_row(band.label, f"{band.rows:,}", _pct(band.share), _bar(band.share))
-        self.emit(table)
+        if not self.brief:
+            table = _table(("band", "left"), ("rows", "right"), ("share", "right"), ("", "left"))
+            for band in distribution.bands:
+                if band.rows:
+                    table.add_row(band.label, f"{band.rows:,}", _pct(band.share), _bar(band.share))
+            self.emit(table)
         q = distribution.quantiles
         shown = " ".join(f"{k} {v * scale:+.2f}" for k, v in q.items() if k in ("p01", "p25", "p50", "p75", "p99"))
         self.emit(Text(f"mean {distribution.mean * scale:+.2f}; {shown}; up {distribution.rows_up:,}, "
