@@ -78,8 +78,8 @@ def _near_whole(values, bounds) -> list[int]:
     return [i for i in out if bounds[0] <= i <= bounds[1]]
 
 
-def _numeric_column(draw, anchors) -> tuple[str, list]:
-    kind = draw(st.sampled_from(["DOUBLE", "BIGINT", "INTEGER"]))
+def _numeric_column(draw, anchors, kind: str | None = None) -> tuple[str, list]:
+    kind = kind or draw(st.sampled_from(["DOUBLE", "BIGINT", "INTEGER"]))
     if kind == "DOUBLE":
         extra = draw(st.lists(st.floats(**finite), max_size=3))
         return kind, _nudged(anchors) + DOUBLE_SPECIALS + extra
@@ -90,7 +90,10 @@ def _numeric_column(draw, anchors) -> tuple[str, list]:
 
 @st.composite
 def numeric_feature(draw, name: str, coarse: bool):
-    cuts = sorted(draw(st.lists(cut_point, min_size=0, max_size=7, unique=True)))
+    column_kind = draw(st.sampled_from(["DOUBLE", "BIGINT", "INTEGER"]))
+    # a DOUBLE column may also meet cut points of any finite size
+    element = st.one_of(cut_point, st.floats(**finite)) if column_kind == "DOUBLE" else cut_point
+    cuts = sorted(draw(st.lists(element, min_size=0, max_size=7, unique=True)))
     edges = [-math.inf] + cuts + [math.inf]
     closed = draw(st.sampled_from(["lower", "upper"]))
     kind = draw(st.sampled_from(["woe", "log_odds", "points"]))
@@ -115,7 +118,7 @@ def numeric_feature(draw, name: str, coarse: bool):
         target = draw(st.one_of(st.none(), st.sampled_from(known)))
         if target is not None:
             feature[route] = target
-    return feature, _numeric_column(draw, cuts)
+    return feature, _numeric_column(draw, cuts, column_kind)
 
 
 @st.composite
