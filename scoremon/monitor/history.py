@@ -24,6 +24,7 @@ from sqlglot import exp
 
 from ..compiler import identifier, integer, number, text
 from ..dialects import render_sql
+from ..errors import InputError
 from .records import MATURE, MonitorReport
 
 RUNS_TABLE = "scoremon_monitor_runs"
@@ -189,8 +190,11 @@ def write_history(engine, report: MonitorReport) -> int:
     """Append ``report`` to the history tables in one transaction; return the metric rows written.
 
     Raises :class:`~scoremon.errors.EngineError` (and leaves the history unchanged) when the
-    database refuses any statement.
+    database refuses any statement, :class:`InputError` for an engine without transactions.
     """
+    if not hasattr(engine, "execute_atomically"):
+        raise InputError(f"the history is written in one transaction and {engine.dialect} has none; monitor "
+                         "from DuckDB or PostgreSQL, or run without the history (--no-history)")
     statements = create_statements() + insert_statements(report)
     engine.execute_atomically([render_sql(s, engine.dialect, pretty=False) for s in statements],
                               "appending the run to the monitoring history")

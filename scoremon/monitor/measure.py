@@ -18,7 +18,8 @@ Statuses (thresholds in :mod:`scoremon.monitor.thresholds`):
   (z·√(r(1−r)(1/M + 1/N)), r the baseline rate);
 * calibration of a month: the worse of its Jeffreys p-value (the month as one pool, at its
   mean PD) and its grade-level chi-square p-value; each grade also gets its Jeffreys status;
-* discrimination: the AUC's drop below the baseline AUC.
+* discrimination: the AUC's drop below the baseline AUC, when the drop also exceeds z times
+  the month's DeLong standard error at the ``psi_confidence`` levels.
 
 A month's status is the worst of its families; the run's is the worst of its months.
 """
@@ -31,6 +32,7 @@ from datetime import date, datetime, timezone
 from statistics import median
 from typing import Any, Iterator, Sequence
 
+from scipy.stats import norm
 from sqlglot import exp
 
 from ..dialects import render_sql
@@ -472,7 +474,12 @@ def _discrimination(sums: HistogramSums | None, baseline: Baseline, thresholds: 
     if found is None:
         return Discrimination(int(sums.events), int(sums.non_events), None, None, None, None, None, None, None)
     change = _change(found.auc, baseline.auc)
-    status = thresholds.auc_drop.status(None if change is None else -change)
+    status = None
+    if change is not None:
+        critical = [None if found.auc_standard_error is None else
+                    float(norm.ppf(0.5 + level / 2.0)) * found.auc_standard_error
+                    for level in (thresholds.psi_confidence.watch, thresholds.psi_confidence.alert)]
+        status = _material_and_real(-change, thresholds.auc_drop, *critical)
     return Discrimination(int(sums.events), int(sums.non_events), found.auc, found.auc_lower, found.auc_upper,
                           found.gini, found.ks, change, status)
 

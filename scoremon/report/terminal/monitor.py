@@ -163,8 +163,9 @@ def _drifts(report) -> None:
             out.print()
         return
     _emit(Text(f"characteristics that drift, ranked ({len(flagged)})", style="bold"), indent=0)
-    table = _table(("characteristic", "left"), ("worst month", "left"), ("PSI", "right"), ("months", "right"),
-                   ("latest PSI", "right"), ("points shift", "right"), ("status", "left"))
+    table = _table(("characteristic", "left"), ("worst month", "left", 11), ("PSI", "right", 5),
+                   ("months", "right", 6), ("latest PSI", "right", 10), ("points shift", "right", 12),
+                   ("status", "left", 6))
     for d in flagged:
         table.add_row(d.feature, d.worst_month, _number(d.worst_psi), str(d.months_flagged), _number(d.latest_psi),
                       _points(d.latest_points_shift), _status(d.status))
@@ -182,7 +183,7 @@ def _drivers(report) -> None:
     _emit(Text.assemble((f"score shift in {latest.month}", "bold"),
                         f"  mean score {_points(latest.mean_score_shift)} points against the baseline; "
                         "by characteristic, Σ(actual% − expected%)·points:"), indent=0)
-    table = _table(("characteristic", "left"), ("points", "right"), ("PSI", "right"))
+    table = _table(("characteristic", "left"), ("points", "right", 7), ("PSI", "right", 5))
     for c in shifts[:5]:
         table.add_row(c.feature, _points(c.points_shift), _number(c.psi))
     _emit(table)
@@ -207,7 +208,8 @@ def _findings(report) -> None:
         out.print()
         return
     _emit(Text(f"data quality findings ({len(lines)})", style="bold"), indent=0)
-    table = _table(("month", "left"), ("what", "left"), ("now", "right"), ("change", "right"), ("status", "left"))
+    table = _table(("month", "left", 7), ("what", "left"), ("now", "right", 7), ("change", "right", 10),
+                   ("status", "left", 6))
     for month, what, now, change, status in lines[:MOST_FINDINGS]:
         table.add_row(month, what, now, change, _status(status))
     _emit(table)
@@ -224,8 +226,9 @@ def _calibration(report) -> None:
     _emit(Text.assemble((f"calibration by grade, {month.month}", "bold"),
                         f" (latest mature month): {c.events:,} events in {c.rows:,} rows, "
                         f"{_pct(c.event_rate, 2)} against a mean PD of {_pct(c.mean_pd, 2)}"), indent=0)
-    table = _table(("grade", "left"), ("rows", "right"), ("events", "right"), ("mean PD", "right"),
-                   ("event rate", "right"), ("Jeffreys p", "right"), ("binomial p", "right"), ("status", "left"))
+    table = _table(("grade", "left"), ("rows", "right", 7), ("events", "right", 6), ("mean PD", "right", 7),
+                   ("event rate", "right", 10), ("Jeffreys p", "right", 10), ("binomial p", "right", 10),
+                   ("status", "left", 6))
     for g in c.grades:
         table.add_row(g.grade, f"{g.rows:,}", f"{g.events:,}", _pct(g.mean_pd, 2), _pct(g.event_rate, 2),
                       _p(g.jeffreys_p), _p(g.binomial_p), _status(g.status))
