@@ -54,7 +54,8 @@ GROUPINGS = ("migration", "swap", "reason", "score_band", "pd_band", "score_chan
 
 @dataclass(frozen=True)
 class Band:
-    """One bar of a histogram of changes: ``lower`` < change ≤ ``upper`` in words ``label``."""
+    """One bar of a histogram of changes: its words, its signed band number (0 is
+    unchanged, larger numbers are larger rises, negative ones falls) and its rows."""
 
     label: str
     index: int
@@ -562,13 +563,6 @@ def summarise_impact(
         score_change=score_change, pd_change=pd_change, migration=migration, swap_set=swap_set,
         first_reason=first_reason, spearman=spearman,
     )
-
-
-def population_text(table: str | None, file: str | None, database: str | None) -> str:
-    """How a report names the population: ``table T in DB`` or ``file F``."""
-    if file is not None:
-        return f"file {file}"
-    return f"table {table} in {database or 'an in-memory database'}"
 
 
 def check_outcome_type(outcome: str, columns: Mapping[str, str]) -> bool:
