@@ -10,6 +10,10 @@ from the documented semantics, not from the compiler.
 
 Bin labels, points, score, grade and reasons must be identical; PD within 1e-12 (absolute
 plus relative) because EXP may differ from Python's ``math.exp`` in the last bit.
+
+The SQL that ``scoremon compile`` prints knows nothing of the column types (so it keeps the
+NaN and infinity tests even for whole-number columns); run as it stands, it must give the
+very same rows as the typed scoring path.
 """
 from __future__ import annotations
 
@@ -18,11 +22,13 @@ import pytest
 import yaml
 from hypothesis import HealthCheck, given, settings
 
+from scoremon.api import compile_sql
 from scoremon.engines import DuckDBEngine
 from scoremon.spec import fingerprint, parse_spec
 from tests.compiler.spec_strategies import KEY, Scenario, scenarios
 from tests.compiler.through_sql import close_pd, expected_output_names, score_columns
 from tests.reference_scorer import score_frame
+
 
 def _input_frame(columns: dict) -> pd.DataFrame:
     return pd.DataFrame({name: pd.Series(values, dtype=object) for name, (_, values) in columns.items()})
@@ -67,3 +73,7 @@ def test_compiled_sql_matches_reference_on_every_row(engine, scenario: Scenario)
         assert got["model_name"] == spec.model.name
         assert got["model_version"] == spec.model.version
         assert got["model_fingerprint"] == fingerprint(spec)
+
+    untyped = compile_sql(spec, "duckdb", "applications", keys=[KEY])
+    assert engine.connection.execute(f"{untyped} ORDER BY 1").fetchall() == engine.connection.execute(
+        'SELECT * FROM "scored" ORDER BY 1').fetchall()
