@@ -138,9 +138,9 @@ def metric_rows(report: MonitorReport) -> list[MetricRow]:
             cal = m.calibration
             add("calibration", "status", None, cal.status)
             for metric in ("rows", "events", "mean_pd", "event_rate", "jeffreys_p", "binomial_p", "chi_square",
-                           "chi_square_df", "chi_square_p", "spiegelhalter_z", "spiegelhalter_p", "brier",
-                           "rows_without_outcome"):
+                           "chi_square_df", "spiegelhalter_z", "spiegelhalter_p", "brier", "rows_without_outcome"):
                 add("calibration", metric, getattr(cal, metric))
+            add("calibration", "chi_square_p", cal.chi_square_p, cal.chi_square_status)
             for g in cal.grades:
                 for metric in ("rows", "events", "mean_pd", "event_rate", "binomial_p"):
                     add("calibration", metric, getattr(g, metric), subject=g.grade)

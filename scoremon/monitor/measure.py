@@ -12,12 +12,16 @@ Statuses (thresholds in :mod:`scoremon.monitor.thresholds`):
 * a PSI (score or characteristic) is ``watch`` when it reaches the watch level *and* exceeds
   the sample-size-aware critical value at the watch confidence; ``alert`` likewise with the
   alert levels. A shift must be both material and more than sampling would produce.
-* volume: |rows / expected rows − 1|, the expected rows being the baseline's rows per month;
+* volume: its drop (1 − rows / expected rows) and its rise (rows / expected rows − 1), each with
+  its own levels, the expected rows being the baseline's rows per month;
 * missing rate, unseen-category rate, catch-all share: |month − baseline|, and, as for PSI,
   only when the change also exceeds what sampling produces at the ``psi_confidence`` levels
   (z·√(r(1−r)(1/M + 1/N)), r the baseline rate);
-* calibration of a month: the worse of its Jeffreys p-value (the month as one pool, at its
-  mean PD) and its grade-level chi-square p-value; each grade also gets its Jeffreys status;
+* calibration of a month: the traffic light of its Jeffreys p-value (the month as one pool,
+  at its mean PD; ECB 2019 §2.5), raised to ``alert`` when the grade-level chi-square is at
+  alert. The chi-square and each grade's Jeffreys test also get their own traffic lights,
+  shown by grade: with a test per grade every month, a yellow light somewhere is routine and
+  belongs to the grade table, not to the month's headline;
 * discrimination: the AUC's drop below the baseline AUC, when the drop also exceeds z times
   the month's DeLong standard error at the ``psi_confidence`` levels.
 
@@ -312,7 +316,10 @@ def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: fl
                   passes: _Passes, mature: bool, rows: MonitoredRows) -> MonthResult:
     volume_change = _ratio(m.rows, expected_rows)
     volume_change = None if volume_change is None else volume_change - 1.0
-    volume_status = thresholds.volume_change.status(_abs(volume_change))
+    volume_status = None
+    if volume_change is not None:
+        volume_status = worst(thresholds.volume_drop.status(max(-volume_change, 0.0)),
+                              thresholds.volume_rise.status(max(volume_change, 0.0)))
 
     # score bands
     bands = sorted(baseline.score_bands, key=lambda b: b.lower)
@@ -462,7 +469,8 @@ def _calibration(spec: Spec, grades: dict[str, tuple], m: MonthRow, thresholds: 
         spiegelhalter_p=z.p_value if z else None,
         brier=brier(squared_error, total_rows),
         rows_without_outcome=m.rows - m.outcome_rows,
-        status=worst(limit.status(jeffreys), limit.status(chi_p)),
+        chi_square_status=limit.status(chi_p),
+        status=worst(limit.status(jeffreys), ALERT if limit.status(chi_p) == ALERT else None),
         grades=tuple(records),
     )
 

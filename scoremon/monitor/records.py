@@ -80,6 +80,7 @@ class Calibration:
     chi_square: float | None
     chi_square_df: int | None
     chi_square_p: float | None
+    chi_square_status: str | None
     spiegelhalter_z: float | None
     spiegelhalter_p: float | None
     brier: float | None

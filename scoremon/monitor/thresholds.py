@@ -56,7 +56,8 @@ class Thresholds:
     score_psi: Limit = Limit(0.10, 0.25)
     characteristic_psi: Limit = Limit(0.10, 0.25)
     psi_confidence: Limit = Limit(0.95, 0.99)
-    volume_change: Limit = Limit(0.30, 0.50)
+    volume_drop: Limit = Limit(0.25, 0.50)
+    volume_rise: Limit = Limit(0.50, 1.00)
     missing_rate_change: Limit = Limit(0.05, 0.15)
     unseen_rate_change: Limit = Limit(0.01, 0.05)
     catch_all_share_change: Limit = Limit(0.05, 0.15)
@@ -80,7 +81,7 @@ def thresholds_from_data(data: Any, where: str) -> Thresholds:
     if data is None:
         return DEFAULT_THRESHOLDS
     if not isinstance(data, dict):
-        raise InputError(f"{where}: expected a mapping of threshold names (score_psi:, volume_change:, ...)")
+        raise InputError(f"{where}: expected a mapping of threshold names (score_psi:, volume_drop:, ...)")
     problems: list[str] = []
     changes: dict[str, Limit] = {}
     for name, given in data.items():

@@ -100,7 +100,7 @@ def test_thresholds_file_changes_the_statuses(shifted, tmp_path, capsys):
     lenient = tmp_path / "lenient.yaml"
     lenient.write_text("score_psi: {watch: 5, alert: 9}\ncharacteristic_psi: {watch: 5, alert: 9}\n"
                        "calibration_p_value: {watch: 1.0e-12, alert: 1.0e-13}\nauc_drop: {watch: 0.9, alert: 0.95}\n"
-                       "volume_change: {watch: 5, alert: 9}\nmissing_rate_change: {watch: 5, alert: 9}\n"
+                       "volume_drop: {watch: 5, alert: 9}\nvolume_rise: {watch: 5, alert: 9}\nmissing_rate_change: {watch: 5, alert: 9}\n"
                        "unseen_rate_change: {watch: 5, alert: 9}\ncatch_all_share_change: {watch: 5, alert: 9}\n")
     assert monitor(shifted, spec, "--thresholds", str(lenient)) == 0
 

@@ -22,10 +22,10 @@ def test_psi_bands_are_the_common_ones():
 
 def test_a_file_overrides_only_the_keys_it_gives(tmp_path):
     path = tmp_path / "t.yaml"
-    path.write_text("score_psi: {alert: 0.4}\nvolume_change: {watch: 0.2, alert: 0.3}\n")
+    path.write_text("score_psi: {alert: 0.4}\nvolume_drop: {watch: 0.2, alert: 0.3}\n")
     thresholds = load_thresholds(path)
     assert thresholds.score_psi == Limit(0.10, 0.4)
-    assert thresholds.volume_change == Limit(0.2, 0.3)
+    assert thresholds.volume_drop == Limit(0.2, 0.3)
     assert thresholds.auc_drop == DEFAULT_THRESHOLDS.auc_drop
 
 

@@ -234,6 +234,8 @@ def _calibration(report) -> None:
                       _p(g.jeffreys_p), _p(g.binomial_p), _status(g.status))
     _emit(table)
     chi = "–" if c.chi_square is None else f"{c.chi_square:.2f} (df {c.chi_square_df}), p {_p(c.chi_square_p)}"
+    if c.chi_square_status in ("watch", "alert"):
+        chi += f" ({c.chi_square_status})"
     z = "–" if c.spiegelhalter_z is None else f"{_number(c.spiegelhalter_z, 2)}, p {_p(c.spiegelhalter_p)}"
     _emit(Text(f"grade chi-square {chi}; Spiegelhalter z {z}; Brier {_number(c.brier, 4)}; "
                f"month Jeffreys p {_p(c.jeffreys_p)}"))
