@@ -19,7 +19,7 @@ import math
 from datetime import date
 from typing import Annotated, Any, Literal, Union
 
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, FiniteFloat
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, FiniteFloat, WithJsonSchema
 from pydantic_core import PydanticCustomError
 
 FEATURE_TYPES = ("numeric", "categorical", "linear")
@@ -54,7 +54,9 @@ def _edge(value: Any) -> Any:
     return float(value)
 
 
-Text = Annotated[str, BeforeValidator(_text_from_number)]
+# Written as text or as a number in YAML (`version: 2`); always held as text.
+Text = Annotated[str, BeforeValidator(_text_from_number),
+                 WithJsonSchema({"anyOf": [{"type": "string"}, {"type": "number"}], "minLength": 1})]
 CategoryValue = Annotated[Union[str, int], BeforeValidator(_category_value)]
 Edge = Annotated[float, BeforeValidator(_edge)]
 
@@ -62,7 +64,8 @@ Edge = Annotated[float, BeforeValidator(_edge)]
 class Part(BaseModel):
     """Base of every spec part: immutable, and unknown keys are errors (typos are caught)."""
 
-    model_config = ConfigDict(frozen=True, extra="forbid")
+    # strict: `pdo: yes` or `pdo: "20"` is an error, not 1.0 or 20.0 (YAML already types values)
+    model_config = ConfigDict(frozen=True, extra="forbid", strict=True)
 
 
 class Identity(Part):
@@ -111,7 +114,7 @@ class Value(Part):
 class NumericBin(Value):
     """An interval of a numeric feature; which end is closed is the feature's ``closed``."""
 
-    label: str | None = None
+    label: str | None = Field(default=None, min_length=1)
     lower: Edge
     upper: Edge
 

@@ -56,6 +56,9 @@ class SpecSource:
         return Problem(line, column, format_path(path), message, self.file)
 
 
+VERSION_PATH = ("model", "version")
+
+
 def format_path(path: tuple) -> str:
     """``("features", 2, "bins")`` → ``features[2].bins``."""
     text = ""
@@ -161,7 +164,10 @@ def _build(node: yaml.Node, path: tuple, source: SpecSource, problems: list[Prob
             items.append(_build(item, child, source, problems))
         return items
     source.texts[path] = node.value
-    return _scalar(node)
+    value = _scalar(node)
+    if path == VERSION_PATH and isinstance(value, (int, float)) and not isinstance(value, bool):
+        return node.value  # `version: 1.10` is the text "1.10", not the number 1.1
+    return value
 
 
 def _describe_key(key: Any) -> str:

@@ -12,6 +12,7 @@ from contextlib import contextmanager
 from typing import Iterator
 
 from rich.console import Console
+from rich.markup import escape
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
 from ..cautions import CAUTIONS
@@ -32,8 +33,8 @@ def print_text(text: str) -> None:
 
 def print_check_ok(path: str, spec, fingerprint: str) -> None:
     m = spec.model
-    out.print(f"[green]ok[/green] {path}: {m.name} version {m.version}, {len(spec.features)} features, "
-              f"{len(spec.grades)} grades, fingerprint {fingerprint}", soft_wrap=True)
+    out.print("[green]ok[/green] " + escape(f"{path}: {m.name} version {m.version}, {len(spec.features)} features, "
+                                            f"{len(spec.grades)} grades, fingerprint {fingerprint}"), soft_wrap=True)
 
 
 @contextmanager
