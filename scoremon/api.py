@@ -1,4 +1,6 @@
-"""The library's entry points: load, check, compile and score. The CLI is a thin layer on these.
+"""The library's entry points: load, check, compile, score, diff, baseline and monitor.
+
+The CLI is a thin layer on these.
 
 >>> from scoremon import api
 >>> spec = api.load_spec("tests/fixtures/small.yaml")
@@ -7,9 +9,12 @@ True
 """
 from __future__ import annotations
 
+import os
 import re
 import time
+import uuid
 from dataclasses import dataclass, field
+from datetime import date
 from pathlib import Path
 from typing import Sequence
 
@@ -21,18 +26,40 @@ from .diff import DiffReport, Impact, ModelDiff, diff_models, impact_query, summ
 from .diff.impact import check_outcome_type
 from .engines import DuckDBEngine, Engine, Progress, open_engine
 from .errors import InputError
+from .monitor import (
+    DEFAULT_THRESHOLDS,
+    Month,
+    MonitoredRows,
+    MonitorReport,
+    Thresholds,
+    load_thresholds,
+    measure_baseline,
+    measure_book,
+    monitored_rows,
+    parse_month,
+    read_months,
+    spec_text_with_baseline,
+    write_history,
+)
+from .monitor.measure import monitored_relation
+from .monitor.queries import fingerprints_pass, is_scored, months_in
 
-from .spec import fingerprint, load_spec
-from .spec.model import CategoricalFeature, Spec
+from .spec import fingerprint, load_spec, parse_spec
+from .spec.model import Baseline, CategoricalFeature, Spec
 
-__all__ = ["DiffReport", "Impact", "ModelDiff", "ScoreResult", "compile_sql", "describe_source", "diff_models",
-           "load_spec", "measure_impact", "open_engine", "score", "source_relation"]
+__all__ = ["DiffReport", "Impact", "ModelDiff", "MonitorReport", "ScoreResult", "Thresholds", "compile_sql",
+           "describe_source", "diff_models", "load_spec", "load_thresholds", "measure_development", "measure_impact",
+           "monitor", "open_engine", "parse_month", "score", "source_relation", "write_spec_with_baseline"]
 
+# Column types as each engine's describe() spells them: DuckDB (DOUBLE, VARCHAR, …), PostgreSQL
+# (FLOAT8, INT4, NUMERIC, VARCHAR, BPCHAR, …) and Spark (DOUBLE, INT, STRING, DECIMAL(p,s), …).
 NUMBER_TYPE = re.compile(r"^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|UTINYINT|USMALLINT|UINTEGER|UBIGINT|UHUGEINT|"
-                         r"FLOAT|DOUBLE|REAL|DECIMAL(\(.*\))?|NUMERIC(\(.*\))?|INT\d?|SMALLINT|DOUBLE PRECISION)$", re.I)
+                         r"FLOAT\d?|DOUBLE|REAL|DECIMAL(\(.*\))?|NUMERIC(\(.*\))?|INT\d?|SMALLINT|DOUBLE PRECISION)$", re.I)
 INTEGER_TYPE = re.compile(r"^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|UTINYINT|USMALLINT|UINTEGER|UBIGINT|UHUGEINT|INT\d?)$", re.I)
-FLOAT_TYPE = re.compile(r"^(FLOAT|DOUBLE|REAL|DOUBLE PRECISION|FLOAT\d)$", re.I)
-TEXT_TYPE = re.compile(r"^(VARCHAR|TEXT|STRING|CHAR|BPCHAR|CHARACTER VARYING)(\(.*\))?$", re.I)
+# Types that can hold NaN or ±infinity: the floats, and PostgreSQL's NUMERIC (NaN, and ±Infinity
+# since PostgreSQL 14); DuckDB's and Spark's DECIMAL cannot.
+FLOAT_TYPE = re.compile(r"^(FLOAT|DOUBLE|REAL|DOUBLE PRECISION|FLOAT\d|NUMERIC(\(.*\))?)$", re.I)
+TEXT_TYPE = re.compile(r"^(VARCHAR|TEXT|STRING|CHAR|BPCHAR|CHARACTER|CHARACTER VARYING)(\(.*\))?$", re.I)
 
 
 def table_name(name: str) -> list[str]:
@@ -136,6 +163,9 @@ def score(
     """
     if (out_table is None) == (out_file is None):
         raise InputError("give either an output table or an output file, not both and not neither")
+    if not isinstance(source, exp.Table) and not isinstance(engine, DuckDBEngine):
+        raise InputError(f"reading a Parquet or CSV file needs the DuckDB engine, not {engine.dialect}; "
+                         "load the file into a table in that engine and score the table")
     columns = describe_source(engine, source)
     problems = check_columns(spec, columns, keys)
     if problems:
@@ -178,6 +208,7 @@ def measure_impact(
     outcome: str | None = None,
     cutoff: float | None = None,
     new_cutoff: float | None = None,
+    progress: Progress | None = None,
 ) -> Impact:
     """Score ``source`` under both versions in one query inside ``engine`` and summarise the move.
 
@@ -210,6 +241,130 @@ def measure_impact(
     floats = [name for name, kind in columns.items() if FLOAT_TYPE.match(kind)]
     query = impact_query(old, new, source, floats, outcome, outcome_is_boolean, cutoffs)
     rows = engine.fetch(render_sql(query.tree, engine.dialect, pretty=False),
-                        "scoring the population under both versions")
+                        "scoring the population under both versions", progress)
     return summarise_impact(query.columns, rows, old, new, population, outcome, cutoffs)
 
+
+
+# ---------------------------------------------------------------- baseline and monitoring
+
+def _monitored(spec: Spec, engine: Engine, source: exp.Expression, month_column: str | None,
+               outcome: str | None) -> tuple[MonitoredRows, list[str]]:
+    """The monitored rows over ``source`` (scored already, or scored on the fly), and notes."""
+    columns = describe_source(engine, source)
+    notes = []
+    if is_scored(spec, columns):
+        if "model_fingerprint" in columns:
+            found = engine.fetch(render_sql(fingerprints_pass(source), engine.dialect, pretty=False),
+                                 "reading the scored table's model fingerprints")
+            expected = fingerprint(spec)
+            others = sorted(str(fp) for fp, _ in found if fp != expected)
+            if others:
+                raise InputError(f"the table was scored by a model with fingerprint {', '.join(others)}, not by "
+                                 f"{spec.model.name} version {spec.model.version} ({expected}); score it with this "
+                                 "spec or monitor it with the spec that scored it")
+        else:
+            notes.append("the scored table has no model_fingerprint column; it is taken to be scored by this spec")
+    else:
+        problems = check_columns(spec, columns, ())
+        if problems:
+            raise InputError("the table is neither scored by this spec nor has the columns to score it:\n"
+                             + "\n".join(f"  - {p}" for p in problems))
+        notes.append("the table is scored on the fly by the compiled scoring SQL")
+    floats = [name for name, kind in columns.items() if FLOAT_TYPE.match(kind)]
+    return monitored_rows(spec, source, columns, month_column, outcome, floats), notes
+
+
+def measure_development(spec: Spec, engine: Engine, source: exp.Expression, outcome: str | None = None,
+                        month_column: str | None = None, computed_from: str = "") -> Baseline:
+    """The baseline of a development table (raw or scored), measured inside ``engine``.
+
+    Development shares per score band (deciles) and per feature bin, volume (per month when
+    ``month_column`` is given), mean score and points, unseen-category rates, and with an
+    ``outcome`` column the event rate, AUC and KS. Raises :class:`InputError` when the table
+    does not fit the spec or holds no rows.
+    """
+    rows, _ = _monitored(spec, engine, source, month_column, outcome)
+    with monitored_relation(engine, rows) as relation:
+        return measure_baseline(engine, spec, rows, relation, None, computed_from)
+
+
+def write_spec_with_baseline(spec_path: str | Path, baseline: Baseline, out_path: str | Path) -> Path:
+    """Write a copy of the spec at ``spec_path`` with ``baseline`` as its baseline section to ``out_path``.
+
+    Every other line is kept as written. The file appears whole or not at all. Raises
+    :class:`InputError` when ``out_path`` is the spec itself (a spec is never overwritten in
+    place) or its folder does not exist.
+    """
+    spec_path, out_path = Path(spec_path), Path(out_path)
+    if out_path.exists() and out_path.resolve() == spec_path.resolve():
+        raise InputError(f"--out {out_path} is the spec itself; a spec is never overwritten in place, "
+                         "give a new file name (e.g. one with the version in it)")
+    if not out_path.parent.exists():
+        raise InputError(f"{out_path}: folder {out_path.parent} does not exist; create it or choose another path")
+    original = spec_path.read_text(encoding="utf-8")
+    text = spec_text_with_baseline(original, baseline)
+    written = parse_spec(text, file=str(out_path))
+    if fingerprint(written) != fingerprint(parse_spec(original, file=str(spec_path))):
+        raise RuntimeError("writing the baseline changed the model's fingerprint")  # a bug, never an input error
+    temporary = out_path.with_name(f".{out_path.name}.{uuid.uuid4().hex}.partial")
+    try:
+        temporary.write_text(text, encoding="utf-8")
+        os.replace(temporary, out_path)
+    finally:
+        if temporary.exists():
+            temporary.unlink()
+    return out_path
+
+
+def monitor(
+    spec: Spec,
+    engine: Engine,
+    table: str,
+    month_column: str,
+    as_of: date,
+    outcome: str | None = None,
+    thresholds: Thresholds = DEFAULT_THRESHOLDS,
+    baseline_table: str | None = None,
+    baseline_months: tuple[Month, Month] | None = None,
+    record_history: bool = True,
+) -> MonitorReport:
+    """Monitor ``table`` month by month against a baseline; append the run to the history.
+
+    The baseline is the spec's own, or one measured now from ``baseline_table`` or from the
+    months ``baseline_months`` (first, last) of ``table``. ``table`` may be scored already (it
+    has the scored columns, and ``month_column`` / ``outcome`` kept as keys) or raw (it is
+    scored on the fly). Raises :class:`InputError` for anything the user can fix; the history
+    is written last, in one transaction, so a failing run leaves it unchanged.
+    """
+    if baseline_table is not None and baseline_months is not None:
+        raise InputError("give a baseline table or a range of baseline months, not both")
+    if baseline_table is None and baseline_months is None and spec.baseline is None:
+        raise InputError(f"{spec.model.name} version {spec.model.version} has no baseline section; write one "
+                         "with `scoremon baseline SPEC --table DEVELOPMENT --out NEW.yaml`, or give "
+                         "--baseline-table or --baseline-months")
+    source = source_relation(table=table)
+    rows, notes = _monitored(spec, engine, source, month_column, outcome)
+    with monitored_relation(engine, rows) as relation:
+        book = read_months(engine, spec, rows, relation, as_of, month_column)
+        if baseline_table is not None:
+            base_rows, _ = _monitored(spec, engine, source_relation(table=baseline_table), None, outcome)
+            with monitored_relation(engine, base_rows) as base_relation:
+                baseline = measure_baseline(engine, spec, base_rows, base_relation, None, f"table {baseline_table}")
+            baseline_source = f"table {baseline_table}"
+        elif baseline_months is not None:
+            first, last = baseline_months
+            values = book.values_between(first, last)
+            if not values:
+                raise InputError(f"no rows of {table} are in the baseline months {first} to {last}")
+            baseline_source = f"months {first} to {last} of {table}"
+            baseline = measure_baseline(engine, spec, rows, relation, months_in(values), baseline_source)
+        else:
+            baseline = spec.baseline
+            baseline_source = f"the spec's baseline ({baseline.computed_from or 'source not recorded'})"
+        report = measure_book(engine, spec, rows, relation, book, as_of=as_of, month_column=month_column,
+                              baseline=baseline, baseline_source=baseline_source, thresholds=thresholds,
+                              source=f"table {table}", notes=notes, fingerprint=fingerprint(spec))
+    if record_history:
+        write_history(engine, report)
+    return report

@@ -12,13 +12,16 @@ from pathlib import Path
 
 from . import api
 from .bench import BenchSettings, run_bench
-from .dialects import DIALECTS
+from .bench.engines import EngineBenchSettings, run_engine_bench
+from .dialects import DIALECTS, dialects_help
+from .engines import ENGINE_URLS
 from .errors import InputError, ScoremonError, SpecError
 from .report import terminal
 from .report.json import to_json
 from .report.markdown import diff_markdown
 from .report.terminal import bench as bench_view
 from .report.terminal import diff as diff_view
+from .report.terminal import monitor as monitor_view
 from .report.terminal import score as score_view
 from .spec import fingerprint
 from .spec.schema import schema_text
@@ -106,9 +109,13 @@ def _diff(args) -> int:
     if population:
         engine = api.open_engine(args.db)
         try:
+            if engine.dialect == "duckdb":  # it would draw its own progress bar on standard output, in the report
+                engine.execute("SET enable_progress_bar_print = false", "turning off DuckDB's own progress bar")
             source = api.source_relation(table=args.table, file=args.input)
             where = f"table {args.table} in {args.db}" if args.table is not None else f"file {args.input}"
-            impact = api.measure_impact(old, new, engine, source, where, args.outcome, args.cutoff, args.new_cutoff)
+            with terminal.progress_bar("scoring both versions") as progress:
+                impact = api.measure_impact(old, new, engine, source, where, args.outcome, args.cutoff,
+                                            args.new_cutoff, progress)
         finally:
             engine.close()
     report = api.DiffReport(diff, impact, datetime.now(timezone.utc).isoformat(timespec="seconds"))
@@ -121,11 +128,64 @@ def _diff(args) -> int:
 
 
 def _bench(args) -> int:
+    if args.engines is not None:
+        engine_settings = EngineBenchSettings(tuple(args.engines), args.engine_rows, args.repeat, args.threads)
+        report = run_engine_bench(engine_settings, bench_view.TerminalObserver())
+        bench_view.print_bench_report(report)
+        return EXIT_OK
     settings = BenchSettings(rows=args.rows, repeat=args.repeat, threads=args.threads, memory_rows=args.memory_rows,
                              skip_memory=args.skip_memory, memory_limit=args.memory_limit, folder=args.folder)
     report = run_bench(settings, bench_view.TerminalObserver())
     bench_view.print_bench_report(report)
     return EXIT_FOUND if any(line.goal_met is False for line in report.lines) else EXIT_OK
+
+
+def _baseline(args) -> int:
+    spec = api.load_spec(args.spec)
+    out = Path(args.out)
+    if out.exists() and out.resolve() == Path(args.spec).resolve():
+        raise InputError(f"--out {out} is the spec itself; a spec is never overwritten in place, give a new file name")
+    engine = api.open_engine(args.db)
+    try:
+        source = api.source_relation(table=args.table)
+        baseline = api.measure_development(spec, engine, source, args.outcome, args.month_column,
+                                           computed_from=f"table {args.table}")
+    finally:
+        engine.close()
+    written = api.write_spec_with_baseline(args.spec, baseline, out)
+    monitor_view.print_baseline_written(str(written), baseline, fingerprint(spec))
+    return EXIT_OK
+
+
+def _monitor(args) -> int:
+    spec = api.load_spec(args.spec)
+    thresholds = api.load_thresholds(args.thresholds)
+    as_of = _date(args.as_of, "--as-of") if args.as_of else datetime.now(timezone.utc).date()
+    months = None
+    if args.baseline_months:
+        first, _, last = args.baseline_months.partition(":")
+        months = (api.parse_month(first, "--baseline-months start"), api.parse_month(last or first, "--baseline-months end"))
+        if months[1] < months[0]:
+            raise InputError(f"--baseline-months {args.baseline_months}: the end comes before the start")
+    json_file = _writable(args.json)
+    engine = api.open_engine(args.db)
+    try:
+        report = api.monitor(spec, engine, args.table, args.month_column, as_of, args.outcome, thresholds,
+                             args.baseline_table, months, record_history=not args.no_history)
+    finally:
+        engine.close()
+    monitor_view.print_monitor_report(report, history_written=not args.no_history)
+    if json_file is not None:
+        json_file.write_text(to_json(report) + "\n", encoding="utf-8")
+        terminal.print_text(f"wrote {json_file}")
+    return EXIT_FOUND if report.has_alert else EXIT_OK
+
+
+def _date(text: str, option: str):
+    try:
+        return datetime.strptime(text, "%Y-%m-%d").date()
+    except ValueError:
+        raise InputError(f"{option} {text!r} is not a date; write it as YYYY-MM-DD, e.g. 2026-11-30") from None
 
 
 def _demo(args) -> int:
@@ -148,22 +208,24 @@ def build_parser() -> argparse.ArgumentParser:
 
     compile_ = commands.add_parser("compile", help="print the scoring SQL for a spec")
     compile_.add_argument("spec")
-    compile_.add_argument("--dialect", default="duckdb", choices=sorted(DIALECTS), help="SQL dialect (default duckdb)")
+    compile_.add_argument("--dialect", default="duckdb", choices=list(DIALECTS), metavar="DIALECT",
+                          help=f"SQL dialect (default duckdb): {dialects_help()}")
     compile_.add_argument("--table", default="input", help="table the SQL reads (default: input)")
     compile_.add_argument("--key", action="append", help="a column passed through to the output (repeatable)")
     compile_.add_argument("--out", help="write the SQL to this file instead of printing it")
     compile_.set_defaults(run=_compile)
 
-    score = commands.add_parser("score", help="score a table, Parquet or CSV file inside DuckDB")
+    score = commands.add_parser("score", help="score a table (DuckDB, PostgreSQL or Spark) or a Parquet/CSV file (DuckDB)")
     score.add_argument("spec")
-    score.add_argument("--db", default=None, help="DuckDB database file (default: in memory)")
+    score.add_argument("--db", default=None, help=f"engine URL: {ENGINE_URLS}")
     source = score.add_mutually_exclusive_group(required=True)
     source.add_argument("--table", help="table in --db to score (NAME or SCHEMA.NAME)")
     source.add_argument("--input", help="Parquet or CSV file to score")
     score.add_argument("--key", action="append", help="a column passed through to the output (repeatable)")
     score.add_argument("--out-table", help="write the scores to this table in --db (replaced whole)")
     score.add_argument("--out", help="write the scores to this Parquet file (replaced whole)")
-    score.add_argument("--threads", type=int, default=None, help="DuckDB threads (default: all cores)")
+    score.add_argument("--threads", type=int, default=None,
+                       help="DuckDB threads, or the cores of a spark://local session (default: all cores for DuckDB)")
     score.set_defaults(run=_score)
 
     schema = commands.add_parser("schema", help="print the spec's JSON Schema (for editors)")
@@ -181,7 +243,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     diff.add_argument("old", help="the old version's spec file (YAML)")
     diff.add_argument("new", help="the new version's spec file (YAML)")
-    diff.add_argument("--db", default=None, help="DuckDB database file holding --table")
+    diff.add_argument("--db", default=None, help=f"the database holding --table; engine URL: {ENGINE_URLS}")
     population = diff.add_mutually_exclusive_group()
     population.add_argument("--table", help="population to score: a table in --db (NAME or SCHEMA.NAME)")
     population.add_argument("--input", help="population to score: a Parquet or CSV file")
@@ -209,7 +271,59 @@ def build_parser() -> argparse.ArgumentParser:
     bench.add_argument("--skip-memory", action="store_true", help="leave out the peak-memory measurement")
     bench.add_argument("--folder", default=None,
                        help="where temporary data goes (a fresh subfolder, removed afterwards; default: the system's)")
+    bench.add_argument("--engines", nargs="*", metavar="URL", default=None,
+                       help="instead: time scoring ÷ each engine's own bare scan on DuckDB and on each engine URL "
+                            "given (postgresql://…, spark://local[N], …); the rows are loaded into each engine")
+    bench.add_argument("--engine-rows", type=int, default=1_000_000,
+                       help="rows for --engines (default 1,000,000)")
     bench.set_defaults(run=_bench)
+
+    baseline = commands.add_parser(
+        "baseline", help="measure a development table and write a new spec file with its baseline",
+        description="Measure the development distribution inside the database: shares per score band (the "
+                    "development score's deciles) and per feature bin, volume, mean score and points, "
+                    "unseen-category rates, and with an outcome the event rate, AUC and KS. Writes a copy of "
+                    "the spec with the baseline section filled; the spec itself is never overwritten.",
+        epilog="exit codes: 0 written; 2 invalid input, one line per problem",
+    )
+    baseline.add_argument("spec", help="the spec file (YAML)")
+    baseline.add_argument("--db", required=True, help="DuckDB database file holding --table")
+    baseline.add_argument("--table", required=True, help="the development table (raw, or scored by this spec)")
+    baseline.add_argument("--outcome", help="0/1 outcome column (NULL: not known), for event rate, AUC and KS")
+    baseline.add_argument("--month-column", help="month column, for the development rows per month")
+    baseline.add_argument("--out", required=True, metavar="NEW_SPEC", help="the new spec file to write")
+    baseline.set_defaults(run=_baseline)
+
+    monitor = commands.add_parser(
+        "monitor", help="stability, data quality, calibration and discrimination by month, with history",
+        description="Compare every month of a book with the model's baseline: PSI of score bands and of each "
+                    "characteristic with points shifts, data quality (volume, missing, unseen, catch-all), and "
+                    "on mature months calibration (Jeffreys, binomial, grade chi-square, Spiegelhalter, Brier) "
+                    "and discrimination (AUC, Gini, KS). The table may be scored already or raw (scored on the "
+                    "fly). Every run is appended to the history tables in the same database.",
+        epilog="exit codes: 0 nothing on alert; 1 something on alert; 2 invalid input, one line per problem",
+    )
+    monitor.add_argument("spec", help="the spec file (YAML) with a baseline section, unless one is given below")
+    monitor.add_argument("--db", required=True, help="DuckDB database file holding --table (the history goes there)")
+    monitor.add_argument("--table", required=True, help="the book: raw, or scored by this spec with the month "
+                                                        "(and outcome) columns kept as keys")
+    monitor.add_argument("--month-column", required=True, help="DATE, TIMESTAMP, text YYYY-MM or number YYYYMM")
+    monitor.add_argument("--outcome", help="0/1 outcome column (NULL: not known yet), for calibration and "
+                                           "discrimination")
+    monitor.add_argument("--as-of", help="the date outcomes are known up to, YYYY-MM-DD (default: today); a month "
+                                         "is mature when the last day of month + window is on or before it")
+    monitor.add_argument("--thresholds", metavar="FILE", help="YAML file overriding thresholds (defaults: "
+                                                              "configs/thresholds.yaml)")
+    against = monitor.add_mutually_exclusive_group()
+    against.add_argument("--baseline-table", metavar="TABLE", help="measure the baseline from this table instead "
+                                                                   "of the spec's")
+    against.add_argument("--baseline-months", metavar="FROM:TO", help="measure the baseline from these months of "
+                                                                      "--table, e.g. 2024-05:2025-04")
+    monitor.add_argument("--json", metavar="FILE", help="also write every figure as JSON to FILE")
+    monitor.add_argument("--no-history", action="store_true",
+                         help="do not append this run to the history tables (e.g. a trial run, or an engine "
+                              "without transactions)")
+    monitor.set_defaults(run=_monitor)
 
     demo = commands.add_parser("demo", help="build the demo warehouse and run the whole job on it")
     demo.add_argument("--rows", type=int, default=None, help="applications in the demo book (default: about 400,000)")

@@ -16,7 +16,7 @@ from scoremon.compiler import compile_model
 from scoremon.dialects import render_sql
 from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature
 
-EVERY_LINE = ["a", "b", "a+", "c", "d", "e"]
+EVERY_LINE = ["a", "b", "a+", "c", "d", "f", "e"]
 
 
 @pytest.fixture(scope="module")
@@ -45,7 +45,7 @@ def test_every_comparison_is_reported_with_both_sides_and_a_goal(report):
         if line.unit == "s":
             assert line.second_value > 0 and line.rounds == 2, line
     goals = {line.key: line.goal.text for line in report.lines if line.goal}
-    assert goals == {"a": "≤ 6", "b": "≤ 1", "c": "≥ 10", "d": "≤ 1.2", "e": "< 2"}
+    assert goals == {"a": "≤ 6", "b": "≤ 1", "c": "≥ 10", "d": "≤ 1.2", "e": "< 2", "f": "≤ 2"}
     assert all(isinstance(line.goal_met, bool) for line in report.lines if line.goal)
     memory = report.lines[-1]
     assert memory.unit == "GiB" and "3,000 rows" in memory.detail
@@ -80,7 +80,7 @@ def test_cli_prints_every_line_and_its_verdict(tmp_path, capsys):
     code = main(["bench", "--rows", "2000", "--repeat", "1", "--skip-memory", "--folder", str(tmp_path)])
     printed = capsys.readouterr().out
     assert code in (0, 1)  # 1 when a goal is missed, which tiny inputs usually do
-    for key in ["(a)", "(b)", "(a+)", "(c)", "(d)"]:
+    for key in ["(a)", "(b)", "(a+)", "(c)", "(d)", "(f)"]:
         assert key in printed
     assert "(e)" not in printed
     assert ("missed" in printed) == (code == 1)

@@ -8,6 +8,7 @@ Five comparisons, each a ratio of two timings taken in turns in this one run (se
 (c) fetch into numpy and score there ÷ compiled scoring                         goal ≥ 10
 (d) scored output to Parquet ÷ copying the input columns to Parquet             goal ≤ 1.2
 (e) peak memory of a fresh process scoring ``memory_rows`` rows to Parquet      goal < 2 GiB
+(f) monitoring a scored book of 24 months, every family ÷ scoring those rows     goal ≤ 2
 
 (a)–(c) time an aggregate over the scored rows (rows, mean score and mean PD per grade), so
 the comparison is about scoring, not about moving rows to Python. DuckDB drops whatever an
@@ -19,13 +20,14 @@ import shutil
 import tempfile
 from contextlib import AbstractContextManager, nullcontext
 from dataclasses import dataclass, field
+from datetime import date
 from pathlib import Path
 from typing import Callable, Protocol
 
 from sqlglot import exp
 
 from .. import api
-from ..compiler import compile_model, output_columns
+from ..compiler import case, column, compile_model, integer, output_columns
 from ..dialects import render_sql
 from ..engines import DuckDBEngine, Progress
 from ..errors import InputError
@@ -37,6 +39,9 @@ from .timing import PairTiming, time_pair
 
 GIB = 1024 ** 3
 TABLE = "input"
+BOOK, SCORED_BOOK = "book", "scored_book"
+# (f): 24 months, 2024-01 … 2025-12; with the bench spec's 12-month window the first 12 are mature
+BOOK_AS_OF = date(2025, 12, 31)
 
 
 @dataclass(frozen=True)
@@ -207,6 +212,31 @@ class _Bench:
         scored_file.unlink(missing_ok=True)
         copy_file.unlink(missing_ok=True)
 
+    def compare_monitor(self) -> None:
+        """(f) ``scoremon monitor`` on the scored rows — month pass, bins and score bands, calibration
+        and discrimination on the 12 mature months, the history write — ÷ scoring the same rows
+        into a table (month and outcome kept as keys)."""
+        with self.observer.stage("giving the bench rows months and outcomes") as progress:
+            self.engine.write_table(self.sql(_book(TABLE)), [BOOK], "adding months and outcomes", progress)
+        columns = api.describe_source(self.engine, queries.relation(BOOK))
+        floats = [name for name, kind in columns.items() if api.FLOAT_TYPE.match(kind)]
+        scoring = self.sql(compile_model(self.spec, queries.relation(BOOK), ("month", "outcome"), floats))
+
+        def score():
+            self.engine.write_table(scoring, [SCORED_BOOK], "scoring the bench book")
+
+        with self.observer.stage("scoring the bench book and measuring its baseline"):
+            score()
+            baseline = api.measure_development(self.spec, self.engine, queries.relation(SCORED_BOOK), "outcome",
+                                               "month", "the bench book")
+        spec = self.spec.model_copy(update={"baseline": baseline})
+
+        def monitor():
+            api.monitor(spec, self.engine, SCORED_BOOK, "month", BOOK_AS_OF, "outcome")
+
+        self.timed_line("f", "monitor 24 months, every family ÷ scoring", "monitor", monitor, "scoring", score,
+                        Goal(2.0, at_most=True))
+
     def measure_memory(self) -> None:
         rows = self.settings.memory_rows
         database = self.folder / "memory.duckdb"
@@ -234,6 +264,21 @@ class _Bench:
         return int(self.engine.fetch("SELECT current_setting('threads')", "reading the thread count")[0][0])
 
 
+def _book(table: str) -> exp.Select:
+    """The bench rows with a month (round robin over 2024-01 … 2025-12, from DuckDB's rowid) and
+    an outcome (about 7 % events, from a hash of the rowid: it only has to be there to be counted)."""
+    rowid = column("rowid")
+    year = case([(exp.LT(this=exp.Mod(this=rowid.copy(), expression=integer(24)), expression=integer(12)),
+                  integer(2024))], integer(2025))
+    month_number = exp.Cast(this=exp.Add(this=exp.Mod(this=rowid.copy(), expression=integer(12)), expression=integer(1)),
+                            to=exp.DataType.build("INTEGER"))
+    month = exp.Anonymous(this="make_date", expressions=[year, month_number, integer(1)])
+    drawn = exp.Mod(this=exp.Anonymous(this="hash", expressions=[rowid.copy(), integer(7)]), expression=integer(100))
+    outcome = case([(exp.LT(this=drawn, expression=integer(7)), integer(1))], integer(0))
+    return exp.select(exp.Star(), exp.alias_(month, "month", quoted=True),
+                      exp.alias_(outcome, "outcome", quoted=True)).from_(queries.relation(table))
+
+
 def _agreement(numpy_summary: GradeSummary, compiled_rows: list[tuple]) -> str:
     compiled = {str(g): int(n) for g, n, *_ in compiled_rows}
     route = dict(zip(numpy_summary.grades, numpy_summary.rows))
@@ -257,7 +302,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
 
     >>> report = run_bench(BenchSettings(rows=2_000, repeat=1, skip_memory=True))
     >>> [line.key for line in report.lines]
-    ['a', 'b', 'a+', 'c', 'd']
+    ['a', 'b', 'a+', 'c', 'd', 'f']
     """
     _check_settings(settings)
     observer = observer or _Silent()
@@ -272,6 +317,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
             bench.compare_scan_and_hand()
             bench.compare_numpy()
             bench.compare_parquet()
+            bench.compare_monitor()
             threads = bench.threads()
         finally:
             bench.engine.close()
