@@ -15,23 +15,36 @@ from __future__ import annotations
 import tempfile
 import time
 from dataclasses import dataclass, field
+from datetime import datetime, timezone
 from pathlib import Path
 from typing import Callable
 
 from scoremon import api
 from scoremon.api import ScoreResult
 from scoremon.errors import InputError
+from scoremon.monitor.history import METRICS_TABLE, RUNS_TABLE
 from scoremon.report import terminal
+from scoremon.report.json import to_json
+from scoremon.report.markdown import diff_markdown
 from scoremon.report.terminal import demo as view
+from scoremon.report.terminal import diff as diff_view
+from scoremon.report.terminal import monitor as monitor_view
 from scoremon.spec import Spec, fingerprint
 
 from . import generate
 from .generate import Book
 
 SPEC_V1 = Path(__file__).with_name("spec_v1.yaml")
+SPEC_V2 = Path(__file__).with_name("spec_v2.yaml")
 DATABASE_NAME = "quillfield.duckdb"
 SCORED = "scored_applications"
 SCORED_KEYS = (generate.KEY_COLUMN, generate.MONTH_COLUMN)
+# Accept at 560 and above (grades A to E): spec v1's intended use sends every decline and
+# every application in grades F and G to an underwriter.
+DIFF_CUTOFF = 560.0
+DIFF_AUDIT_FILE = "diff_v1_v2.md"
+BASELINE_SPEC_FILE = "spec_v1_with_baseline.yaml"
+MONITOR_JSON_FILE = "monitor_v1.json"
 
 
 @dataclass
@@ -104,6 +117,75 @@ def score_book(run: DemoRun) -> StepOutcome:
     )
 
 
+def monitor_book(run: DemoRun) -> StepOutcome:
+    """Freeze the baseline from the development table into a copy of spec v1, then monitor every
+    month of the book against it (the raw applications, scored on the fly, with their outcomes)."""
+    engine = api.open_engine(str(run.database))
+    try:
+        engine.execute("SET enable_progress_bar_print = false", "turning off DuckDB's own progress bar")
+        baseline = api.measure_development(run.spec, engine, api.source_relation(table=generate.DEVELOPMENT),
+                                           generate.OUTCOME_COLUMN, generate.MONTH_COLUMN,
+                                           f"table {generate.DEVELOPMENT}")
+        spec_path = api.write_spec_with_baseline(run.spec_path, baseline, run.folder / BASELINE_SPEC_FILE)
+        report = api.monitor(api.load_spec(spec_path), engine, generate.APPLICATIONS, generate.MONTH_COLUMN,
+                             generate.AS_OF, generate.OUTCOME_COLUMN)
+    finally:
+        engine.close()
+    figures = run.folder / MONITOR_JSON_FILE
+    figures.write_text(to_json(report) + "\n", encoding="utf-8")
+    run.tables += [RUNS_TABLE, METRICS_TABLE]
+    mature = sum(1 for m in report.months if m.maturity == "mature")
+    flagged = "; ".join(f"{words} {_month_ranges(report, family)}" for words, family in (
+        ("stability", "stability_status"), ("data quality", "data_quality_status"),
+        ("calibration", "calibration_status"), ("discrimination", "discrimination_status")))
+    return StepOutcome((
+        f"baseline of the {baseline.rows:,} development rows frozen into {spec_path}; the {len(report.months)} "
+        f"months monitored against it as of {generate.AS_OF} ({mature} with mature outcomes), the run appended "
+        f"to the history tables. Every figure: {figures}",
+        f"months flagged (watch or alert): {flagged}.",
+    ), lambda: monitor_view.print_monitor_report(report, indent=view.DETAIL_INDENT))
+
+
+def _month_ranges(report, family: str) -> str:
+    """The months whose ``family`` status is watch or alert, as runs: "2025-08…2025-11, 2026-07"."""
+    runs: list[list[str]] = []
+    previous_flagged = False
+    for month in report.months:
+        flagged = getattr(month, family) in ("watch", "alert")
+        if flagged and previous_flagged:
+            runs[-1][1] = month.month
+        elif flagged:
+            runs.append([month.month, month.month])
+        previous_flagged = flagged
+    return ", ".join(first if first == last else f"{first}…{last}" for first, last in runs) or "none"
+
+
+def diff_versions(run: DemoRun) -> StepOutcome:
+    """Version 1 against version 2: the changes, then their impact on the whole book."""
+    new = api.load_spec(SPEC_V2)
+    diff = api.diff_models(run.spec, new, str(run.spec_path), str(SPEC_V2))
+    engine = api.open_engine(str(run.database))
+    try:
+        engine.execute("SET enable_progress_bar_print = false", "turning off DuckDB's own progress bar")
+        with terminal.progress_bar("scoring the book under both versions") as progress:
+            impact = api.measure_impact(
+                run.spec, new, engine, api.source_relation(table=generate.APPLICATIONS),
+                f"table {generate.APPLICATIONS} in {run.database}", generate.OUTCOME_COLUMN, DIFF_CUTOFF,
+                progress=progress)
+    finally:
+        engine.close()
+    report = api.DiffReport(diff, impact, datetime.now(timezone.utc).isoformat(timespec="seconds"))
+    audit = run.folder / DIFF_AUDIT_FILE
+    audit.write_text(diff_markdown(report) + "\n", encoding="utf-8")
+    cells = {cell.name: cell for cell in impact.swap_set.cells}
+    return StepOutcome((
+        f"version {diff.old.version} → {diff.new.version}: {len(diff.changes)} changes, class "
+        f"{diff.effect.words}; both versions scored the {impact.rows:,} applications in one query. At the "
+        f"cut-off {DIFF_CUTOFF:g}, {cells['swap_in'].rows:,} applications swap in and {cells['swap_out'].rows:,} "
+        f"swap out. Audit file: {audit}",
+    ), lambda: diff_view.print_diff_details(report, indent=view.DETAIL_INDENT, brief=True))
+
+
 # The demo, in order. Steps added later (monitoring by month, then the diff of version 1
 # against version 2) go after "score the book": they read run.book, run.spec and the
 # scored table, and may add their tables to run.tables.
@@ -111,6 +193,8 @@ STEPS: tuple[tuple[str, Step], ...] = (
     ("build the book", build_book),
     ("check the spec", check_spec),
     ("score the book", score_book),
+    ("monitor the book month by month", monitor_book),
+    ("diff version 1 against version 2", diff_versions),
 )
 
 

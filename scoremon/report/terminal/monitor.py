@@ -2,24 +2,29 @@
 characteristics that drift, what drives the score shift, data-quality findings, calibration
 by grade for the latest mature month, notes and the cautions.
 
-Reads well at 80 columns; on a terminal of 110 columns or more the month table also shows the
-mean score shift, events against PD and the AUC. Every figure is in the JSON (``--json``).
+Reads well at 80 columns; from 90 columns the month table adds the data-quality status, and
+from 110 the mean score shift, events against PD and the AUC. Every figure is in the JSON
+(``--json``).
 """
 from __future__ import annotations
 
 from rich.table import Table
 from rich.text import Text
 
+from ..cautions import CAUTIONS
 from . import out, print_cautions
 
 STATUS_STYLE = {"ok": "green", "watch": "yellow", "alert": "bold red", "immature": "dim", "no outcome": "dim"}
-WIDE = 110
+ROOMY, WIDE = 90, 110
 INDENT = 2
 MOST_FINDINGS = 12
+_base = [0]  # the indent of the whole view while one report prints (the demo nests it under a step)
 
 
 def _emit(renderable, indent: int = INDENT) -> None:
-    """Print ``renderable`` indented, wrapped to the terminal, without trailing blanks."""
+    """Print ``renderable`` indented (past the view's own indent), wrapped to the terminal, without
+    trailing blanks."""
+    indent += _base[0]
     options = out.options.update(width=max(out.width - indent, 40))
     for line in out.render_lines(renderable, options, pad=False):
         text = Text.assemble(*[(segment.text, segment.style) for segment in line if not segment.control])
@@ -36,7 +41,7 @@ def _table(*columns: tuple) -> Table:
     table = Table(show_edge=False, pad_edge=False, box=None, header_style="bold", padding=(0, 1))
     fixed = sum(c[2] for c in columns if len(c) > 2) + 2 * (len(columns) - 1)
     flexible = sum(1 for c in columns if len(c) == 2)
-    room = max((out.width - INDENT - fixed) // max(flexible, 1), 8)
+    room = max((out.width - INDENT - _base[0] - fixed) // max(flexible, 1), 4)
     for name, justify, *width in columns:
         if width:
             table.add_column(name, justify=justify, no_wrap=True, min_width=width[0])
@@ -74,22 +79,29 @@ def _points(value: float | None) -> str:
     return "–" if value is None else f"{value:+.1f}".replace("-", "−")
 
 
-def print_monitor_report(report, history_written: bool = True) -> None:
-    """Print a :class:`~scoremon.monitor.records.MonitorReport`."""
-    _header(report, history_written)
-    out.print()
-    _months(report)
-    out.print()
-    _drifts(report)
-    _drivers(report)
-    _findings(report)
-    _calibration(report)
-    if report.notes:
-        _emit(Text("notes", style="bold"), indent=0)
-        for note in report.notes:
-            _emit(Text(f"- {note}", style="dim"))
+def print_monitor_report(report, history_written: bool = True, indent: int = 0) -> None:
+    """Print a :class:`~scoremon.monitor.records.MonitorReport`, every line ``indent`` columns in."""
+    _base[0] = indent
+    try:
+        _header(report, history_written)
         out.print()
-    print_cautions()
+        _months(report)
+        out.print()
+        _drifts(report)
+        _drivers(report)
+        _findings(report)
+        _calibration(report)
+        if report.notes:
+            _emit(Text("notes", style="bold"), indent=0)
+            for note in report.notes:
+                _emit(Text(f"- {note}", style="dim"))
+            out.print()
+        if indent:
+            _emit(Text(CAUTIONS, style="dim"), indent=0)
+        else:
+            print_cautions()
+    finally:
+        _base[0] = 0
 
 
 def _header(report, history_written: bool) -> None:
@@ -122,11 +134,12 @@ def _back_test(month) -> Text:
 
 
 def _months(report) -> None:
-    wide = out.width >= WIDE
+    width = out.width - _base[0]
+    roomy, wide = width >= ROOMY, width >= WIDE
     rows_width = max([len(f"{m.rows:,}") for m in report.months] + [4])
     columns = [("month", "left", 7), ("rows", "right", rows_width), ("vol.", "right", 5), ("PSI", "right", 5),
-               ("worst characteristic", "left"), ("PSI", "right", 5), ("DQ", "left", 5),
-               ("calib discr", "left", 11)]
+               ("worst characteristic", "left"), ("PSI", "right", 5)] + ([("DQ", "left", 5)] if roomy else []) + \
+              [("calib discr", "left", 11)]
     if wide:
         columns[4:4] = [("Δ score", "right", 7)]
         columns += [("events / PD", "right", 13), ("AUC", "right", 5)]
@@ -138,7 +151,7 @@ def _months(report) -> None:
         name = Text("–" if top is None else top.feature)
         top_psi = Text("–") if top is None else Text(_number(top.psi), style=STATUS_STYLE.get(top.status or "", ""))
         cells = [m.month, f"{m.rows:,}", Text(_signed_pct(m.volume_change), style=STATUS_STYLE.get(m.volume_status or "", "")),
-                 psi, name, top_psi, _status(m.data_quality_status), _back_test(m)]
+                 psi, name, top_psi] + ([_status(m.data_quality_status)] if roomy else []) + [_back_test(m)]
         if wide:
             cells[4:4] = [_points(m.mean_score_shift)]
             calibration = m.calibration
@@ -149,8 +162,9 @@ def _months(report) -> None:
         cells.append(_status(m.status))
         table.add_row(*cells)
     _emit(table)
-    _emit(Text("PSI: score bands, then the worst characteristic; DQ: data quality; calib discr: calibration "
-               "and discrimination, on mature months", style="dim"))
+    _emit(Text("PSI: score bands, then the worst characteristic; " + ("DQ: data quality; " if roomy else "")
+               + "calib discr: calibration and discrimination, on mature months; status: the worst of all",
+               style="dim"))
 
 
 def _drifts(report) -> None:
@@ -163,13 +177,14 @@ def _drifts(report) -> None:
             out.print()
         return
     _emit(Text(f"characteristics that drift, ranked ({len(flagged)})", style="bold"), indent=0)
-    table = _table(("characteristic", "left"), ("worst month", "left", 11), ("PSI", "right", 5),
-                   ("months", "right", 6), ("latest PSI", "right", 10), ("points shift", "right", 12),
-                   ("status", "left", 6))
+    table = _table(("characteristic", "left"), ("worst", "left", 7), ("PSI", "right", 5), ("months", "right", 6),
+                   ("latest", "right", 6), ("points", "right", 6), ("status", "left", 6))
     for d in flagged:
         table.add_row(d.feature, d.worst_month, _number(d.worst_psi), str(d.months_flagged), _number(d.latest_psi),
                       _points(d.latest_points_shift), _status(d.status))
     _emit(table)
+    _emit(Text("worst: the month of its highest PSI; months: months on watch or alert; latest: its PSI in the "
+               "latest month, and the points it moves the mean score by", style="dim"))
     out.print()
 
 
@@ -227,7 +242,7 @@ def _calibration(report) -> None:
                         f" (latest mature month): {c.events:,} events in {c.rows:,} rows, "
                         f"{_pct(c.event_rate, 2)} against a mean PD of {_pct(c.mean_pd, 2)}"), indent=0)
     table = _table(("grade", "left"), ("rows", "right", 7), ("events", "right", 6), ("mean PD", "right", 7),
-                   ("event rate", "right", 10), ("Jeffreys p", "right", 10), ("binomial p", "right", 10),
+                   ("realised", "right", 8), ("Jeffreys p", "right", 10), ("binomial p", "right", 10),
                    ("status", "left", 6))
     for g in c.grades:
         table.add_row(g.grade, f"{g.rows:,}", f"{g.events:,}", _pct(g.mean_pd, 2), _pct(g.event_rate, 2),
