@@ -14,7 +14,8 @@ import sqlglot
 
 from scoremon.api import compile_sql, load_spec
 from scoremon.cli import build_parser
-from scoremon.dialects import DIALECTS, dialects_help, render_type
+from scoremon.compiler import compile_model
+from scoremon.dialects import DIALECTS, dialects_help, render_type, table_path
 from scoremon.errors import InputError
 from tests.conftest import FIXTURES
 
@@ -60,8 +61,9 @@ def test_each_dialect_reads_its_own_rendering_back(edge_spec, dialect):
 
 
 def test_postgres_materializes_every_scoring_step_and_spark_does_not(edge_spec):
+    steps = len(list(compile_model(edge_spec, table_path(["input"])).find_all(sqlglot.exp.CTE)))
     postgres, spark = rendered(edge_spec, "postgres"), rendered(edge_spec, "spark")
-    assert len(re.findall(r"AS MATERIALIZED \(", postgres)) == 4
+    assert steps >= 4 and len(re.findall(r"AS MATERIALIZED \(", postgres)) == steps
     assert "MATERIALIZED" not in spark and "MATERIALIZED" not in rendered(edge_spec, "duckdb")
 
 
