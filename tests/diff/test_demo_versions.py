@@ -1,0 +1,46 @@
+"""The demo's version 2 makes the changes its header promises, and reads only book columns."""
+from __future__ import annotations
+
+import pytest
+
+from demo_warehouse import generate
+from demo_warehouse.run import DIFF_CUTOFF, SPEC_V1, SPEC_V2
+from scoremon import api
+from scoremon.diff import ChangeKind, Effect, diff_models
+from scoremon.spec import load_spec
+
+
+def test_version_2_rebins_drops_adds_recalibrates_and_remaps_reasons():
+    diff = diff_models(load_spec(SPEC_V1), load_spec(SPEC_V2))
+    found = {(c.kind, c.feature or c.subject) for c in diff.changes}
+    assert (ChangeKind.EDGES_MOVED, "monthly_income") in found
+    assert (ChangeKind.FEATURE_REMOVED, "channel") in found
+    assert (ChangeKind.FEATURE_ADDED, "open_accounts") in found
+    assert (ChangeKind.INTERCEPT_CHANGED, "intercept") in found
+    assert (ChangeKind.REASON_FEATURES_CHANGED, "reason R06") in found
+    assert {(ChangeKind.REASON_ADDED, "reason R07"), (ChangeKind.REASON_ADDED, "reason R09")} <= found
+    assert diff.effect is Effect.STRUCTURE
+    # nothing else moved: every other feature, the scaling and the grades are version 1's
+    touched = {c.feature for c in diff.changes if c.feature}
+    assert touched == {"monthly_income", "channel", "open_accounts"}
+    assert not [c for c in diff.changes if c.kind in (ChangeKind.SCALING_CHANGED, ChangeKind.GRADE_BOUNDS_CHANGED)]
+
+
+@pytest.fixture(scope="module")
+def small_book(tmp_path_factory):
+    database = tmp_path_factory.mktemp("demo-book") / "book.duckdb"
+    generate.build_warehouse(database, generate.MIN_ROWS)
+    return database
+
+
+def test_version_2_scores_the_demo_book(small_book):
+    engine = api.open_engine(str(small_book))
+    try:
+        impact = api.measure_impact(load_spec(SPEC_V1), load_spec(SPEC_V2), engine,
+                                    api.source_relation(table=generate.APPLICATIONS), "demo book",
+                                    generate.OUTCOME_COLUMN, DIFF_CUTOFF)
+    finally:
+        engine.close()
+    assert impact.rows == generate.MIN_ROWS
+    assert sum(cell.rows for cell in impact.swap_set.cells) == generate.MIN_ROWS
+    assert impact.rows_with_outcome > 0
