@@ -7,6 +7,7 @@ import pytest
 
 from scoremon.cli import main
 from scoremon.engines import DuckDBEngine
+from scoremon.report import terminal
 from scoremon.spec import fingerprint, load_spec
 from tests.monitor.book import SPEC_PATH, load_book, make_book
 
@@ -86,8 +87,6 @@ def test_a_shifted_book_exits_1_names_the_drift_and_writes_every_figure_as_json(
 
 
 def test_a_wide_terminal_shows_more_columns(quiet, tmp_path, capsys, monkeypatch):
-    from scoremon.report import terminal
-
     spec = baseline_spec(quiet, tmp_path, capsys)
     monkeypatch.setattr(terminal.out, "_width", 140)
     assert monitor(quiet, spec) == 0

@@ -7,6 +7,8 @@ import pytest
 
 from scoremon import api
 from scoremon.engines import DuckDBEngine
+from scoremon.errors import InputError
+from scoremon.monitor.history import write_history
 from scoremon.monitor.months import Month
 from tests.monitor.book import SPEC_PATH, load_book, make_book
 
@@ -66,9 +68,6 @@ def test_history_is_appended_in_one_transaction_on_every_transactional_engine(ea
 
 
 def test_an_engine_without_transactions_is_refused_before_writing(engine):
-    from scoremon.errors import InputError
-    from scoremon.monitor.history import write_history
-
     class NoTransactions:
         dialect = "spark"
 

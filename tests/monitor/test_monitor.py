@@ -9,12 +9,15 @@ import numpy as np
 import pandas as pd
 import pytest
 from scipy import stats
-from sklearn.metrics import brier_score_loss
+from sklearn.metrics import brier_score_loss, roc_auc_score
+from sqlglot import exp
 
 from scoremon import api
+from scoremon.compiler import identifier, integer
 from scoremon.errors import EngineError, InputError
 from scoremon.monitor import history
 from scoremon.monitor.months import Month
+from tests.conftest import ROOT
 from tests.monitor.book import SPEC_PATH, load_book, make_book
 
 AS_OF = date(2024, 12, 31)  # window 6 months: 2024-01 … 2024-06 mature, 2024-07 … 2024-12 not
@@ -118,8 +121,6 @@ def test_calibration_figures_match_references_on_the_scored_rows(engine, loaded)
 
 
 def test_discrimination_per_month_matches_scikit_learn_and_compares_with_the_baseline(engine, loaded):
-    from sklearn.metrics import roc_auc_score
-
     report = run(engine, loaded)
     frame = scored_frame(engine, loaded, "book")
     for result in report.months:
@@ -330,7 +331,7 @@ def test_a_failing_run_leaves_the_history_as_it_was(engine, loaded, monkeypatch)
         statements = original(report)
         # the last statement breaks a NOT NULL constraint, after the run row and most metrics went in
         broken = statements[-1].copy()
-        broken.expression.expressions[0].expressions[0].replace(history.exp.Null())
+        broken.expression.expressions[0].expressions[0].replace(exp.Null())
         return statements + [broken]
 
     monkeypatch.setattr(history, "insert_statements", failing)
@@ -341,9 +342,8 @@ def test_a_failing_run_leaves_the_history_as_it_was(engine, loaded, monkeypatch)
 
 def test_a_first_run_that_fails_creates_no_history_tables(engine, loaded, monkeypatch):
     def failing(report):
-        return [history.exp.Insert(this=history.exp.Table(this=history.identifier("no_such_table")),
-                                   expression=history.exp.Values(expressions=[history.exp.Tuple(
-                                       expressions=[history.integer(1)])]))]
+        return [exp.Insert(this=exp.Table(this=identifier("no_such_table")),
+                           expression=exp.Values(expressions=[exp.Tuple(expressions=[integer(1)])]))]
 
     monkeypatch.setattr(history, "insert_statements", failing)
     with pytest.raises(EngineError):
@@ -352,7 +352,5 @@ def test_a_first_run_that_fails_creates_no_history_tables(engine, loaded, monkey
 
 
 def test_the_readable_copy_of_the_history_tables_is_current():
-    from tests.conftest import ROOT
-
     # regenerate on purpose with: python -m scoremon.monitor.history > sql/monitor_history.sql
     assert (ROOT / "sql" / "monitor_history.sql").read_text() == history.history_ddl_text()
