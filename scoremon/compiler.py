@@ -11,10 +11,14 @@ The query reads the source once and runs through four steps (CTEs):
 ``pointed``  bin labels and points by bin number, and η = intercept + Σ contributions;
 ``totalled`` the score (base points + Σ points, rounded as the spec says) and, per reason
              statement, its shortfall = reference − points of its features;
-``ranked``   each statement's rank among those with a positive shortfall (ties go to the
-             statement declared first), computed pairwise so that no engine needs arrays;
+``best_k`` / ``picked_k``, for each reason slot k = 1..N: the largest shortfall not yet
+             picked (GREATEST over the shortfalls, with those picked for slots 1..k−1 set
+             to 0), then the first statement in declaration order holding it — so ties go
+             to the statement declared first, and a slot is NULL once no positive
+             shortfall is left;
 then the final SELECT adds PD = 1 / (1 + e^(−η)) with η clamped to ±700 (EXP overflows to an
-error on PostgreSQL), the grade, reason 1..N and the model's identity.
+error on PostgreSQL), the grade, reason 1..N (the picked statements' codes) and the model's
+identity.
 
 Portable choices, and why:
 * NaN is tested with ``x = CAST('NaN' AS DOUBLE)``: DuckDB, PostgreSQL and Spark all treat
@@ -24,6 +28,11 @@ Portable choices, and why:
   and sums of DECIMALs would not give the same bits as double arithmetic.
 * Rounding is ``ROUND(CAST(x AS DECIMAL(38, 12)), 0)``: ROUND on a double rounds half to even
   on PostgreSQL and half away from zero on DuckDB; on DECIMAL all three round half away.
+* Reasons take successive maxima rather than ranking every pair of statements: with ten
+  statements the pairwise ranks cost 90 comparisons per row and made reasons twice as
+  expensive as the score itself (``scoremon bench``); N maxima cost about N·S. GREATEST is
+  safe here because no shortfall is ever NULL (engines differ only on NULL arguments), and it
+  returns one of its arguments exactly, so the equality test that finds the statement is exact.
 """
 from __future__ import annotations
 
@@ -181,7 +190,6 @@ def compile_model(
     bin_col = [f"{INTERNAL}bin_{i}" for i in range(len(spec.features))]
     value_col = [f"{INTERNAL}value_{i}" for i in range(len(spec.features))]
     short_col = [f"{INTERNAL}shortfall_{r}" for r in range(len(spec.reasons.statements))]
-    rank_col = [f"{INTERNAL}rank_{r}" for r in range(len(spec.reasons.statements))]
     eta = f"{INTERNAL}eta"
     key_cols = [column(k) for k in keys]
 
@@ -230,27 +238,35 @@ def compile_model(
         totalled.append(exp.alias_(shortfall, short_col[r], quoted=True))
     totalled_query = exp.select(*totalled).from_(exp.to_table(identifier("pointed")))
 
-    # ranked: pairwise ranks of positive shortfalls
-    ranked = [c.copy() for c in carried] + [column(eta), column("score")]
-    for r in range(len(short_col)):
-        ranked.append(exp.alias_(_rank(r, short_col), rank_col[r], quoted=True))
-    ranked_query = exp.select(*ranked).from_(exp.to_table(identifier("totalled")))
+    steps = [("binned", binned_query), ("pointed", pointed_query), ("totalled", totalled_query)]
+
+    # best_k / picked_k: successive maxima of the shortfalls, one pair of steps per reason slot
+    kept = [c.copy() for c in carried] + [column(eta), column("score")] + [column(n) for n in short_col]
+    picks: list[str] = []
+    for k in range(1, len(names.reasons) + 1):
+        best, pick = f"{INTERNAL}best_{k}", f"{INTERNAL}pick_{k}"
+        for step, name, value in ((f"best_{k}", best, lambda: _best(short_col, picks)),
+                                  (f"picked_{k}", pick, lambda: _pick(short_col, picks, best))):
+            body = exp.select(*[c.copy() for c in kept], exp.alias_(value(), name, quoted=True))
+            steps.append((step, body.from_(exp.to_table(identifier(steps[-1][0])))))
+            kept.append(column(name))
+        picks.append(pick)
 
     # final
     final = [c.copy() for c in carried] + [column("score")]
     final.append(exp.alias_(_probability(column(eta)), "pd", quoted=True))
     final.append(exp.alias_(_grade(spec, column("score")), "grade", quoted=True))
-    for k, name in enumerate(names.reasons, start=1):
-        branches = [(exp.EQ(this=column(rank_col[r]), expression=integer(k)), text(s.code))
-                    for r, s in enumerate(spec.reasons.statements)]
-        final.append(exp.alias_(case(branches, exp.Null()), name, quoted=True))
+    codes = [text(s.code) for s in spec.reasons.statements]
+    for pick, name in zip(picks, names.reasons):
+        # no ELSE: a slot left empty (pick NULL) has no reason
+        reason = case([(exp.EQ(this=column(pick), expression=integer(r)), code) for r, code in enumerate(codes)])
+        final.append(exp.alias_(reason, name, quoted=True))
     final.append(exp.alias_(text(spec.model.name), "model_name", quoted=True))
     final.append(exp.alias_(text(spec.model.version), "model_version", quoted=True))
     final.append(exp.alias_(text(fp), "model_fingerprint", quoted=True))
 
-    query = exp.select(*final).from_(exp.to_table(identifier("ranked")))
-    for name, body in (("binned", binned_query), ("pointed", pointed_query),
-                       ("totalled", totalled_query), ("ranked", ranked_query)):
+    query = exp.select(*final).from_(exp.to_table(identifier(steps[-1][0])))
+    for name, body in steps:
         query = query.with_(identifier(name), as_=body, copy=False)
     return query
 
@@ -337,18 +353,42 @@ def _contribution(feature, terms: FeatureTerms, b: exp.Expression, value: exp.Ex
     return by_bin(b, [number(t.log_odds) for t in terms.bins])
 
 
-def _rank(r: int, short_col: Sequence[str]) -> exp.Expression:
-    mine = column(short_col[r])
-    ahead = []
-    for q, name in enumerate(short_col):
-        if q == r:
-            continue
-        beats = exp.GT(this=column(name), expression=mine.copy())
-        if q < r:  # an equal shortfall declared earlier also ranks ahead
-            beats = exp.or_(beats, exp.EQ(this=column(name), expression=mine.copy()), copy=False)
-        ahead.append(case([(beats, integer(1))], integer(0)))
-    rank = total([integer(1)] + ahead)
-    return case([(exp.GT(this=mine.copy(), expression=number(0.0)), rank)], exp.Null())
+def _not_picked(r: int, picks: Sequence[str]) -> list[exp.Expression]:
+    return [exp.NEQ(this=column(pick), expression=integer(r)) for pick in picks]
+
+
+def _best(short_col: Sequence[str], picks: Sequence[str]) -> exp.Expression:
+    """The largest shortfall among statements not yet picked (picked ones count as 0).
+
+    A pick is NULL only when no shortfall was positive, and then the ELSE keeps the
+    shortfall, which is not positive either: the slot stays empty as it should.
+    """
+    candidates = []
+    for r, name in enumerate(short_col):
+        shortfall = column(name)
+        if picks:
+            taken = exp.or_(*[exp.EQ(this=column(pick), expression=integer(r)) for pick in picks], copy=False)
+            shortfall = case([(taken, number(0.0))], shortfall)
+        candidates.append(shortfall)
+    if len(candidates) == 1:
+        return candidates[0]  # Spark's GREATEST wants two arguments at least
+    # ignore_nulls: GREATEST as DuckDB, PostgreSQL and Spark define it; without it sqlglot wraps
+    # each argument in a NULL test for DuckDB, copying every CASE (none is ever NULL here)
+    return exp.Greatest(this=candidates[0], expressions=candidates[1:], ignore_nulls=True)
+
+
+def _pick(short_col: Sequence[str], picks: Sequence[str], best: str) -> exp.Expression:
+    """The first statement, in declaration order, not yet picked whose shortfall is the best.
+
+    NULL when the best is not positive. Once the best is positive some unpicked statement
+    holds it exactly, so the last statement needs no test (it is the ELSE).
+    """
+    largest = column(best)
+    branches = [(exp.LTE(this=largest.copy(), expression=number(0.0)), exp.Null())]
+    for r, name in enumerate(short_col[:-1]):
+        holds = exp.EQ(this=column(name), expression=largest.copy())
+        branches.append((exp.and_(holds, *_not_picked(r, picks), copy=False), integer(r)))
+    return case(branches, integer(len(short_col) - 1))
 
 
 def _probability(eta: exp.Expression) -> exp.Expression:

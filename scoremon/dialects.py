@@ -16,7 +16,7 @@ adjustment rewrites a copy of the tree just before sqlglot renders it:
   ``N'…'`` so that it is not squeezed into the database's code page.
 * ``duckdb`` (speed only; same values): a lookup by bin number (``CASE WHEN b = 0 THEN v0
   WHEN b = 1 THEN v1 … ELSE vn END``, the compiler's labels, points and log-odds) becomes a list
-  index ``[v0, v1, …, vn][b + 1]``, and a categorical feature's ``x IN (…)`` chain becomes one
+  index ``[v0, v1, …, vn][b + 1]`` (so does a reason slot's code by picked statement), and a categorical feature's ``x IN (…)`` chain becomes one
   ``MAP {value: bin, …}[x]`` with the catch-all bin as COALESCE default. DuckDB evaluates a
   CASE branch by branch over the whole vector, so a chain of n branches costs about n passes,
   where a list index or a map probe costs one; measured on ``scoremon bench``. The bin numbers
@@ -169,9 +169,9 @@ def _constant(node: exp.Expression) -> bool:
 
 
 def _bin_lookup(node: exp.Case) -> exp.Expression | None:
-    """``[v0, …, vn][b + 1]`` for the compiler's ``CASE WHEN b = 0 THEN v0 … ELSE vn END``."""
+    """``[v0, …, vn][b + 1]`` for the compiler's ``CASE WHEN b = 0 THEN v0 … [ELSE vn] END``."""
     ifs, default = node.args.get("ifs") or [], node.args.get("default")
-    if len(ifs) < 2 or default is None or not _constant(default):
+    if len(ifs) < 2 or (default is not None and not _constant(default)):
         return None
     subject = None
     for position, branch in enumerate(ifs):
@@ -184,8 +184,9 @@ def _bin_lookup(node: exp.Case) -> exp.Expression | None:
             subject = test.this
         elif test.this != subject:
             return None
-    values = [branch.args["true"].copy() for branch in ifs] + [default.copy()]
-    # DuckDB lists are 1-based
+    values = [branch.args["true"].copy() for branch in ifs] + ([default.copy()] if default is not None else [])
+    # DuckDB lists are 1-based; without an ELSE, a NULL number (an empty reason slot) or one past
+    # the end gives NULL as the CASE does (the compiler's numbers are never negative)
     position = exp.Add(this=subject.copy(), expression=exp.Literal.number(1))
     return exp.Bracket(this=exp.Array(expressions=values), expressions=[position])
 

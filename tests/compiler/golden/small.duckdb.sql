@@ -108,7 +108,7 @@ WITH "binned" AS (
       "utilisation_points"
     ) AS "__scoremon_shortfall_2"
   FROM "pointed"
-), "ranked" AS (
+), "best_1" AS (
   SELECT
     "application_id",
     "age_bin",
@@ -119,37 +119,97 @@ WITH "binned" AS (
     "utilisation_points",
     "__scoremon_eta",
     "score",
-    CASE
-      WHEN "__scoremon_shortfall_0" > CAST(0.0 AS DOUBLE)
-      THEN 1 + CASE WHEN "__scoremon_shortfall_1" > "__scoremon_shortfall_0" THEN 1 ELSE 0 END + CASE WHEN "__scoremon_shortfall_2" > "__scoremon_shortfall_0" THEN 1 ELSE 0 END
-      ELSE NULL
-    END AS "__scoremon_rank_0",
-    CASE
-      WHEN "__scoremon_shortfall_1" > CAST(0.0 AS DOUBLE)
-      THEN 1 + CASE
-        WHEN "__scoremon_shortfall_0" > "__scoremon_shortfall_1"
-        OR "__scoremon_shortfall_0" = "__scoremon_shortfall_1"
-        THEN 1
-        ELSE 0
-      END + CASE WHEN "__scoremon_shortfall_2" > "__scoremon_shortfall_1" THEN 1 ELSE 0 END
-      ELSE NULL
-    END AS "__scoremon_rank_1",
-    CASE
-      WHEN "__scoremon_shortfall_2" > CAST(0.0 AS DOUBLE)
-      THEN 1 + CASE
-        WHEN "__scoremon_shortfall_0" > "__scoremon_shortfall_2"
-        OR "__scoremon_shortfall_0" = "__scoremon_shortfall_2"
-        THEN 1
-        ELSE 0
-      END + CASE
-        WHEN "__scoremon_shortfall_1" > "__scoremon_shortfall_2"
-        OR "__scoremon_shortfall_1" = "__scoremon_shortfall_2"
-        THEN 1
-        ELSE 0
-      END
-      ELSE NULL
-    END AS "__scoremon_rank_2"
+    "__scoremon_shortfall_0",
+    "__scoremon_shortfall_1",
+    "__scoremon_shortfall_2",
+    GREATEST("__scoremon_shortfall_0", "__scoremon_shortfall_1", "__scoremon_shortfall_2") AS "__scoremon_best_1"
   FROM "totalled"
+), "picked_1" AS (
+  SELECT
+    "application_id",
+    "age_bin",
+    "age_points",
+    "region_bin",
+    "region_points",
+    "utilisation_bin",
+    "utilisation_points",
+    "__scoremon_eta",
+    "score",
+    "__scoremon_shortfall_0",
+    "__scoremon_shortfall_1",
+    "__scoremon_shortfall_2",
+    "__scoremon_best_1",
+    CASE
+      WHEN "__scoremon_best_1" <= CAST(0.0 AS DOUBLE)
+      THEN NULL
+      WHEN "__scoremon_shortfall_0" = "__scoremon_best_1"
+      THEN 0
+      WHEN "__scoremon_shortfall_1" = "__scoremon_best_1"
+      THEN 1
+      ELSE 2
+    END AS "__scoremon_pick_1"
+  FROM "best_1"
+), "best_2" AS (
+  SELECT
+    "application_id",
+    "age_bin",
+    "age_points",
+    "region_bin",
+    "region_points",
+    "utilisation_bin",
+    "utilisation_points",
+    "__scoremon_eta",
+    "score",
+    "__scoremon_shortfall_0",
+    "__scoremon_shortfall_1",
+    "__scoremon_shortfall_2",
+    "__scoremon_best_1",
+    "__scoremon_pick_1",
+    GREATEST(
+      CASE
+        WHEN "__scoremon_pick_1" = 0
+        THEN CAST(0.0 AS DOUBLE)
+        ELSE "__scoremon_shortfall_0"
+      END,
+      CASE
+        WHEN "__scoremon_pick_1" = 1
+        THEN CAST(0.0 AS DOUBLE)
+        ELSE "__scoremon_shortfall_1"
+      END,
+      CASE
+        WHEN "__scoremon_pick_1" = 2
+        THEN CAST(0.0 AS DOUBLE)
+        ELSE "__scoremon_shortfall_2"
+      END
+    ) AS "__scoremon_best_2"
+  FROM "picked_1"
+), "picked_2" AS (
+  SELECT
+    "application_id",
+    "age_bin",
+    "age_points",
+    "region_bin",
+    "region_points",
+    "utilisation_bin",
+    "utilisation_points",
+    "__scoremon_eta",
+    "score",
+    "__scoremon_shortfall_0",
+    "__scoremon_shortfall_1",
+    "__scoremon_shortfall_2",
+    "__scoremon_best_1",
+    "__scoremon_pick_1",
+    "__scoremon_best_2",
+    CASE
+      WHEN "__scoremon_best_2" <= CAST(0.0 AS DOUBLE)
+      THEN NULL
+      WHEN "__scoremon_shortfall_0" = "__scoremon_best_2" AND "__scoremon_pick_1" <> 0
+      THEN 0
+      WHEN "__scoremon_shortfall_1" = "__scoremon_best_2" AND "__scoremon_pick_1" <> 1
+      THEN 1
+      ELSE 2
+    END AS "__scoremon_pick_2"
+  FROM "best_2"
 )
 SELECT
   "application_id",
@@ -180,25 +240,9 @@ SELECT
     THEN 'B'
     ELSE 'C'
   END AS "grade",
-  CASE
-    WHEN "__scoremon_rank_0" = 1
-    THEN 'R1'
-    WHEN "__scoremon_rank_1" = 1
-    THEN 'R2'
-    WHEN "__scoremon_rank_2" = 1
-    THEN 'R3'
-    ELSE NULL
-  END AS "reason_1",
-  CASE
-    WHEN "__scoremon_rank_0" = 2
-    THEN 'R1'
-    WHEN "__scoremon_rank_1" = 2
-    THEN 'R2'
-    WHEN "__scoremon_rank_2" = 2
-    THEN 'R3'
-    ELSE NULL
-  END AS "reason_2",
+  ['R1', 'R2', 'R3']["__scoremon_pick_1" + 1] AS "reason_1",
+  ['R1', 'R2', 'R3']["__scoremon_pick_2" + 1] AS "reason_2",
   'small_test_model' AS "model_name",
   '3' AS "model_version",
   '1cd64850b6a4935e' AS "model_fingerprint"
-FROM "ranked"
+FROM "picked_2"
