@@ -13,6 +13,7 @@ the caller enters, and only as a quoted identifier.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import date
 
 import yaml
 from sqlglot import exp
@@ -137,7 +138,7 @@ def bench_spec_data() -> dict:
               ("E", 550, 580), ("F", float("-inf"), 550)]
     return {
         "model": {"name": "bench_scorecard", "version": "1", "owner": "scoremon benchmark",
-                  "effective_date": "2026-01-01", "intended_use": "speed measurement only",
+                  "effective_date": date(2026, 1, 1), "intended_use": "speed measurement only",
                   "event": "synthetic", "performance_window_months": 12},
         "intercept": -2.6,
         "scaling": {"base_score": 600, "base_odds": 30, "pdo": 20, "rounding": "none"},
