@@ -6,10 +6,6 @@ WITH "binned" AS (
       THEN 3
       WHEN "age" = CAST('NaN' AS DOUBLE)
       THEN 3
-      WHEN "age" = CAST('Infinity' AS DOUBLE)
-      THEN 2
-      WHEN "age" = CAST('-Infinity' AS DOUBLE)
-      THEN 0
       WHEN "age" < CAST(25.0 AS DOUBLE)
       THEN 0
       WHEN "age" < CAST(40.0 AS DOUBLE)
