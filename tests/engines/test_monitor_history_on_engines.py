@@ -1,0 +1,37 @@
+"""Monitoring history on every engine: each run appends, none destroys an earlier one.
+
+tests/monitor/test_engines.py checks the monitoring figures on every engine; this checks the
+history tables that a run writes through ``execute_atomically`` (one transaction on DuckDB and
+PostgreSQL, statement by statement on Spark).
+"""
+from __future__ import annotations
+
+from datetime import date
+
+from sqlglot import exp
+
+from scoremon import api
+from scoremon.dialects import render_sql, table_path
+from scoremon.monitor.history import METRICS_TABLE, RUNS_TABLE
+from scoremon.monitor.months import Month
+from tests.monitor.book import SPEC_PATH, load_book, make_book
+
+
+def count_by_run(engine, table: str) -> dict[str, int]:
+    run_id = exp.column(exp.to_identifier("run_id", quoted=True))
+    query = exp.select(run_id, exp.Count(this=exp.Star())).from_(table_path([table])).group_by(run_id.copy())
+    return {str(r): int(n) for r, n in engine.fetch(render_sql(query, engine.dialect, pretty=False), "counting")}
+
+
+def test_each_run_appends_to_the_history(each_engine):
+    load_book(each_engine, "book", make_book(months=5, rows_per_month=80, seed=3))
+    spec = api.load_spec(SPEC_PATH)
+    reports = [api.monitor(spec, each_engine, "book", "application_month", date(2024, 9, 30), "bad",
+                           baseline_months=(Month(2024, 1), Month(2024, 2)), record_history=True)
+               for _ in range(2)]
+    runs = count_by_run(each_engine, RUNS_TABLE)
+    assert sorted(runs) == sorted(r.run_id for r in reports) and set(runs.values()) == {1}
+    metrics = count_by_run(each_engine, METRICS_TABLE)
+    assert sorted(metrics) == sorted(runs)
+    # the same book, spec and baseline: both runs recorded the same number of figures
+    assert len(set(metrics.values())) == 1 and next(iter(metrics.values())) > 0
