@@ -96,8 +96,15 @@ class SparkEngine:
             "spark.sql.ansi.enabled": "true",
             "spark.sql.session.timeZone": "UTC",
             "spark.sql.execution.arrow.pyspark.enabled": "true",
-            **dict(config or {}),
         }
+        if _LOCAL.match(master):
+            # a session inside this process talks only to itself: keep it on loopback rather than
+            # the first network interface Spark would otherwise pick
+            settings.update({"spark.driver.host": "127.0.0.1", "spark.driver.bindAddress": "127.0.0.1"})
+            # read by the JVM at launch, before any setting: without it Spark resolves the host
+            # name, warns, and uses an interface address (only if the user has not chosen one)
+            os.environ.setdefault("SPARK_LOCAL_IP", "127.0.0.1")
+        settings.update(config or {})
         builder = SparkSession.builder.master(master).appName("scoremon")
         for key, value in settings.items():
             builder = builder.config(key, value)
