@@ -9,7 +9,8 @@
 A run only ever adds rows: re-running a month adds a run and leaves earlier runs alone. The
 tables are created if missing and the rows inserted in one transaction
 (:meth:`~scoremon.engines.Engine.execute_atomically`), so a run that fails part-way leaves the
-history exactly as it was. Readable copies of the definitions: ``sql/monitor_history.sql``
+history exactly as it was (on DuckDB and PostgreSQL; Spark has no transactions and runs the
+statements one by one, see :class:`~scoremon.engines.SparkEngine`). Readable copies of the definitions: ``sql/monitor_history.sql``
 (regenerate with ``python -m scoremon.monitor.history > sql/monitor_history.sql``).
 """
 from __future__ import annotations
