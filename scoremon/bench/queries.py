@@ -58,10 +58,13 @@ def _hand_feature(spec: Spec, feature) -> exp.Expression:
                                                          for v in groups[t.label].values]), _typed(t.points))
                     for t in terms.bins[:-2]]
         return case([missing] + branches, _typed(terms.bins[-2].points))
-    assert isinstance(feature, LinearFeature)
+    if not isinstance(feature, LinearFeature):
+        raise TypeError(f"unknown feature kind {type(feature).__name__}")
     slope = -(spec.scaling.factor * feature.coefficient / feature.scale)
-    clipped = exp.Least(this=exp.Greatest(this=x.copy(), expressions=[_typed(feature.lower)]),
-                        expressions=[_typed(feature.upper)])
+    # plain GREATEST / LEAST as a person writes them (ignore_nulls keeps sqlglot from wrapping
+    # each in a NULL test; x is not NULL past the first branch)
+    clipped = exp.Least(this=exp.Greatest(this=x.copy(), expressions=[_typed(feature.lower)], ignore_nulls=True),
+                        expressions=[_typed(feature.upper)], ignore_nulls=True)
     centred = exp.paren(exp.Sub(this=clipped, expression=_typed(feature.center)), copy=False)
     return case([missing], exp.Mul(this=exp.Literal.number(f"{slope:.6f}"), expression=centred))
 
