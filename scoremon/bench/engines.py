@@ -11,8 +11,8 @@ each engine scores the same values. Per engine two comparisons, timed side by si
 
 On PostgreSQL the run also counts the CASE expressions in ``EXPLAIN VERBOSE`` of the scoring
 query against those in its SQL text: about 1 means the plan computes each expression once
-(the scoring CTEs are ``MATERIALIZED``, see :mod:`scoremon.dialects`); a large number means the
-plan copied them.
+(each scoring step is fenced with ``OFFSET 0``, see :mod:`scoremon.dialects`); a large number means
+the plan copied them.
 """
 from __future__ import annotations
 
