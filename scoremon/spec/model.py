@@ -75,7 +75,7 @@ class Identity(Part):
     version: Text = Field(min_length=1)
     description: str = ""
     owner: str = Field(min_length=1)
-    effective_date: date
+    effective_date: date = Field(strict=False)  # a date, or its ISO text (specs built as data, JSON)
     intended_use: str = Field(min_length=1)
     event: str = Field(min_length=1, description="the event (target) definition; y = 1")
     performance_window_months: int = Field(ge=1, le=120)
