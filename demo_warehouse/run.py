@@ -101,9 +101,6 @@ def check_spec(run: DemoRun) -> StepOutcome:
 def score_book(run: DemoRun) -> StepOutcome:
     engine = api.open_engine(str(run.database))
     try:
-        # DuckDB draws its own progress bar on standard output for long queries, in the
-        # middle of the demo's text; scoremon's bar (fed from the same progress) stays.
-        engine.execute("SET enable_progress_bar_print = false", "turning off DuckDB's own progress bar")
         with terminal.progress_bar("scoring the book") as progress:
             run.scored = api.score(run.spec, engine, api.source_relation(table=generate.APPLICATIONS),
                                    keys=SCORED_KEYS, out_table=SCORED, progress=progress)
@@ -122,7 +119,6 @@ def monitor_book(run: DemoRun) -> StepOutcome:
     month of the book against it (the raw applications, scored on the fly, with their outcomes)."""
     engine = api.open_engine(str(run.database))
     try:
-        engine.execute("SET enable_progress_bar_print = false", "turning off DuckDB's own progress bar")
         baseline = api.measure_development(run.spec, engine, api.source_relation(table=generate.DEVELOPMENT),
                                            generate.OUTCOME_COLUMN, generate.MONTH_COLUMN,
                                            f"table {generate.DEVELOPMENT}")
@@ -166,7 +162,6 @@ def diff_versions(run: DemoRun) -> StepOutcome:
     diff = api.diff_models(run.spec, new, str(run.spec_path), str(SPEC_V2))
     engine = api.open_engine(str(run.database))
     try:
-        engine.execute("SET enable_progress_bar_print = false", "turning off DuckDB's own progress bar")
         with terminal.progress_bar("scoring the book under both versions") as progress:
             impact = api.measure_impact(
                 run.spec, new, engine, api.source_relation(table=generate.APPLICATIONS),

@@ -45,6 +45,7 @@ from .monitor.measure import monitored_relation
 from .monitor.queries import fingerprints_pass, is_scored, months_in
 
 from .spec import fingerprint, load_spec, parse_spec
+from .spec.checks import suggest
 from .spec.model import Baseline, CategoricalFeature, Spec
 
 __all__ = ["DiffReport", "Impact", "ModelDiff", "MonitorReport", "ScoreResult", "Thresholds", "compile_sql",
@@ -98,12 +99,12 @@ def check_columns(spec: Spec, columns: dict[str, str], keys: Sequence[str]) -> l
     problems = []
     for key in keys:
         if key not in columns:
-            problems.append(f"key column {key!r} is not in the input{_nearest(key, columns)}")
+            problems.append(f"key column {key!r} is not in the input{suggest(key, list(columns))}")
     for feature in spec.features:
         name = feature.column or feature.name
         kind = columns.get(name)
         if kind is None:
-            problems.append(f"column {name!r} (feature {feature.name!r}) is not in the input{_nearest(name, columns)}")
+            problems.append(f"column {name!r} (feature {feature.name!r}) is not in the input{suggest(name, list(columns))}")
             continue
         if isinstance(feature, CategoricalFeature):
             values = [v for g in feature.groups for v in g.values] + list(feature.other.values)
@@ -118,12 +119,6 @@ def check_columns(spec: Spec, columns: dict[str, str], keys: Sequence[str]) -> l
             problems.append(f"column {name!r} (feature {feature.name!r}) is {kind}, not a number; "
                             f"a {feature.type} feature needs a numeric column")
     return problems
-
-
-def _nearest(name: str, columns) -> str:
-    from .spec.checks import suggest
-
-    return suggest(name, list(columns))
 
 
 def compile_sql(spec: Spec, dialect: str = "duckdb", table: str = "input", keys: Sequence[str] = (),

@@ -109,8 +109,6 @@ def _diff(args) -> int:
     if population:
         engine = api.open_engine(args.db)
         try:
-            if engine.dialect == "duckdb":  # it would draw its own progress bar on standard output, in the report
-                engine.execute("SET enable_progress_bar_print = false", "turning off DuckDB's own progress bar")
             source = api.source_relation(table=args.table, file=args.input)
             where = f"table {args.table} in {args.db}" if args.table is not None else f"file {args.input}"
             with terminal.progress_bar("scoring both versions") as progress:

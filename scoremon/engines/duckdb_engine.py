@@ -39,6 +39,9 @@ class DuckDBEngine:
             self.connection = duckdb.connect(database)
         except duckdb.Error as error:
             raise EngineError("opening the database", f"duckdb {database}", str(error)) from error
+        # DuckDB draws its own progress bar on standard output for long queries, in the middle of
+        # our reports; its progress still reaches scoremon's own bar through query_progress().
+        self.connection.execute("SET enable_progress_bar_print = false")
         if threads:
             self.connection.execute(f"SET threads = {int(threads)}")
         if memory_limit:

@@ -8,6 +8,7 @@ and what every command shares; each command's own view is a module beside it
 from __future__ import annotations
 
 import sys
+import textwrap
 from contextlib import contextmanager
 from typing import Iterator
 
@@ -50,7 +51,9 @@ def progress_bar(description: str) -> Iterator:
 
 
 def print_cautions() -> None:
-    out.print(f"[dim]{CAUTIONS}[/dim]", soft_wrap=False)
+    # wrapped here rather than by rich, which pads wrapped lines with trailing blanks
+    for line in textwrap.wrap(CAUTIONS, width=max(40, min(out.width, 100))):
+        out.print(f"[dim]{escape(line)}[/dim]")
 
 
 def stream_is_terminal() -> bool:

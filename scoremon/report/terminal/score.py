@@ -1,12 +1,14 @@
 """The terminal view of a scoring run."""
 from __future__ import annotations
 
+from rich.markup import escape
 from rich.table import Table
 
 from . import out
 
 
-def grade_table(counts: dict[str, int], title: str = "rows by grade") -> Table:
+def grade_table(counts: dict[str, int], title: str | None = None) -> Table:
+    """Rows, share and a bar per grade (a title, when given, is padded to the table's width)."""
     total = sum(counts.values()) or 1
     table = Table(title=title, title_justify="left", show_edge=False, pad_edge=False)
     table.add_column("grade")
@@ -21,7 +23,9 @@ def grade_table(counts: dict[str, int], title: str = "rows by grade") -> Table:
 
 
 def print_score_result(result) -> None:
-    out.print(f"scored {result.rows:,} rows with {result.model_name} version {result.model_version} "
-              f"(fingerprint {result.model_fingerprint}) into {result.target} in {result.seconds:.2f} s",
-              soft_wrap=True)
+    out.print(escape(f"scored {result.rows:,} rows into {result.target} in {result.seconds:.2f} s"))
+    out.print(escape(f"model {result.model_name} version {result.model_version}, "
+                     f"fingerprint {result.model_fingerprint}"))
+    out.print()
     out.print(grade_table(result.grade_counts))
+    out.print()
