@@ -285,7 +285,7 @@ def build_parser() -> argparse.ArgumentParser:
         epilog="exit codes: 0 written; 2 invalid input, one line per problem",
     )
     baseline.add_argument("spec", help="the spec file (YAML)")
-    baseline.add_argument("--db", required=True, help="DuckDB database file holding --table")
+    baseline.add_argument("--db", required=True, help="engine URL holding --table: a DuckDB file, postgresql://… or spark://…")
     baseline.add_argument("--table", required=True, help="the development table (raw, or scored by this spec)")
     baseline.add_argument("--outcome", help="0/1 outcome column (NULL: not known), for event rate, AUC and KS")
     baseline.add_argument("--month-column", help="month column, for the development rows per month")
@@ -302,7 +302,8 @@ def build_parser() -> argparse.ArgumentParser:
         epilog="exit codes: 0 nothing on alert; 1 something on alert; 2 invalid input, one line per problem",
     )
     monitor.add_argument("spec", help="the spec file (YAML) with a baseline section, unless one is given below")
-    monitor.add_argument("--db", required=True, help="DuckDB database file holding --table (the history goes there)")
+    monitor.add_argument("--db", required=True, help="engine URL holding --table (the history goes there): a DuckDB file, "
+                                                       "postgresql://… or spark://…")
     monitor.add_argument("--table", required=True, help="the book: raw, or scored by this spec with the month "
                                                         "(and outcome) columns kept as keys")
     monitor.add_argument("--month-column", required=True, help="DATE, TIMESTAMP, text YYYY-MM or number YYYYMM")
