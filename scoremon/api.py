@@ -167,9 +167,10 @@ def score(
         raise InputError("the input does not fit the spec:\n" + "\n".join(f"  - {p}" for p in problems))
     output_columns(spec, keys)  # a key colliding with an output column is an input error, found now
     floats = [name for name, kind in columns.items() if FLOAT_TYPE.match(kind)]
-    sql = render_sql(compile_model(spec, source, keys, floats), engine.dialect, pretty=False)
+    scoring = compile_model(spec, source, keys, floats)
     started = time.perf_counter()
     if out_table is not None:
+        sql = render_sql(scoring, engine.dialect, pretty=False)
         parts = table_name(out_table)
         engine.write_table(sql, parts, "writing the scored table", progress)
         written = exp.Table(this=identifier(parts[-1]), db=identifier(parts[0]) if len(parts) == 2 else None)
@@ -177,7 +178,8 @@ def score(
     else:
         if not isinstance(engine, DuckDBEngine):
             raise InputError("writing a Parquet file needs the DuckDB engine; write a table instead")
-        engine.write_parquet(sql, out_file, "writing the scored Parquet file", progress)
+        engine.write_parquet(render_sql(scoring, engine.dialect, pretty=False, for_parquet=True), out_file,
+                             "writing the scored Parquet file", progress)
         written = source_relation(file=out_file)
         target = str(out_file)
     seconds = time.perf_counter() - started

@@ -6,10 +6,10 @@ from the user reaches SQL as code.
 
 The query reads the source once and runs through four steps (CTEs):
 
-``binned``   each feature's bin number (a CASE with NULL, NaN and ±inf tested first, then
-             half-open comparisons in edge order; an infinity the spec sends to the outer
-             bin on its side is left to the comparisons, which put it there on every
-             engine), and a linear feature's clipped value;
+``binned``   each feature's bin number (a CASE with the half-open comparisons in edge
+             order first and the tests for NULL, NaN and an infinity the spec sends away
+             from its outer bin after them, see :func:`_numeric_bin`), and a linear
+             feature's clipped value;
 ``pointed``  bin labels and points by bin number, and η = intercept + Σ contributions;
 ``totalled`` the score (base points + Σ points, rounded as the spec says) and, per reason
              statement, its shortfall = reference − points of its features;
@@ -38,6 +38,7 @@ Portable choices, and why:
 """
 from __future__ import annotations
 
+import struct
 from dataclasses import dataclass
 from typing import Iterable, Mapping, Sequence
 
@@ -203,7 +204,7 @@ def compile_model(
         may_be_odd = floats is None or source_column in floats
         if isinstance(feature, LinearFeature):
             binned.append(exp.alias_(_linear_bin(feature, x, may_be_odd), bin_col[i], quoted=True))
-            binned.append(exp.alias_(_linear_value(feature, x, may_be_odd), value_col[i], quoted=True))
+            binned.append(exp.alias_(_linear_value(feature, x), value_col[i], quoted=True))
         elif isinstance(feature, NumericFeature):
             binned.append(exp.alias_(_numeric_bin(feature, terms[i], x, may_be_odd), bin_col[i], quoted=True))
         else:
@@ -275,33 +276,36 @@ def compile_model(
 
 # ---------------------------------------------------------------- per-feature pieces
 
-def _odd_value_tests(x: exp.Expression, routes: Mapping[str, int], top: int) -> list[tuple[exp.Expression, exp.Expression]]:
-    """The NaN test always; an infinity's test only where it does not go to its outer bin.
-
-    The inner edges are finite, so −inf passes the first comparison (bin 0) and +inf fails
-    every one (the ELSE, the top bin) — ordinary IEEE order of infinities, the same on every
-    engine. Leaving those tests out saves two passes over every DOUBLE column (measured with
-    ``scoremon bench``); NaN is still tested first, as no engine may be trusted to order it.
-    """
-    tests = [(exp.EQ(this=x.copy(), expression=double_constant("NaN")), integer(routes["nan"]))]
-    if routes["positive_infinity"] != top:
-        tests.append((exp.EQ(this=x.copy(), expression=double_constant("Infinity")), integer(routes["positive_infinity"])))
-    if routes["negative_infinity"] != 0:
-        tests.append((exp.EQ(this=x.copy(), expression=double_constant("-Infinity")), integer(routes["negative_infinity"])))
-    return tests
-
-
 def _numeric_bin(feature: NumericFeature, terms: FeatureTerms, x: exp.Expression, may_be_odd: bool) -> exp.Case:
+    """The bin number: the half-open comparisons first, the rare values' tests after them.
+
+    Most rows stop at a comparison, so testing NULL and NaN last saves two passes over every
+    column (``scoremon bench``). That order is safe because the rare values fail every
+    comparison on every engine: a comparison with NULL is not true, NaN is larger than every
+    number (DuckDB, PostgreSQL, Spark) or unordered (IEEE engines), and +inf is above every
+    inner edge, which are finite. Only −inf passes a comparison (the first, bin 0), so its
+    test goes first when the spec sends it elsewhere; +inf needs a test only when it does not
+    go to the top bin, the ELSE.
+    """
     missing = len(terms.bins) - 1
-    branches = [(exp.Is(this=x.copy(), expression=exp.Null()), integer(missing))]
     ordered = numeric_bins_in_order(feature)
+    top = len(ordered) - 1
+    routes = {key: terms.index(label) for key, label in special_routes(feature).items()}
+    first, last = [], [(exp.Is(this=x.copy(), expression=exp.Null()), integer(missing))]
     if may_be_odd:
-        routes = {key: terms.index(label) for key, label in special_routes(feature).items()}
-        branches += _odd_value_tests(x, routes, len(ordered) - 1)
+        if routes["negative_infinity"] != 0:
+            first.append((_is_odd(x, "-Infinity"), integer(routes["negative_infinity"])))
+        last.append((_is_odd(x, "NaN"), integer(routes["nan"])))
+        if routes["positive_infinity"] != top:
+            last.append((_is_odd(x, "Infinity"), integer(routes["positive_infinity"])))
     compare = exp.LT if feature.closed == "lower" else exp.LTE
-    for i, b in enumerate(ordered[:-1]):
-        branches.append((compare(this=x.copy(), expression=number(b.upper)), integer(i)))
-    return case(branches, integer(len(ordered) - 1))
+    comparisons = [(compare(this=x.copy(), expression=number(b.upper)), integer(i)) for i, b in enumerate(ordered[:-1])]
+    return case(first + comparisons + last, integer(top))
+
+
+def _is_odd(x: exp.Expression, name: str) -> exp.Expression:
+    """``x = CAST('NaN' AS DOUBLE)`` (or ±Infinity); dialects rewrite it where needed."""
+    return exp.EQ(this=x.copy(), expression=double_constant(name))
 
 
 def _categorical_bin(feature: CategoricalFeature, terms: FeatureTerms, x: exp.Expression) -> exp.Case:
@@ -314,24 +318,25 @@ def _categorical_bin(feature: CategoricalFeature, terms: FeatureTerms, x: exp.Ex
 
 
 def _linear_bin(feature: LinearFeature, x: exp.Expression, may_be_odd: bool) -> exp.Case:
-    missing = [(exp.Is(this=x.copy(), expression=exp.Null()), integer(LINEAR_MISSING))]
-    if may_be_odd:
-        missing.append((exp.EQ(this=x.copy(), expression=double_constant("NaN")), integer(LINEAR_MISSING)))
-    return case(missing + [
+    """LOW, IN or HIGH by the clipping bounds, MISSING for NULL (and NaN); ordered as in
+    :func:`_numeric_bin`: NULL and NaN fail both comparisons, so they are tested after them."""
+    tests = [
         (exp.LT(this=x.copy(), expression=number(feature.lower)), integer(LINEAR_LOW)),
-        (exp.GT(this=x.copy(), expression=number(feature.upper)), integer(LINEAR_HIGH)),
-    ], integer(LINEAR_IN))
-
-
-def _linear_value(feature: LinearFeature, x: exp.Expression, may_be_odd: bool) -> exp.Case:
-    """clip(x) as a double; NULL where x is missing (the bin number then says so)."""
-    missing = [(exp.Is(this=x.copy(), expression=exp.Null()), exp.Null())]
+        (exp.LTE(this=x.copy(), expression=number(feature.upper)), integer(LINEAR_IN)),
+        (exp.Is(this=x.copy(), expression=exp.Null()), integer(LINEAR_MISSING)),
+    ]
     if may_be_odd:
-        missing.append((exp.EQ(this=x.copy(), expression=double_constant("NaN")), exp.Null()))
-    return case(missing + [
+        tests.append((_is_odd(x, "NaN"), integer(LINEAR_MISSING)))
+    return case(tests, integer(LINEAR_HIGH))
+
+
+def _linear_value(feature: LinearFeature, x: exp.Expression) -> exp.Case:
+    """clip(x) as a double. A missing row (NULL or NaN) gets the upper bound here, but its bin
+    number is MISSING and every reader of this value tests the bin number first."""
+    return case([
         (exp.LT(this=x.copy(), expression=number(feature.lower)), number(feature.lower)),
-        (exp.GT(this=x.copy(), expression=number(feature.upper)), number(feature.upper)),
-    ], exp.Cast(this=x.copy(), to=exp.DataType.build("DOUBLE")))
+        (exp.LTE(this=x.copy(), expression=number(feature.upper)), exp.Cast(this=x.copy(), to=exp.DataType.build("DOUBLE"))),
+    ], number(feature.upper))
 
 
 def _label(feature, terms: FeatureTerms, b: exp.Expression) -> exp.Case:
@@ -353,7 +358,27 @@ def _points(spec: Spec, feature, terms: FeatureTerms, b: exp.Expression, value: 
         if spec.scaling.rounding == "per_bin":
             points = round_half_away_sql(points)
         return case([(exp.EQ(this=b, expression=integer(LINEAR_MISSING)), number(terms.bins[0].points))], points)
+    if _points_follow_log_odds(spec, terms):
+        # the same lookup as the contribution to η: engines that share common subexpressions
+        # (DuckDB, Spark) then look the bin up once per feature instead of twice
+        factor = exp.Mul(this=number(spec.scaling.factor), expression=by_bin(b, [number(t.log_odds) for t in terms.bins]))
+        return exp.Neg(this=exp.paren(factor, copy=False))
     return by_bin(b, [number(t.points) for t in terms.bins])
+
+
+def _points_follow_log_odds(spec: Spec, terms: FeatureTerms) -> bool:
+    """Whether every bin's points are exactly ``-(factor * log_odds)`` in double arithmetic.
+
+    True whenever the spec gives WoE or log-odds and does not round per bin (that is how
+    :mod:`scoremon.spec.terms` derives the points); checked bit for bit, so computing the
+    points in SQL that way gives the same doubles as the lookup would.
+    """
+    factor = spec.scaling.factor
+    return all(_same_bits(t.points, -(factor * t.log_odds)) for t in terms.bins)
+
+
+def _same_bits(a: float, b: float) -> bool:
+    return struct.pack("<d", a) == struct.pack("<d", b)
 
 
 def _contribution(feature, terms: FeatureTerms, b: exp.Expression, value: exp.Expression) -> exp.Expression:

@@ -201,7 +201,7 @@ class _Bench:
         self.notes.append(_agreement(results["numpy"], results["compiled"]))
 
     def compare_parquet(self) -> None:
-        scored_sql = self.sql(self.scoring)
+        scored_sql = render_sql(self.scoring, "duckdb", pretty=False, for_parquet=True)
         copy_sql = self.sql(queries.input_copy(TABLE, workload.input_columns()))
         scored_file, copy_file = self.folder / "scored.parquet", self.folder / "copy.parquet"
         write = self.engine.write_parquet

@@ -2,14 +2,14 @@ WITH "binned" AS (
   SELECT
     "application_id",
     CASE
-      WHEN "age" IS NULL
-      THEN 3
-      WHEN "age" = CAST('NaN' AS DOUBLE)
-      THEN 3
       WHEN "age" < CAST(25.0 AS DOUBLE)
       THEN 0
       WHEN "age" < CAST(40.0 AS DOUBLE)
       THEN 1
+      WHEN "age" IS NULL
+      THEN 3
+      WHEN "age" = CAST('NaN' AS DOUBLE)
+      THEN 3
       ELSE 2
     END AS "__scoremon_bin_0",
     CASE
@@ -18,45 +18,45 @@ WITH "binned" AS (
       ELSE COALESCE(MAP(['N1', 'N2', 'S1'], [0, 0, 1])["region_code"], 2)
     END AS "__scoremon_bin_1",
     CASE
-      WHEN "utilisation" IS NULL
-      THEN 3
-      WHEN "utilisation" = CAST('NaN' AS DOUBLE)
-      THEN 3
       WHEN "utilisation" < CAST(0.0 AS DOUBLE)
       THEN 0
-      WHEN "utilisation" > CAST(1.2 AS DOUBLE)
-      THEN 2
-      ELSE 1
+      WHEN "utilisation" <= CAST(1.2 AS DOUBLE)
+      THEN 1
+      WHEN "utilisation" IS NULL
+      THEN 3
+      WHEN "utilisation" = CAST('NaN' AS DOUBLE)
+      THEN 3
+      ELSE 2
     END AS "__scoremon_bin_2",
     CASE
-      WHEN "utilisation" IS NULL
-      THEN NULL
-      WHEN "utilisation" = CAST('NaN' AS DOUBLE)
-      THEN NULL
       WHEN "utilisation" < CAST(0.0 AS DOUBLE)
       THEN CAST(0.0 AS DOUBLE)
-      WHEN "utilisation" > CAST(1.2 AS DOUBLE)
-      THEN CAST(1.2 AS DOUBLE)
-      ELSE CAST("utilisation" AS DOUBLE)
+      WHEN "utilisation" <= CAST(1.2 AS DOUBLE)
+      THEN CAST("utilisation" AS DOUBLE)
+      ELSE CAST(1.2 AS DOUBLE)
     END AS "__scoremon_value_2"
   FROM "input"
 ), "pointed" AS (
   SELECT
     "application_id",
     ['[-inf, 25)', '[25, 40)', '[40, inf)', 'missing']["__scoremon_bin_0" + 1] AS "age_bin",
-    [
-      CAST(-14.426950408889635 AS DOUBLE),
-      CAST(2.885390081777927 AS DOUBLE),
-      CAST(17.312340490667562 AS DOUBLE),
-      CAST(-5.770780163555854 AS DOUBLE)
-    ]["__scoremon_bin_0" + 1] AS "age_points",
+    -(
+      CAST(28.85390081777927 AS DOUBLE) * [
+        CAST(0.5 AS DOUBLE),
+        CAST(-0.1 AS DOUBLE),
+        CAST(-0.6 AS DOUBLE),
+        CAST(0.2 AS DOUBLE)
+      ]["__scoremon_bin_0" + 1]
+    ) AS "age_points",
     ['north', 'south', 'elsewhere', 'missing']["__scoremon_bin_1" + 1] AS "region_bin",
-    [
-      CAST(-8.656170245333781 AS DOUBLE),
-      CAST(2.885390081777927 AS DOUBLE),
-      CAST(-1.4426950408889636 AS DOUBLE),
-      CAST(-5.770780163555854 AS DOUBLE)
-    ]["__scoremon_bin_1" + 1] AS "region_points",
+    -(
+      CAST(28.85390081777927 AS DOUBLE) * [
+        CAST(0.3 AS DOUBLE),
+        CAST(-0.1 AS DOUBLE),
+        CAST(0.05 AS DOUBLE),
+        CAST(0.2 AS DOUBLE)
+      ]["__scoremon_bin_1" + 1]
+    ) AS "region_points",
     ['clipped_low', 'in_range', 'clipped_high', 'missing']["__scoremon_bin_2" + 1] AS "utilisation_bin",
     CASE
       WHEN "__scoremon_bin_2" = 3
