@@ -225,7 +225,10 @@ def _text_choice(node: exp.Case) -> exp.Expression | None:
     if not ifs or not all(_is_text(v) for v in outcomes):
         return None
     kind = _enum(outcomes)
-    enum = lambda literal: exp.Cast(this=literal.copy(), to=kind.copy())  # noqa: E731
+
+    def enum(literal: exp.Expression) -> exp.Expression:
+        return exp.Cast(this=literal.copy(), to=kind.copy())
+
     return exp.Case(ifs=[exp.If(this=b.this.copy(), true=enum(b.args["true"])) for b in ifs],
                     default=enum(default) if default is not None else None)
 

@@ -88,6 +88,22 @@ def test_scores_each_source_into_each_target(spec, engine, sources, tmp_path, re
     assert "unused" not in names
 
 
+def test_text_columns_are_plain_text_in_both_targets(spec, engine, sources, tmp_path):
+    """DuckDB writes the Parquet file's text columns from ENUM values (scoremon.dialects), but
+    readers see plain strings (checked with pyarrow, not DuckDB), and a scored table keeps
+    VARCHAR, so a later value outside the model's labels is still accepted."""
+    api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_file=tmp_path / "scored.parquet")
+    api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_table="scored")
+    text = [name for name in expected_output_names(spec, KEYS)
+            if name.endswith("_bin") or name in ("grade", "reason_1", "model_name", "model_version", "model_fingerprint")]
+    schema = pq.read_schema(tmp_path / "scored.parquet")
+    assert {name: str(schema.field(name).type) for name in text} == {name: "string" for name in text}
+    kinds = dict(engine.connection.execute("SELECT column_name, data_type FROM information_schema.columns "
+                                           "WHERE table_name = 'scored'").fetchall())
+    assert {name: kinds[name] for name in text} == {name: "VARCHAR" for name in text}
+    engine.connection.execute("UPDATE scored SET grade = 'not a grade', model_fingerprint = 'feedfacefeedface'")
+
+
 def _with_column(changes: dict) -> dict:
     columns = {name: spec for name, spec in INPUT.items() if name not in changes or changes[name] is not None}
     columns.update({name: spec for name, spec in changes.items() if spec is not None})

@@ -15,7 +15,7 @@ import sqlglot
 from scoremon.api import compile_sql, load_spec
 from scoremon.cli import build_parser
 from scoremon.compiler import compile_model
-from scoremon.dialects import DIALECTS, dialects_help, render_type, table_path
+from scoremon.dialects import DIALECTS, dialects_help, render_sql, render_type, table_path
 from scoremon.errors import InputError
 from tests.conftest import FIXTURES
 
@@ -109,3 +109,15 @@ def test_column_kinds_and_unknown_dialects():
 def test_tsql_writes_unicode_text_as_national_literals(edge_spec):
     tsql = rendered(edge_spec, "tsql")
     assert "N'日本'" in tsql and "N'Zürich'" in tsql and "'N1'" in tsql and "N'N1'" not in tsql
+
+
+def test_text_constants_become_enum_only_when_duckdb_writes_parquet(edge_spec):
+    tree = compile_model(edge_spec, sqlglot.exp.to_table("input"))
+    plain, parquet = render_sql(tree, "duckdb"), render_sql(tree, "duckdb", for_parquet=True)
+    assert "ENUM(" not in plain
+    # the grade CASE, every label list, the reason codes and the three identity columns
+    assert parquet.count("AS ENUM(") >= 3 + len(edge_spec.features) + 3
+    assert re.search(r"CAST\('[^']*' AS ENUM\('[^']*'\)\) AS \"model_fingerprint\"", parquet)
+    sqlglot.parse_one(parquet, read="duckdb")  # DuckDB's grammar as sqlglot knows it
+    for dialect in ("postgres", "spark"):
+        assert render_sql(tree, dialect, for_parquet=True) == render_sql(tree, dialect)
