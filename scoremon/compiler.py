@@ -10,7 +10,9 @@ The query reads the source once and runs through four steps (CTEs):
              order first and the tests for NULL, NaN and an infinity the spec sends away
              from its outer bin after them, see :func:`_numeric_bin`), and a linear
              feature's clipped value;
-``pointed``  bin labels and points by bin number, and η = intercept + Σ contributions;
+``pointed``  bin labels and points by bin number (or as −factor × the bin's log-odds where
+             that is exact, see :func:`_points_follow_log_odds`), and
+             η = intercept + Σ contributions;
 ``totalled`` the score (base points + Σ points, rounded as the spec says) and, per reason
              statement, its shortfall = reference − points of its features;
 ``best_k`` / ``picked_k``, for each reason slot k = 1..N: the largest shortfall not yet
