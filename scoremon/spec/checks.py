@@ -89,8 +89,7 @@ def _rounding_range(spec: Spec) -> list[str]:
         problems = []
         for feature in spec.features:
             if isinstance(feature, LinearFeature):
-                slope = linear_points_slope(spec, feature)
-                reach = max(abs(slope * (bound - feature.center)) for bound in (feature.lower, feature.upper))
+                reach = _linear_reach(spec, feature)
                 if not reach < ROUNDING_LIMIT:
                     problems.append(f"linear feature {feature.name!r} scores up to {show_number(reach)} points at "
                                     f"its clip bounds, but rounding per bin holds points below 1e26 (DECIMAL(38, 12) "
@@ -102,13 +101,18 @@ def _rounding_range(spec: Spec) -> list[str]:
             terms = feature_terms(spec, feature)
             candidates = [abs(b.points) for b in terms.bins]
             if isinstance(feature, LinearFeature):
-                slope = linear_points_slope(spec, feature)
-                candidates += [abs(slope * (bound - feature.center)) for bound in (feature.lower, feature.upper)]
+                candidates.append(_linear_reach(spec, feature))
             reach += max(candidates)
         if not reach < ROUNDING_LIMIT:
             return [f"scores can reach {show_number(reach)} in size, but rounding the total holds the score below "
                     f"1e26 (DECIMAL(38, 12) in SQL); scale the points or narrow the linear clip bounds, {fix}"]
     return []
+
+
+def _linear_reach(spec: Spec, feature: LinearFeature) -> float:
+    """The largest size of a linear feature's unrounded points, reached at a clip bound."""
+    slope = linear_points_slope(spec, feature)
+    return max(abs(slope * (bound - feature.center)) for bound in (feature.lower, feature.upper))
 
 
 def check_parts(parts: ValidParts, source: SpecSource) -> list[Problem]:
