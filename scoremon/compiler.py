@@ -6,13 +6,14 @@ from the user reaches SQL as code.
 
 The query reads the source once and runs through four steps (CTEs):
 
-``binned``   each feature's bin number (a CASE with the half-open comparisons in edge
-             order first and the tests for NULL, NaN and an infinity the spec sends away
-             from its outer bin after them, see :func:`_numeric_bin`), and a linear
-             feature's clipped value;
-``pointed``  bin labels and points by bin number (or as −factor × the bin's log-odds where
-             that is exact, see :func:`_points_follow_log_odds`), and
-             η = intercept + Σ contributions;
+``binned``   finds each row's bin with a CASE per feature (the half-open comparisons in
+             edge order first, the tests for NULL, NaN and an infinity the spec sends away
+             from its outer bin after them, see :func:`_numeric_bin`). Where a bin's points
+             and log-odds follow from one number (:func:`_one_number`, the usual case) two
+             such CASEs yield the bin's label and that number; otherwise one yields the bin
+             number. A linear feature gets its bin number and clipped value;
+``pointed``  labels, points and contributions to η (from the number, or looked up by bin
+             number), and η = intercept + Σ contributions;
 ``totalled`` the score (base points + Σ points, rounded as the spec says) and, per reason
              statement, its shortfall = reference − points of its features;
 ``best_k`` / ``picked_k``, for each reason slot k = 1..N: the largest shortfall not yet
@@ -62,6 +63,7 @@ from .spec.terms import (
 ETA_CLAMP = 700.0  # e^700 is finite in double precision; e^710 is not
 INTERNAL = "__scoremon_"
 LINEAR_LOW, LINEAR_IN, LINEAR_HIGH, LINEAR_MISSING = 0, 1, 2, 3
+LOG_ODDS, POINTS = "log_odds", "points"  # see _one_number
 
 
 # ---------------------------------------------------------------- small tree builders
@@ -198,7 +200,9 @@ def compile_model(
     eta = f"{INTERNAL}eta"
     key_cols = [column(k) for k in keys]
 
-    # binned: bin numbers and clipped linear values
+    # binned: per feature its label and the one number its points and η follow from, or else
+    # its bin number; a linear feature's bin number and clipped value
+    follows = [None if isinstance(f, LinearFeature) else _one_number(spec, t) for f, t in zip(spec.features, terms)]
     binned = [c.copy() for c in key_cols]
     for i, feature in enumerate(spec.features):
         source_column = feature.column or feature.name
@@ -207,21 +211,34 @@ def compile_model(
         if isinstance(feature, LinearFeature):
             binned.append(exp.alias_(_linear_bin(feature, x, may_be_odd), bin_col[i], quoted=True))
             binned.append(exp.alias_(_linear_value(feature, x), value_col[i], quoted=True))
-        elif isinstance(feature, NumericFeature):
-            binned.append(exp.alias_(_numeric_bin(feature, terms[i], x, may_be_odd), bin_col[i], quoted=True))
+        elif follows[i] is None:
+            numbers = [integer(b) for b in range(len(terms[i].bins))]
+            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, numbers), bin_col[i], quoted=True))
         else:
-            binned.append(exp.alias_(_categorical_bin(feature, terms[i], x), bin_col[i], quoted=True))
+            labels = [text(t.label) for t in terms[i].bins]
+            values = [number(t.log_odds if follows[i] == LOG_ODDS else t.points) for t in terms[i].bins]
+            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, labels), names.features[i][0], quoted=True))
+            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, values), value_col[i], quoted=True))
     binned_query = exp.select(*binned).from_(source.copy())
 
     # pointed: labels, points and η
     pointed = [c.copy() for c in key_cols]
     contributions = []
     for i, feature in enumerate(spec.features):
-        b = column(bin_col[i])
+        b, value = column(bin_col[i]), column(value_col[i])
         label_name, points_name = names.features[i]
-        pointed.append(exp.alias_(_label(feature, terms[i], b), label_name, quoted=True))
-        pointed.append(exp.alias_(_points(spec, feature, terms[i], b, column(value_col[i])), points_name, quoted=True))
-        contributions.append(_contribution(feature, terms[i], b, column(value_col[i])))
+        if follows[i] is None:
+            pointed.append(exp.alias_(_label(feature, terms[i], b), label_name, quoted=True))
+            pointed.append(exp.alias_(_points(spec, feature, terms[i], b, value), points_name, quoted=True))
+            contributions.append(_contribution(feature, terms[i], b, value))
+            continue
+        # (-f)·v is -(f·v) and v / (-f) is -(v / f) bit for bit: IEEE rounding is symmetric in sign
+        minus_factor = number(-spec.scaling.factor)
+        from_log_odds = follows[i] == LOG_ODDS
+        pointed.append(column(label_name))
+        points = exp.Mul(this=minus_factor, expression=value) if from_log_odds else value
+        pointed.append(exp.alias_(points, points_name, quoted=True))
+        contributions.append(value.copy() if from_log_odds else exp.Div(this=value.copy(), expression=minus_factor.copy()))
     pointed.append(exp.alias_(total([number(spec.intercept)] + contributions), eta, quoted=True))
     pointed_query = exp.select(*pointed).from_(exp.to_table(identifier("binned")))
 
@@ -278,8 +295,36 @@ def compile_model(
 
 # ---------------------------------------------------------------- per-feature pieces
 
-def _numeric_bin(feature: NumericFeature, terms: FeatureTerms, x: exp.Expression, may_be_odd: bool) -> exp.Case:
-    """The bin number: the half-open comparisons first, the rare values' tests after them.
+def _one_number(spec: Spec, terms: FeatureTerms) -> str | None:
+    """Which of a feature's two numbers per bin gives the other exactly in SQL arithmetic.
+
+    ``LOG_ODDS`` when every bin's points are ``(-factor) · log_odds`` bit for bit (WoE or
+    log-odds specs without per-bin rounding, as :mod:`scoremon.spec.terms` derives them),
+    ``POINTS`` when every bin's log-odds are ``points / (-factor)`` (points specs whose points
+    need no rounding), else ``None``. With one number the binning CASE yields that number
+    itself instead of a bin number to look it up by: DuckDB evaluates a CASE branch by branch
+    and a list lookup is one more pass, so a query that reads only the score and PD (an
+    aggregate) bins each feature once and looks nothing up (``scoremon bench``, lines a and c).
+    """
+    minus_factor = -spec.scaling.factor
+    if all(_same_bits(t.points, minus_factor * t.log_odds) for t in terms.bins):
+        return LOG_ODDS
+    if all(_same_bits(t.log_odds, t.points / minus_factor) for t in terms.bins):
+        return POINTS
+    return None
+
+
+def _bin_choice(feature, terms: FeatureTerms, x: exp.Expression, may_be_odd: bool,
+                outcomes: Sequence[exp.Expression]) -> exp.Case:
+    """The CASE that finds a row's bin, yielding ``outcomes[b]`` for bin ``b``."""
+    if isinstance(feature, NumericFeature):
+        return _numeric_bin(feature, terms, x, may_be_odd, outcomes)
+    return _categorical_bin(feature, terms, x, outcomes)
+
+
+def _numeric_bin(feature: NumericFeature, terms: FeatureTerms, x: exp.Expression, may_be_odd: bool,
+                 outcomes: Sequence[exp.Expression]) -> exp.Case:
+    """The bin's outcome: the half-open comparisons first, the rare values' tests after them.
 
     Most rows stop at a comparison, so testing NULL and NaN last saves two passes over every
     column (``scoremon bench``). That order is safe because the rare values fail every
@@ -293,16 +338,16 @@ def _numeric_bin(feature: NumericFeature, terms: FeatureTerms, x: exp.Expression
     ordered = numeric_bins_in_order(feature)
     top = len(ordered) - 1
     routes = {key: terms.index(label) for key, label in special_routes(feature).items()}
-    first, last = [], [(exp.Is(this=x.copy(), expression=exp.Null()), integer(missing))]
+    first, last = [], [(exp.Is(this=x.copy(), expression=exp.Null()), outcomes[missing].copy())]
     if may_be_odd:
         if routes["negative_infinity"] != 0:
-            first.append((_is_odd(x, "-Infinity"), integer(routes["negative_infinity"])))
-        last.append((_is_odd(x, "NaN"), integer(routes["nan"])))
+            first.append((_is_odd(x, "-Infinity"), outcomes[routes["negative_infinity"]].copy()))
+        last.append((_is_odd(x, "NaN"), outcomes[routes["nan"]].copy()))
         if routes["positive_infinity"] != top:
-            last.append((_is_odd(x, "Infinity"), integer(routes["positive_infinity"])))
+            last.append((_is_odd(x, "Infinity"), outcomes[routes["positive_infinity"]].copy()))
     compare = exp.LT if feature.closed == "lower" else exp.LTE
-    comparisons = [(compare(this=x.copy(), expression=number(b.upper)), integer(i)) for i, b in enumerate(ordered[:-1])]
-    return case(first + comparisons + last, integer(top))
+    comparisons = [(compare(this=x.copy(), expression=number(b.upper)), outcomes[i].copy()) for i, b in enumerate(ordered[:-1])]
+    return case(first + comparisons + last, outcomes[top].copy())
 
 
 def _is_odd(x: exp.Expression, name: str) -> exp.Expression:
@@ -310,13 +355,14 @@ def _is_odd(x: exp.Expression, name: str) -> exp.Expression:
     return exp.EQ(this=x.copy(), expression=double_constant(name))
 
 
-def _categorical_bin(feature: CategoricalFeature, terms: FeatureTerms, x: exp.Expression) -> exp.Case:
-    branches = [(exp.Is(this=x.copy(), expression=exp.Null()), integer(len(terms.bins) - 1))]
+def _categorical_bin(feature: CategoricalFeature, terms: FeatureTerms, x: exp.Expression,
+                     outcomes: Sequence[exp.Expression]) -> exp.Case:
+    branches = [(exp.Is(this=x.copy(), expression=exp.Null()), outcomes[len(terms.bins) - 1].copy())]
     groups = {g.label: g for g in feature.groups}
     for i, term in enumerate(terms.bins[:-2]):
         values = [category_literal(v) for v in groups[term.label].values]
-        branches.append((exp.In(this=x.copy(), expressions=values), integer(i)))
-    return case(branches, integer(len(terms.bins) - 2))
+        branches.append((exp.In(this=x.copy(), expressions=values), outcomes[i].copy()))
+    return case(branches, outcomes[len(terms.bins) - 2].copy())
 
 
 def _linear_bin(feature: LinearFeature, x: exp.Expression, may_be_odd: bool) -> exp.Case:
@@ -360,23 +406,7 @@ def _points(spec: Spec, feature, terms: FeatureTerms, b: exp.Expression, value: 
         if spec.scaling.rounding == "per_bin":
             points = round_half_away_sql(points)
         return case([(exp.EQ(this=b, expression=integer(LINEAR_MISSING)), number(terms.bins[0].points))], points)
-    if _points_follow_log_odds(spec, terms):
-        # the same lookup as the contribution to η: engines that share common subexpressions
-        # (DuckDB, Spark) then look the bin up once per feature instead of twice
-        factor = exp.Mul(this=number(spec.scaling.factor), expression=by_bin(b, [number(t.log_odds) for t in terms.bins]))
-        return exp.Neg(this=exp.paren(factor, copy=False))
     return by_bin(b, [number(t.points) for t in terms.bins])
-
-
-def _points_follow_log_odds(spec: Spec, terms: FeatureTerms) -> bool:
-    """Whether every bin's points are exactly ``-(factor * log_odds)`` in double arithmetic.
-
-    True whenever the spec gives WoE or log-odds and does not round per bin (that is how
-    :mod:`scoremon.spec.terms` derives the points); checked bit for bit, so computing the
-    points in SQL that way gives the same doubles as the lookup would.
-    """
-    factor = spec.scaling.factor
-    return all(_same_bits(t.points, -(factor * t.log_odds)) for t in terms.bins)
 
 
 def _same_bits(a: float, b: float) -> bool:

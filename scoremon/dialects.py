@@ -19,12 +19,15 @@ adjustment rewrites a copy of the tree just before sqlglot renders it:
   error), so the tests for them become ``1 = 0``; text with characters beyond ASCII is written
   ``N'…'`` so that it is not squeezed into the database's code page.
 * ``duckdb`` (speed only; same values): a lookup by bin number (``CASE WHEN b = 0 THEN v0
-  WHEN b = 1 THEN v1 … ELSE vn END``, the compiler's labels, points and log-odds) becomes a list
-  index ``[v0, v1, …, vn][b + 1]`` (so does a reason slot's code by picked statement), and a categorical feature's ``x IN (…)`` chain becomes one
-  ``MAP {value: bin, …}[x]`` with the catch-all bin as COALESCE default. DuckDB evaluates a
-  CASE branch by branch over the whole vector, so a chain of n branches costs about n passes,
-  where a list index or a map probe costs one; measured on ``scoremon bench``. The bin numbers
-  are always 0 … n, so the list index is never out of range (a NULL there would be a bug).
+  WHEN b = 1 THEN v1 … ELSE vn END``: what the compiler looks up by bin number, and a
+  reason slot's code by picked statement) becomes a list index ``[v0, v1, …, vn][b + 1]``, and a
+  categorical feature's ``x IN (…)`` chain becomes one ``MAP {value: outcome, …}[x]``, with
+  the missing and catch-all outcomes in a COALESCE after it. DuckDB evaluates a CASE branch
+  by branch over the whole vector, so a chain of n branches costs about n passes, where a
+  list index or a map probe costs one — and a map probe of a dictionary-encoded text column
+  costs one per distinct value, but only outside a CASE; measured on ``scoremon bench``. The
+  bin numbers are always 0 … n, so the list index is never out of range (a NULL there would
+  be a bug).
 * ``duckdb`` writing Parquet (``for_parquet``; speed only, same file): text constants — labels,
   grade, reason codes, the model's identity — become ENUM values. DuckDB's Parquet writer
   hashes a VARCHAR column value by value to build its dictionary, but writes an ENUM's
@@ -240,11 +243,12 @@ def _text_column(node: exp.Alias) -> exp.Expression | None:
     return exp.alias_(exp.Cast(this=node.this.copy(), to=_enum([node.this])), node.alias, quoted=True)
 
 
-def _category_lookup(node: exp.Case) -> exp.Expression | None:
-    """``CASE WHEN x IS NULL THEN m ELSE COALESCE(MAP {v: bin, …}[x], other) END`` for the
-    compiler's ``CASE WHEN x IS NULL THEN m WHEN x IN (…) THEN 0 … ELSE other END``."""
+def _category_lookup(node: exp.Case, enum_text: bool) -> exp.Expression | None:
+    """``COALESCE(MAP {v: outcome, …}[x], CASE WHEN x IS NULL THEN m ELSE other END)`` for the
+    compiler's ``CASE WHEN x IS NULL THEN m WHEN x IN (…) THEN o0 … ELSE other END`` (outcomes
+    are bin numbers, labels or numbers)."""
     ifs, default = node.args.get("ifs") or [], node.args.get("default")
-    if len(ifs) < 2 or not isinstance(default, exp.Literal):
+    if len(ifs) < 2 or default is None or not _constant(default):
         return None
     missing = ifs[0].this
     if not (isinstance(missing, exp.Is) and isinstance(missing.this, exp.Column) and isinstance(missing.expression, exp.Null)):
@@ -253,7 +257,7 @@ def _category_lookup(node: exp.Case) -> exp.Expression | None:
     keys: dict[tuple[bool, str], tuple[exp.Literal, exp.Expression]] = {}
     for branch in ifs[1:]:
         test, value = branch.this, branch.args["true"]
-        if not (isinstance(test, exp.In) and test.this == subject and isinstance(value, exp.Literal)
+        if not (isinstance(test, exp.In) and test.this == subject and _constant(value)
                 and test.expressions and all(isinstance(v, exp.Literal) for v in test.expressions)):
             return None
         for literal in test.expressions:
@@ -261,21 +265,29 @@ def _category_lookup(node: exp.Case) -> exp.Expression | None:
             keys.setdefault((literal.is_string, literal.this), (literal, value))
     if len({is_string for is_string, _ in keys}) != 1:
         return None  # mixed text and numbers: a MAP needs one key type, keep the CASE
-    table = exp.Map(keys=exp.Array(expressions=[k.copy() for k, _ in keys.values()]),
-                    values=exp.Array(expressions=[v.copy() for _, v in keys.values()]))
+    outcomes = [v.copy() for _, v in keys.values()]
+    missing, other = ifs[0].args["true"].copy(), default.copy()
+    values: exp.Expression = exp.Array(expressions=outcomes)
+    if enum_text and all(_is_text(v) for v in outcomes + [missing, other]):
+        kind = _enum(outcomes + [missing, other])
+        values = exp.Cast(this=values, to=exp.DataType(this=exp.DataType.Type.ARRAY, expressions=[kind], nested=True))
+        missing, other = exp.Cast(this=missing, to=kind.copy()), exp.Cast(this=other, to=kind.copy())
+    table = exp.Map(keys=exp.Array(expressions=[k.copy() for k, _ in keys.values()]), values=values)
     found = exp.Bracket(this=table, expressions=[subject.copy()])
-    return exp.Case(ifs=[ifs[0].copy()], default=exp.Coalesce(this=found, expressions=[default.copy()]))
+    # the probe first and on every row: DuckDB evaluates a function of a dictionary-encoded
+    # text column once per distinct value, but not inside a CASE branch (scoremon bench)
+    return exp.Coalesce(this=found, expressions=[exp.Case(ifs=[exp.If(this=ifs[0].this.copy(), true=missing)], default=other)])
 
 
 def _duckdb(node: exp.Expression) -> exp.Expression:
     if isinstance(node, exp.Case):
-        return _bin_lookup(node, enum_text=False) or _category_lookup(node) or node
+        return _bin_lookup(node, enum_text=False) or _category_lookup(node, enum_text=False) or node
     return node
 
 
 def _duckdb_parquet(node: exp.Expression) -> exp.Expression:
     if isinstance(node, exp.Case):
-        return _bin_lookup(node, enum_text=True) or _category_lookup(node) or _text_choice(node) or node
+        return _bin_lookup(node, enum_text=True) or _category_lookup(node, enum_text=True) or _text_choice(node) or node
     if isinstance(node, exp.Alias):
         return _text_column(node) or node
     return node

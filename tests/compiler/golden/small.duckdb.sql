@@ -3,20 +3,41 @@ WITH "binned" AS (
     "application_id",
     CASE
       WHEN "age" < CAST(25.0 AS DOUBLE)
-      THEN 0
+      THEN '[-inf, 25)'
       WHEN "age" < CAST(40.0 AS DOUBLE)
-      THEN 1
+      THEN '[25, 40)'
       WHEN "age" IS NULL
-      THEN 3
+      THEN 'missing'
       WHEN "age" = CAST('NaN' AS DOUBLE)
-      THEN 3
-      ELSE 2
-    END AS "__scoremon_bin_0",
+      THEN 'missing'
+      ELSE '[40, inf)'
+    END AS "age_bin",
     CASE
-      WHEN "region_code" IS NULL
-      THEN 3
-      ELSE COALESCE(MAP(['N1', 'N2', 'S1'], [0, 0, 1])["region_code"], 2)
-    END AS "__scoremon_bin_1",
+      WHEN "age" < CAST(25.0 AS DOUBLE)
+      THEN CAST(0.5 AS DOUBLE)
+      WHEN "age" < CAST(40.0 AS DOUBLE)
+      THEN CAST(-0.1 AS DOUBLE)
+      WHEN "age" IS NULL
+      THEN CAST(0.2 AS DOUBLE)
+      WHEN "age" = CAST('NaN' AS DOUBLE)
+      THEN CAST(0.2 AS DOUBLE)
+      ELSE CAST(-0.6 AS DOUBLE)
+    END AS "__scoremon_value_0",
+    COALESCE(
+      MAP(['N1', 'N2', 'S1'], ['north', 'north', 'south'])["region_code"],
+      CASE WHEN "region_code" IS NULL THEN 'missing' ELSE 'elsewhere' END
+    ) AS "region_bin",
+    COALESCE(
+      MAP(
+        ['N1', 'N2', 'S1'],
+        [CAST(0.3 AS DOUBLE), CAST(0.3 AS DOUBLE), CAST(-0.1 AS DOUBLE)]
+      )["region_code"],
+      CASE
+        WHEN "region_code" IS NULL
+        THEN CAST(0.2 AS DOUBLE)
+        ELSE CAST(0.05 AS DOUBLE)
+      END
+    ) AS "__scoremon_value_1",
     CASE
       WHEN "utilisation" < CAST(0.0 AS DOUBLE)
       THEN 0
@@ -39,24 +60,10 @@ WITH "binned" AS (
 ), "pointed" AS (
   SELECT
     "application_id",
-    ['[-inf, 25)', '[25, 40)', '[40, inf)', 'missing']["__scoremon_bin_0" + 1] AS "age_bin",
-    -(
-      CAST(28.85390081777927 AS DOUBLE) * [
-        CAST(0.5 AS DOUBLE),
-        CAST(-0.1 AS DOUBLE),
-        CAST(-0.6 AS DOUBLE),
-        CAST(0.2 AS DOUBLE)
-      ]["__scoremon_bin_0" + 1]
-    ) AS "age_points",
-    ['north', 'south', 'elsewhere', 'missing']["__scoremon_bin_1" + 1] AS "region_bin",
-    -(
-      CAST(28.85390081777927 AS DOUBLE) * [
-        CAST(0.3 AS DOUBLE),
-        CAST(-0.1 AS DOUBLE),
-        CAST(0.05 AS DOUBLE),
-        CAST(0.2 AS DOUBLE)
-      ]["__scoremon_bin_1" + 1]
-    ) AS "region_points",
+    "age_bin",
+    CAST(-28.85390081777927 AS DOUBLE) * "__scoremon_value_0" AS "age_points",
+    "region_bin",
+    CAST(-28.85390081777927 AS DOUBLE) * "__scoremon_value_1" AS "region_points",
     ['clipped_low', 'in_range', 'clipped_high', 'missing']["__scoremon_bin_2" + 1] AS "utilisation_bin",
     CASE
       WHEN "__scoremon_bin_2" = 3
@@ -65,17 +72,7 @@ WITH "binned" AS (
         "__scoremon_value_2" - CAST(0.0 AS DOUBLE)
       )
     END AS "utilisation_points",
-    CAST(-2.0 AS DOUBLE) + [
-      CAST(0.5 AS DOUBLE),
-      CAST(-0.1 AS DOUBLE),
-      CAST(-0.6 AS DOUBLE),
-      CAST(0.2 AS DOUBLE)
-    ]["__scoremon_bin_0" + 1] + [
-      CAST(0.3 AS DOUBLE),
-      CAST(-0.1 AS DOUBLE),
-      CAST(0.05 AS DOUBLE),
-      CAST(0.2 AS DOUBLE)
-    ]["__scoremon_bin_1" + 1] + CASE
+    CAST(-2.0 AS DOUBLE) + "__scoremon_value_0" + "__scoremon_value_1" + CASE
       WHEN "__scoremon_bin_2" = 3
       THEN CAST(0.4 AS DOUBLE)
       ELSE CAST(1.5 AS DOUBLE) * (
