@@ -93,7 +93,8 @@ def numeric_feature(draw, name: str, coarse: bool):
     column_kind = draw(st.sampled_from(["DOUBLE", "BIGINT", "INTEGER"]))
     # a DOUBLE column may also meet cut points of any finite size
     element = st.one_of(cut_point, st.floats(**finite)) if column_kind == "DOUBLE" else cut_point
-    cuts = sorted(draw(st.lists(element, min_size=0, max_size=7, unique=True)))
+    # up to 11 cut points: chains of 6 or more are compiled as runs (compiler._runs)
+    cuts = sorted(draw(st.lists(element, min_size=0, max_size=11, unique=True)))
     edges = [-math.inf] + cuts + [math.inf]
     closed = draw(st.sampled_from(["lower", "upper"]))
     kind = draw(st.sampled_from(["woe", "log_odds", "points"]))
