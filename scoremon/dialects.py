@@ -222,18 +222,39 @@ def _enum(values: Sequence[exp.Literal]) -> exp.DataType:
 
 
 def _text_choice(node: exp.Case) -> exp.Expression | None:
-    """A CASE whose every outcome is a text constant (the grade) with ENUM constants."""
-    ifs, default = node.args.get("ifs") or [], node.args.get("default")
-    outcomes = [branch.args["true"] for branch in ifs] + ([default] if default is not None else [])
-    if not ifs or not all(_is_text(v) for v in outcomes):
+    """A CASE whose every outcome is a text constant (a label, the grade) with ENUM constants;
+    outcomes may be CASEs themselves (a label found in runs of edges), their texts count too."""
+    leaves = _outcomes(node)
+    if not leaves or not all(_is_text(v) for v in leaves):
         return None
-    kind = _enum(outcomes)
+    kind = _enum(leaves)
 
-    def enum(literal: exp.Expression) -> exp.Expression:
-        return exp.Cast(this=literal.copy(), to=kind.copy())
+    def enum(outcome: exp.Expression) -> exp.Expression:
+        if isinstance(outcome, exp.Case):
+            return _with_outcomes(outcome, enum)
+        return exp.Cast(this=outcome.copy(), to=kind.copy())
 
-    return exp.Case(ifs=[exp.If(this=b.this.copy(), true=enum(b.args["true"])) for b in ifs],
-                    default=enum(default) if default is not None else None)
+    return _with_outcomes(node, enum)
+
+
+def _outcomes(node: exp.Case) -> list[exp.Expression]:
+    """Every value a CASE can yield, looking into CASEs it yields; empty if it has no WHEN."""
+    ifs, default = node.args.get("ifs") or [], node.args.get("default")
+    if not ifs:
+        return []
+    leaves = []
+    for outcome in [branch.args["true"] for branch in ifs] + ([default] if default is not None else []):
+        inner = _outcomes(outcome) if isinstance(outcome, exp.Case) else [outcome]
+        if not inner:
+            return []
+        leaves += inner
+    return leaves
+
+
+def _with_outcomes(node: exp.Case, change: Callable[[exp.Expression], exp.Expression]) -> exp.Case:
+    ifs, default = node.args.get("ifs") or [], node.args.get("default")
+    return exp.Case(ifs=[exp.If(this=b.this.copy(), true=change(b.args["true"])) for b in ifs],
+                    default=change(default) if default is not None else None)
 
 
 def _text_column(node: exp.Alias) -> exp.Expression | None:

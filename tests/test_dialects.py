@@ -9,12 +9,13 @@ from __future__ import annotations
 import os
 import re
 
+import duckdb
 import pytest
 import sqlglot
 
 from scoremon.api import compile_sql, load_spec
 from scoremon.cli import build_parser
-from scoremon.compiler import compile_model
+from scoremon.compiler import compile_model, output_columns
 from scoremon.dialects import DIALECTS, dialects_help, render_sql, render_type, table_path
 from scoremon.errors import InputError
 from tests.conftest import FIXTURES
@@ -121,3 +122,23 @@ def test_text_constants_become_enum_only_when_duckdb_writes_parquet(edge_spec):
     sqlglot.parse_one(parquet, read="duckdb")  # DuckDB's grammar as sqlglot knows it
     for dialect in ("postgres", "spark"):
         assert render_sql(tree, dialect, for_parquet=True) == render_sql(tree, dialect)
+
+
+def test_every_text_column_duckdb_writes_to_parquet_is_an_enum(edge_spec):
+    # run the SQL on DuckDB over an empty table: the output's column types are what it would write
+    # (the edge deck has a numeric feature long enough to be binned in runs of edges)
+    kinds = {}
+    for feature in edge_spec.features:
+        values = getattr(feature, "groups", None)
+        numbers = values is not None and isinstance(values[0].values[0], int)
+        kinds[feature.column or feature.name] = "VARCHAR" if values is not None and not numbers else "DOUBLE"
+    columns = ", ".join(f'"{name.replace(chr(34), 2 * chr(34))}" {kind}' for name, kind in kinds.items())
+    tree = compile_model(edge_spec, sqlglot.exp.to_table("input"))
+    with duckdb.connect() as connection:
+        connection.execute(f"CREATE TABLE input ({columns})")
+        described = connection.execute(f"DESCRIBE {render_sql(tree, 'duckdb', for_parquet=True)}").fetchall()
+        plain = connection.execute(f"DESCRIBE {render_sql(tree, 'duckdb')}").fetchall()
+    text_columns = [name for name, kind, *_ in plain if kind == "VARCHAR"]
+    assert len(text_columns) == len(edge_spec.features) + 1 + len(output_columns(edge_spec).reasons) + 3
+    types = {name: kind for name, kind, *_ in described}
+    assert [name for name in text_columns if not types[name].startswith("ENUM(")] == []
