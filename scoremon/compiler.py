@@ -31,8 +31,9 @@ Portable choices, and why:
   the top bin.
 * Every number is ``CAST(<literal> AS DOUBLE)``: a bare ``0.1`` is DECIMAL on DuckDB and Spark,
   and sums of DECIMALs would not give the same bits as double arithmetic.
-* Rounding is ``ROUND(CAST(x AS DECIMAL(38, 12)), 0)``: ROUND on a double rounds half to even
-  on PostgreSQL and half away from zero on DuckDB; on DECIMAL all three round half away.
+* Rounding is FLOOR and a comparison in doubles (:func:`round_half_away_sql`): ROUND on a
+  double rounds half to even on PostgreSQL and half away from zero on DuckDB, and a DECIMAL
+  cast is not exact on DuckDB.
 * Reasons take successive maxima rather than ranking every pair of statements: with ten
   statements the pairwise ranks cost 90 comparisons per row and made reasons twice as
   expensive as the score itself (``scoremon bench``); N maxima cost about N·S. GREATEST is
@@ -52,6 +53,7 @@ from .errors import InputError
 from .spec.canonical import fingerprint
 from .spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
 from .spec.terms import (
+    ROUND_UP_FROM,
     FeatureTerms,
     base_points,
     feature_terms,
@@ -125,10 +127,23 @@ def total(terms: Sequence[exp.Expression]) -> exp.Expression:
 
 
 def round_half_away_sql(value: exp.Expression) -> exp.Expression:
-    """Round to a whole number, half away from zero, on every engine (see the docstring)."""
-    held = exp.Cast(this=value, to=exp.DataType.build("DECIMAL(38, 12)"))
-    rounded = exp.Round(this=held, decimals=integer(0))
-    return exp.Cast(this=rounded, to=exp.DataType.build("DOUBLE"))
+    """:func:`scoremon.spec.terms.round_half_away` in double arithmetic, the same on every engine.
+
+    Below 2**52 a double splits exactly into ``whole = FLOOR(|x|)`` and ``|x| − whole``, and
+    the rule goes up exactly when that fraction is at least ``ROUND_UP_FROM``; from 2**52 on
+    every double is whole already. No DECIMAL: DuckDB converts a double to DECIMAL by a
+    multiplication in floating point, which misplaced values next to a 12-decimal half, and a
+    DECIMAL(38, 12) cannot hold 1e26. ``0 − rounded`` for negatives gives +0.0, not −0.0.
+    """
+    size = exp.Abs(this=value.copy())
+    # Spark's FLOOR of a double is a BIGINT: back to DOUBLE (exact below 2**52)
+    whole = exp.Cast(this=exp.Floor(this=size.copy()), to=exp.DataType.build("DOUBLE"))
+    goes_up = exp.GTE(this=exp.Sub(this=size.copy(), expression=whole.copy()), expression=number(ROUND_UP_FROM))
+    rounded = case([(goes_up, exp.Add(this=whole.copy(), expression=number(1.0)))], whole.copy())
+    return case([
+        (exp.GTE(this=size.copy(), expression=number(2.0 ** 52)), value.copy()),
+        (exp.LT(this=value.copy(), expression=number(0.0)), exp.Sub(this=number(0.0), expression=rounded.copy())),
+    ], rounded)
 
 
 # ---------------------------------------------------------------- output names

@@ -17,15 +17,12 @@ from dataclasses import dataclass, field
 from ..errors import Problem
 from .model import Baseline, CategoricalFeature, Feature, Grade, LinearFeature, NumericFeature, Reasons, Spec, Value
 from .source import SpecSource, format_path
-from .terms import base_points, feature_terms, interval_label, linear_points_slope
+from .terms import interval_label
 
 # PostgreSQL truncates identifiers at 63 bytes; the longest column we derive from a feature
 # name is "<name>_points" (7 more), so names stop at 56 bytes.
 MAX_NAME_BYTES = 56
 VALUE_KINDS = ("woe", "log_odds", "points")
-# Rounding holds a value as DECIMAL(38, 12) in SQL (compiler.round_half_away_sql): 26 digits
-# before the point, so a larger value would validate here and fail at run time.
-ROUNDING_LIMIT = 1e26
 
 Report = Callable[[tuple, str], None]
 
@@ -75,44 +72,7 @@ class ValidParts:
 
 def check_spec(spec: Spec, source: SpecSource) -> list[Problem]:
     """Every whole-model problem of a validated ``spec``, located through ``source``."""
-    problems = check_parts(ValidParts.of(spec), source)
-    if not problems:  # the points are only meaningful once every part keeps its rules
-        problems += [source.problem(("scaling", "rounding"), message) for message in _rounding_range(spec)]
-    return problems
-
-
-def _rounding_range(spec: Spec) -> list[str]:
-    """What the SQL would round but cannot hold (see :data:`ROUNDING_LIMIT`)."""
-    rounding = spec.scaling.rounding
-    fix = "or set rounding: none"
-    if rounding == "per_bin":  # bin points are rounded when compiled; a linear term's in SQL
-        problems = []
-        for feature in spec.features:
-            if isinstance(feature, LinearFeature):
-                reach = _linear_reach(spec, feature)
-                if not reach < ROUNDING_LIMIT:
-                    problems.append(f"linear feature {feature.name!r} scores up to {show_number(reach)} points at "
-                                    f"its clip bounds, but rounding per bin holds points below 1e26 (DECIMAL(38, 12) "
-                                    f"in SQL); narrow its clip bounds, {fix}")
-        return problems
-    if rounding == "total":
-        reach = abs(base_points(spec))
-        for feature in spec.features:
-            terms = feature_terms(spec, feature)
-            candidates = [abs(b.points) for b in terms.bins]
-            if isinstance(feature, LinearFeature):
-                candidates.append(_linear_reach(spec, feature))
-            reach += max(candidates)
-        if not reach < ROUNDING_LIMIT:
-            return [f"scores can reach {show_number(reach)} in size, but rounding the total holds the score below "
-                    f"1e26 (DECIMAL(38, 12) in SQL); scale the points or narrow the linear clip bounds, {fix}"]
-    return []
-
-
-def _linear_reach(spec: Spec, feature: LinearFeature) -> float:
-    """The largest size of a linear feature's unrounded points, reached at a clip bound."""
-    slope = linear_points_slope(spec, feature)
-    return max(abs(slope * (bound - feature.center)) for bound in (feature.lower, feature.upper))
+    return check_parts(ValidParts.of(spec), source)
 
 
 def check_parts(parts: ValidParts, source: SpecSource) -> list[Problem]:

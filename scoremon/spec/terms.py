@@ -13,20 +13,38 @@ and any reference computation give the same bits):
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
-from decimal import ROUND_HALF_UP, Decimal
+from decimal import ROUND_HALF_UP, Decimal, localcontext
 
 from .model import CategoricalFeature, LinearFeature, NumericFeature, Spec, Value
 
-# Rounding holds a value to this many decimals before rounding to a whole number, exactly
-# as the SQL does with CAST(x AS DECIMAL(38, 12)); see compiler.round_half_away_sql.
+# Rounding holds a value to this many decimals before rounding to a whole number, so that
+# binary noise just below a half (0.49999999999999994) rounds as the half it stands for.
 ROUNDING_DECIMALS = 12
+# Enough digits to hold any double's whole part and 12 decimals exactly (doubles stay below 1e309).
+_HOLDING_DIGITS = 309 + ROUNDING_DECIMALS + 10
 
 
 def round_half_away(value: float) -> float:
-    """Round to a whole number, half away from zero, after holding 12 decimals (as the SQL)."""
-    held = Decimal(value).quantize(Decimal(1).scaleb(-ROUNDING_DECIMALS), rounding=ROUND_HALF_UP)
-    return float(held.quantize(Decimal(1), rounding=ROUND_HALF_UP))
+    """Round to a whole number, half away from zero, after holding 12 decimals of the exact
+    double. This is the rule's definition; the SQL computes the same in doubles
+    (compiler.round_half_away_sql, with :data:`ROUND_UP_FROM`). Zero comes back as +0.0."""
+    with localcontext() as context:
+        context.prec = _HOLDING_DIGITS
+        held = Decimal(value).quantize(Decimal(1).scaleb(-ROUNDING_DECIMALS), rounding=ROUND_HALF_UP)
+        return float(held.quantize(Decimal(1), rounding=ROUND_HALF_UP)) + 0.0
+
+
+def _smallest_double_from(bound: Decimal) -> float:
+    candidate = float(bound)
+    return candidate if Decimal(candidate) >= bound else math.nextafter(candidate, math.inf)
+
+
+# Under :func:`round_half_away` a value goes up exactly when its fraction is at least
+# 0.5 − 0.5·10⁻¹² (that fraction holds as 0.5); a fraction is a double, so "at least the
+# smallest double from that bound" is the same test.
+ROUND_UP_FROM = _smallest_double_from(Decimal("0.5") - Decimal("0.5").scaleb(-ROUNDING_DECIMALS))
 
 
 @dataclass(frozen=True)

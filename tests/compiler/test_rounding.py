@@ -14,6 +14,7 @@ import pytest
 import yaml
 
 from scoremon.spec import parse_spec
+from scoremon.spec.terms import round_half_away
 from tests.compiler.through_sql import score_columns
 
 # (input, rounded) worked by hand from the rule
@@ -23,22 +24,22 @@ CASES = [
 ]
 
 
-def identity_spec(rounding: str):
+def identity_spec(rounding: str, bound: float = 1000.0):
     data = {
         "model": {"name": "rounding", "version": "1", "owner": "tests", "effective_date": "2026-01-01",
                   "intended_use": "rounding checks", "event": "y = 1", "performance_window_months": 12},
         "intercept": 0.0,
         "scaling": {"base_score": 0.0, "base_odds": 1.0, "pdo": math.log(2.0), "rounding": rounding},
-        "features": [{"name": "x", "type": "linear", "coefficient": -1.0, "lower": -1000.0, "upper": 1000.0,
+        "features": [{"name": "x", "type": "linear", "coefficient": -1.0, "lower": -bound, "upper": bound,
                       "missing": {"points": 0.0}}],
         "grades": [{"name": "all", "lower": -math.inf, "upper": math.inf}],
     }
     return parse_spec(yaml.safe_dump(data))
 
 
-def scored(rounding: str, values: list[float]) -> list[dict]:
+def scored(rounding: str, values: list[float], bound: float = 1000.0) -> list[dict]:
     columns = {"row_id": ("INTEGER", list(range(len(values)))), "x": ("DOUBLE", values)}
-    return score_columns(identity_spec(rounding), columns, "row_id")[1]
+    return score_columns(identity_spec(rounding, bound), columns, "row_id")[1]
 
 
 def test_the_identity_spec_scores_its_input():
@@ -59,11 +60,16 @@ def test_total_rounds_the_score_and_keeps_points_unrounded():
     assert [row["x_points"] for row in rows] == [value for value, _ in CASES]
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "known difference: DuckDB casts DOUBLE to DECIMAL(38, 12) by multiplying by 1e12 in double "
-    "arithmetic, so 1.4999999999995 (exactly 1.49999999999949995…, held as 1.499999999999 by the "
-    "documented rule and by scoremon.spec.terms) is held as 1.500000000000 and rounds to 2; only "
-    "values within about 1e-13 of a 12-decimal half are affected"))
 def test_a_value_just_below_a_twelve_decimal_half_is_held_below_it():
+    # 1.4999999999995 is exactly 1.49999999999949995…: held as 1.499999999999, it rounds down
     rows = scored("total", [1.4999999999995])
     assert rows[0]["score"] == 1.0
+
+
+@pytest.mark.parametrize("rounding", ["per_bin", "total"])
+def test_rounding_has_no_size_limit(rounding):
+    # far beyond what a DECIMAL(38, 12) holds (below 1e26): every double from 2**52 on is whole
+    values = [2.0 ** 52 + 1, 1e20 + 0.5e5, -3e25, 1e26, 7.5e299, -1e300, 123456789.5]
+    column = "x_points" if rounding == "per_bin" else "score"
+    rows = scored(rounding, values, bound=1e300)
+    assert [row[column] for row in rows] == [round_half_away(v) for v in values] == values[:-1] + [123456790.0]

@@ -148,11 +148,6 @@ CASES = [
         '35:3: reasons.count: asks for 3 reasons but 2 statements are declared; lower count to 2 or add '
         'statements',
     ]),
-    ('rounding_out_of_range', [
-        "15:3: scaling.rounding: linear feature 'bureau_score' scores up to 2.885390081777927e+299 points at its "
-        "clip bounds, but rounding per bin holds points below 1e26 (DECIMAL(38, 12) in SQL); narrow its clip "
-        "bounds, or set rounding: none",
-    ]),
     ('route_unknown_label', [
         "24:5: features[0].nan: nan goes to 'mising', which is no bin of this feature; did you mean 'missing'?",
         "25:5: features[0].positive_infinity: positive_infinity goes to 'top', which is no bin of this "

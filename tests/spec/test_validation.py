@@ -255,18 +255,3 @@ def test_positions_in_flow_and_block_style_point_at_the_same_key():
     assert block.locate_value(("bins", 0, "upper")) == (3, 12)
     # a path that is not in the file is located at its deepest part that is
     assert block.locate(("bins", 0, "label")) == (2, 5)
-
-
-def test_rounding_a_score_sql_cannot_hold_is_refused_and_unrounded_is_not():
-    # rounding holds values as DECIMAL(38, 12) in SQL, 26 digits before the point; the reach is
-    # factor 20 / ln 2 × coefficient 1.5 × clip 1e30 = 4.328e31, the linear term alone
-    wide = ("    upper: 1.2\n", "    upper: 1.0e+30\n")
-    assert problems(edited(("  rounding: none", "  rounding: total"), wide)) == [
-        "17:3: scaling.rounding: scores can reach 4.32808512266689e+31 in size, but rounding the total holds the "
-        "score below 1e26 (DECIMAL(38, 12) in SQL); scale the points or narrow the linear clip bounds, "
-        "or set rounding: none",
-    ]
-    assert [line.split(": ")[1] for line in problems(edited(("  rounding: none", "  rounding: per_bin"), wide))] == [
-        "scaling.rounding"]
-    assert parse_spec(edited(wide)).scaling.rounding == "none"
-    assert parse_spec(edited(("  rounding: none", "  rounding: total"), ("    upper: 1.2\n", "    upper: 1.0e+20\n")))

@@ -1,0 +1,42 @@
+"""The SQL rounding rule gives, on DuckDB, PostgreSQL and Spark, exactly what the rule's
+definition gives: Python's ``decimal`` module (ROUND_HALF_UP to 12 decimals of the exact double,
+then to a whole number; scoremon.spec.terms.round_half_away) — the standard library as the
+outside check. Half away from zero is the usual commercial rounding of a score [common practice].
+"""
+from __future__ import annotations
+
+import math
+import random
+
+from sqlglot import exp
+
+from scoremon.compiler import column, round_half_away_sql
+from scoremon.dialects import render_sql, table_path
+from scoremon.spec.terms import round_half_away
+
+
+def tricky_values() -> list[float]:
+    values = [0.0, 0.5, 1.5, 2.5, 599.5, 0.49999999999999994, 2.4999999999999996, 1e-13, 0.4999999999995,
+              1.4999999999995, 3.4999999999995001, 0.9999999999995, 7.9999999999994996,
+              2.0 ** 52 - 0.5, 2.0 ** 52, 2.0 ** 52 + 1, 2.0 ** 53 + 2, 1e16 + 2, 1e20, 1e26, 1e300]
+    for whole in (0, 1, 2, 17, 600, 123456789, 2 ** 40):
+        for fraction in (0.5, 0.4999999999995, 0.4999999999994, 0.4999999999996, 0.9999999999995):
+            middle = whole + fraction
+            values += [math.nextafter(middle, -math.inf), middle, math.nextafter(middle, math.inf)]
+    draw = random.Random(20261202)
+    values += [draw.uniform(-1, 1) * 10 ** draw.randint(-3, 18) for _ in range(300)]
+    return values + [-v for v in values]
+
+
+def test_sql_rounding_matches_the_decimal_definition_on_every_engine(each_engine):
+    values = tricky_values()
+    each_engine.write_rows(["rounding_cases"], [("id", "BIGINT"), ("x", "DOUBLE")],
+                           list(enumerate(values)), "loading the rounding cases")
+    query = (exp.select(column("id"), exp.alias_(round_half_away_sql(column("x")), "rounded", quoted=True))
+             .from_(table_path(["rounding_cases"])).order_by(column("id")))
+    rows = each_engine.fetch(render_sql(query, each_engine.dialect, pretty=False), "rounding the cases")
+    # exactly the same double, and a zero always +0.0
+    wrong = [(values[i], got, round_half_away(values[i])) for i, got in rows
+             if not (got == round_half_away(values[i]) and math.copysign(1.0, got) == math.copysign(1.0, round_half_away(values[i])))]
+    assert len(rows) == len(values)
+    assert wrong == []
