@@ -5,6 +5,7 @@ Five comparisons, each a ratio of two timings taken in turns in this one run (se
 
 (a) compiled scoring ÷ a bare scan of the same columns                          goal ≤ 6
 (b) compiled scoring ÷ a hand-written CASE chain                                goal ≤ 1.0
+(a+) and (a-r), for information: (a) with three reasons, and (a) with the points rounded per bin
 (c) fetch into numpy and score there ÷ compiled scoring                         goal ≥ 10
 (d) scored output to Parquet ÷ copying the input columns to Parquet             goal ≤ 1.2
 (d0) the same, the rows scored beforehand into a table: the Parquet writer's share of (d)
@@ -165,8 +166,8 @@ class _Bench:
             self.engine.write_table(self.sql(workload.generate_rows(self.settings.rows)), [TABLE],
                                     "generating the bench rows", progress)
         columns = api.describe_source(self.engine, queries.relation(TABLE))
-        floats = [name for name, kind in columns.items() if api.FLOAT_TYPE.match(kind)]
-        self.scoring = compile_model(self.spec, queries.relation(TABLE), (), floats)
+        self.floats = [name for name, kind in columns.items() if api.FLOAT_TYPE.match(kind)]
+        self.scoring = compile_model(self.spec, queries.relation(TABLE), (), self.floats)
 
     def compare_scan_and_hand(self) -> None:
         numeric = [name for name in workload.input_columns() if name not in workload.text_columns()]
@@ -183,6 +184,13 @@ class _Bench:
         reasons = self.sql(queries.reason_summary(self.scoring, output_columns(self.spec).reasons))
         self.timed_line("a+", "compiled with 3 reasons ÷ bare scan",
                         "with reasons", lambda: run(reasons, "compiled scoring with reasons"),
+                        "bare scan", lambda: run(bare, "bare scan"), None)
+        # rounded per bin, the points no longer follow from the log-odds exactly: each bin's two
+        # numbers are looked up by bin number (compiler._one_number)
+        rounded = workload.bench_spec(rounding="per_bin")
+        per_bin = self.sql(queries.grade_summary(compile_model(rounded, queries.relation(TABLE), (), self.floats)))
+        self.timed_line("a-r", "the same, points rounded per bin ÷ bare scan",
+                        "per bin", lambda: run(per_bin, "compiled scoring rounded per bin"),
                         "bare scan", lambda: run(bare, "bare scan"), None)
 
     def compare_numpy(self) -> None:
@@ -312,7 +320,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
 
     >>> report = run_bench(BenchSettings(rows=2_000, repeat=1, skip_memory=True))
     >>> [line.key for line in report.lines]
-    ['a', 'b', 'a+', 'c', 'd', 'd0', 'f']
+    ['a', 'b', 'a+', 'a-r', 'c', 'd', 'd0', 'f']
     """
     _check_settings(settings)
     observer = observer or _Silent()

@@ -127,7 +127,7 @@ def _categorical_feature(c: CategoryColumn) -> dict:
             "other": {"label": "other", "log_odds": 0.1}, "missing": {"log_odds": 0.2}}
 
 
-def bench_spec_data() -> dict:
+def bench_spec_data(rounding: str = "none") -> dict:
     """The synthetic bench spec as plain data (what its YAML file would hold)."""
     features = [_numeric_feature(c) for c in NUMERIC]
     features += [_categorical_feature(c) for c in CATEGORICAL]
@@ -141,7 +141,7 @@ def bench_spec_data() -> dict:
                   "effective_date": date(2026, 1, 1), "intended_use": "speed measurement only",
                   "event": "synthetic", "performance_window_months": 12},
         "intercept": -2.6,
-        "scaling": {"base_score": 600, "base_odds": 30, "pdo": 20, "rounding": "none"},
+        "scaling": {"base_score": 600, "base_odds": 30, "pdo": 20, "rounding": rounding},
         "features": features,
         "grades": [{"name": n, "lower": lo, "upper": hi} for n, lo, hi in grades],
         "reasons": {"count": 3, "statements": [{"code": code, "text": words, "features": list(names)}
@@ -149,9 +149,9 @@ def bench_spec_data() -> dict:
     }
 
 
-def bench_spec() -> Spec:
+def bench_spec(rounding: str = "none") -> Spec:
     """The synthetic bench spec, validated exactly as a user's spec file would be."""
-    return parse_spec(yaml.safe_dump(bench_spec_data(), sort_keys=False), file="<bench spec>")
+    return parse_spec(yaml.safe_dump(bench_spec_data(rounding), sort_keys=False), file="<bench spec>")
 
 
 # ---------------------------------------------------------------- the rows
