@@ -9,9 +9,9 @@ The query reads the source once and runs through four steps (CTEs):
 ``binned``   finds each row's bin with a CASE per feature (the half-open comparisons in
              edge order first, the tests for NULL, NaN and an infinity the spec sends away
              from its outer bin after them, see :func:`_numeric_bin`). Where a bin's points
-             and log-odds follow from one number (:func:`_one_number`, the usual case) two
-             such CASEs yield the bin's label and that number; otherwise one yields the bin
-             number. A linear feature gets its bin number and clipped value;
+             and log-odds follow from one number (:func:`_one_number`: no rounding per bin)
+             two such CASEs yield the bin's label and that number; otherwise one yields the
+             bin number. A linear feature gets its bin number and clipped value;
 ``pointed``  labels, points and contributions to η (from the number, or looked up by bin
              number), and η = intercept + Σ contributions;
 ``totalled`` the score (base points + Σ points, rounded as the spec says) and, per reason
