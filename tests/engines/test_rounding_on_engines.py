@@ -35,8 +35,11 @@ def test_sql_rounding_matches_the_decimal_definition_on_every_engine(each_engine
     query = (exp.select(column("id"), exp.alias_(round_half_away_sql(column("x")), "rounded", quoted=True))
              .from_(table_path(["rounding_cases"])).order_by(column("id")))
     rows = each_engine.fetch(render_sql(query, each_engine.dialect, pretty=False), "rounding the cases")
-    # exactly the same double, and a zero always +0.0
-    wrong = [(values[i], got, round_half_away(values[i])) for i, got in rows
-             if not (got == round_half_away(values[i]) and math.copysign(1.0, got) == math.copysign(1.0, round_half_away(values[i])))]
     assert len(rows) == len(values)
+    wrong = []
+    for i, got in rows:
+        want = round_half_away(values[i])
+        # exactly the same double, and a zero always +0.0
+        if not (got == want and math.copysign(1.0, got) == math.copysign(1.0, want)):
+            wrong.append((values[i], got, want))
     assert wrong == []
