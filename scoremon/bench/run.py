@@ -24,7 +24,7 @@ from contextlib import AbstractContextManager, nullcontext
 from dataclasses import dataclass, field
 from datetime import date
 from pathlib import Path
-from typing import Callable, Protocol
+from typing import Protocol
 
 from sqlglot import exp
 
