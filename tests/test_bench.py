@@ -16,7 +16,7 @@ from scoremon.compiler import compile_model
 from scoremon.dialects import render_sql
 from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature
 
-EVERY_LINE = ["a", "b", "a+", "a-r", "c", "d", "d0", "f", "e"]
+EVERY_LINE = ["a", "b", "a+", "a-r", "a0", "c", "d", "d0", "d1", "f", "e"]
 
 
 @pytest.fixture(scope="module")
@@ -53,7 +53,7 @@ def test_every_comparison_is_reported_with_both_sides_and_a_goal(report):
 
 def test_numpy_route_agrees_with_compiled_scoring(report):
     _, report = report
-    assert report.notes == ("numpy and compiled scoring agree on the rows in every grade",)
+    assert report.notes[0] == "numpy and compiled scoring agree on the rows in every grade"
 
 
 def test_temporary_data_is_removed(report):
@@ -80,7 +80,7 @@ def test_cli_prints_every_line_and_its_verdict(tmp_path, capsys):
     code = main(["bench", "--rows", "2000", "--repeat", "1", "--skip-memory", "--folder", str(tmp_path)])
     printed = capsys.readouterr().out
     assert code in (0, 1)  # 1 when a goal is missed, which tiny inputs usually do
-    for key in ["(a)", "(b)", "(a+)", "(a-r)", "(c)", "(d)", "(d0)", "(f)"]:
+    for key in ["(a)", "(b)", "(a+)", "(a-r)", "(a0)", "(c)", "(d)", "(d0)", "(d1)", "(f)"]:
         assert key in printed
     assert "(e)" not in printed
     assert ("missed" in printed) == (code == 1)

@@ -8,6 +8,8 @@
 * :func:`grade_summary` wraps a scoring query into the aggregate both scorers are timed on:
   rows, mean score and mean PD per grade;
 * :func:`reason_summary` also counts every reason slot, so that the reasons cannot be pruned;
+* :func:`binning_only` keeps only the scoring query's first step, finding each feature's bin,
+  and sums the numbers it yields — what scoring costs before any points, score or PD;
 * :func:`input_copy` selects the input columns unchanged (the Parquet copy baseline).
 """
 from __future__ import annotations
@@ -16,7 +18,7 @@ from typing import Sequence
 
 from sqlglot import exp
 
-from ..compiler import case, column, identifier, text
+from ..compiler import INTERNAL, case, column, identifier, text
 from ..spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
 from ..spec.terms import feature_terms, numeric_bins_in_order
 
@@ -100,6 +102,15 @@ def reason_summary(scoring: exp.Select, reasons: Sequence[str]) -> exp.Select:
     """As :func:`grade_summary`, plus the number of rows given each reason slot."""
     query = grade_summary(scoring)
     return query.select(*[exp.Count(this=column(name)) for name in reasons], copy=False)
+
+
+def binning_only(scoring: exp.Select) -> exp.Select:
+    """The scoring query's ``binned`` step alone, each number it yields summed (labels unread)."""
+    steps = {cte.alias: cte.this for cte in scoring.args["with_"].expressions}
+    binned = steps["binned"]
+    numbers = [e.alias for e in binned.expressions if e.alias.startswith(INTERNAL)]
+    query = exp.select(*[exp.Sum(this=column(name)) for name in numbers]).from_(relation("binned"))
+    return query.with_(identifier("binned"), as_=binned.copy(), copy=False)
 
 
 def input_copy(table: str, columns: Sequence[str]) -> exp.Select:

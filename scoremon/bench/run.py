@@ -6,9 +6,11 @@ Five comparisons, each a ratio of two timings taken in turns in this one run (se
 (a) compiled scoring ÷ a bare scan of the same columns                          goal ≤ 6
 (b) compiled scoring ÷ a hand-written CASE chain                                goal ≤ 1.0
 (a+) and (a-r), for information: (a) with three reasons, and (a) with the points rounded per bin
+(a0) for information: the binning step alone (each feature's bin found, nothing more) ÷ bare scan
 (c) fetch into numpy and score there ÷ compiled scoring                         goal ≥ 10
 (d) scored output to Parquet ÷ copying the input columns to Parquet             goal ≤ 1.2
 (d0) the same, the rows scored beforehand into a table: the Parquet writer's share of (d)
+(d1) the binning step alone ÷ copying the input to Parquet: the least scoring adds to (d0)
 (e) peak memory of a fresh process scoring ``memory_rows`` rows to Parquet      goal < 2 GiB
 (f) monitoring a scored book of 24 months, every family ÷ scoring those rows     goal ≤ 2
 
@@ -192,6 +194,10 @@ class _Bench:
         self.timed_line("a-r", "the same, points rounded per bin ÷ bare scan",
                         "per bin", lambda: run(per_bin, "compiled scoring rounded per bin"),
                         "bare scan", lambda: run(bare, "bare scan"), None)
+        binning = self.sql(queries.binning_only(self.scoring))
+        self.timed_line("a0", "binning step alone ÷ bare scan",
+                        "binning", lambda: run(binning, "the binning step alone"),
+                        "bare scan", lambda: run(bare, "bare scan"), None)
 
     def compare_numpy(self) -> None:
         compiled = self.sql(queries.grade_summary(self.scoring))
@@ -222,9 +228,17 @@ class _Bench:
         with self.observer.stage("scoring the rows into a table for (d0)") as progress:
             self.engine.write_table(scored_sql, [SCORED_ROWS], "scoring the bench rows into a table", progress)
         written_sql = self.sql(exp.select(exp.Star()).from_(queries.relation(SCORED_ROWS)))
-        self.timed_line("d0", "already-scored rows to Parquet ÷ input copy",
-                        "scored rows", lambda: write(written_sql, scored_file, "writing already-scored rows"),
-                        "copy", lambda: write(copy_sql, copy_file, "copying the input to Parquet"), None)
+        written = self.timed_line("d0", "already-scored rows to Parquet ÷ input copy",
+                                  "scored rows", lambda: write(written_sql, scored_file, "writing already-scored rows"),
+                                  "copy", lambda: write(copy_sql, copy_file, "copying the input to Parquet"), None)
+        # (d1) what scoring adds to (d0) at the least: its first step, before labels, points, reasons
+        binning_sql = self.sql(queries.binning_only(self.scoring))
+        binning = self.timed_line("d1", "binning step alone ÷ input copy",
+                                  "binning", lambda: self.engine.fetch(binning_sql, "the binning step alone"),
+                                  "copy", lambda: write(copy_sql, copy_file, "copying the input to Parquet"), None)
+        self.notes.append(f"(d) cannot come much below (d0) + (d1) = {written.ratio + binning.ratio:.2f}: writing "
+                          "the scored rows costs (d0) and finding the bins costs (d1) before any label, points, "
+                          "score or reason is made")
         self.engine.execute(self.sql(exp.Drop(tables=[queries.relation(SCORED_ROWS)], kind="TABLE")),
                             "dropping the scored rows")
         scored_file.unlink(missing_ok=True)
@@ -320,7 +334,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
 
     >>> report = run_bench(BenchSettings(rows=2_000, repeat=1, skip_memory=True))
     >>> [line.key for line in report.lines]
-    ['a', 'b', 'a+', 'a-r', 'c', 'd', 'd0', 'f']
+    ['a', 'b', 'a+', 'a-r', 'a0', 'c', 'd', 'd0', 'd1', 'f']
     """
     _check_settings(settings)
     observer = observer or _Silent()
