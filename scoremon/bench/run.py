@@ -1,7 +1,7 @@
 """The benchmark run: generate the rows, time each comparison side by side, measure memory.
 
-Five comparisons, each a ratio of two timings taken in turns in this one run (see
-:mod:`scoremon.bench.timing`), each with the goal the project set:
+Comparisons, each a ratio of two timings taken in turns in this one run (see
+:mod:`scoremon.bench.timing`), six with the goal the project set and some for information:
 
 (a) compiled scoring ÷ a bare scan of the same columns                          goal ≤ 6
 (b) compiled scoring ÷ a hand-written CASE chain                                goal ≤ 1.0
