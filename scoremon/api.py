@@ -20,11 +20,10 @@ from typing import Sequence
 from sqlglot import exp
 
 from .compiler import compile_model, output_columns
-from .trees import identifier
 from .dialects import render_sql
 from .diff import DiffReport, Impact, ModelDiff, diff_models, impact_query, summarise_impact
 from .diff.impact import check_outcome_type
-from .engines import Column, DuckDBEngine, Engine, Progress, open_engine
+from .engines import Column, Engine, Progress, open_engine
 from .engines.protocol import INTEGER, TEXT
 from .errors import InputError
 from .monitor import (
@@ -43,11 +42,13 @@ from .monitor import (
     write_history,
 )
 from .monitor.measure import monitored_relation
-from .monitor.queries import fingerprints_pass, is_scored, months_in
+from .monitor.passes import fingerprint_rows
+from .monitor.queries import is_scored, months_in
 
 from .spec import fingerprint, load_spec, parse_spec
 from .spec.checks import suggest
 from .spec.model import Baseline, CategoricalFeature, Spec
+from .trees import alias, column, table_path
 
 __all__ = ["DiffReport", "Impact", "ModelDiff", "MonitorReport", "ScoreResult", "Thresholds", "compile_sql",
            "describe_source", "diff_models", "load_spec", "load_thresholds", "measure_development", "measure_impact",
@@ -66,8 +67,7 @@ def source_relation(table: str | None = None, file: str | Path | None = None) ->
     if (table is None) == (file is None):
         raise InputError("give either a table or a file to read, not both and not neither")
     if table is not None:
-        parts = table_name(table)
-        return exp.Table(this=identifier(parts[-1]), db=identifier(parts[0]) if len(parts) == 2 else None)
+        return table_path(table_name(table))
     path = Path(file)
     if not path.exists():
         raise InputError(f"{path}: no such file; check the path")
@@ -96,14 +96,13 @@ def check_columns(spec: Spec, columns: dict[str, Column], keys: Sequence[str]) -
         if key not in columns:
             problems.append(f"key column {key!r} is not in the input{suggest(key, list(columns))}")
     for feature in spec.features:
-        name = feature.column or feature.name
+        name = feature.source_column
         found = columns.get(name)
         if found is None:
             problems.append(f"column {name!r} (feature {feature.name!r}) is not in the input{suggest(name, list(columns))}")
             continue
         if isinstance(feature, CategoricalFeature):
-            values = [v for g in feature.groups for v in g.values] + list(feature.other.values)
-            wants_text = any(isinstance(v, str) for v in values)
+            wants_text = any(isinstance(v, str) for v in feature.listed_values)
             if wants_text and found.kind != TEXT:
                 problems.append(f"column {name!r} (feature {feature.name!r}) is {found.type_name} but the spec lists "
                                 "text categories; convert the column to text or list the categories as whole numbers")
@@ -153,7 +152,7 @@ def score(
     """
     if (out_table is None) == (out_file is None):
         raise InputError("give either an output table or an output file, not both and not neither")
-    if not isinstance(source, exp.Table) and not isinstance(engine, DuckDBEngine):
+    if not isinstance(source, exp.Table) and not engine.reads_files:
         raise InputError(f"reading a Parquet or CSV file needs the DuckDB engine, not {engine.dialect}; "
                          "load the file into a table in that engine and score the table")
     columns = describe_source(engine, source)
@@ -164,16 +163,14 @@ def score(
     scoring = compile_model(spec, source, keys, float_columns(columns))
     started = time.perf_counter()
     if out_table is not None:
-        sql = render_sql(scoring, engine.dialect, pretty=False)
         parts = table_name(out_table)
-        engine.write_table(sql, parts, "writing the scored table", progress)
-        written = exp.Table(this=identifier(parts[-1]), db=identifier(parts[0]) if len(parts) == 2 else None)
+        engine.write_table(scoring, parts, "writing the scored table", progress)
+        written = table_path(parts)
         target = out_table
     else:
-        if not isinstance(engine, DuckDBEngine):
+        if not engine.writes_parquet:
             raise InputError("writing a Parquet file needs the DuckDB engine; write a table instead")
-        engine.write_parquet(render_sql(scoring, engine.dialect, pretty=False, for_parquet=True), out_file,
-                             "writing the scored Parquet file", progress)
+        engine.write_parquet(scoring, out_file, "writing the scored Parquet file", progress)
         written = source_relation(file=out_file)
         target = str(out_file)
     seconds = time.perf_counter() - started
@@ -184,10 +181,10 @@ def score(
 
 def grade_counts(engine: Engine, scored: exp.Expression) -> dict[str, int]:
     """Rows per grade in a scored relation, ordered by grade name."""
-    grade = exp.column(identifier("grade"))
-    query = exp.select(grade, exp.Count(this=exp.Star())).from_(scored.copy()).group_by(grade).order_by(grade)
-    rows = engine.fetch(render_sql(query, engine.dialect, pretty=False), "counting rows per grade")
-    return {str(g): int(n) for g, n in rows}
+    grade = column("grade")
+    query = (exp.select(grade, alias(exp.Count(this=exp.Star()), "rows")).from_(scored.copy())
+             .group_by(grade.copy()).order_by(grade.copy()))
+    return {str(row.grade): int(row.rows) for row in engine.query(query, "counting rows per grade")}
 
 
 def measure_impact(
@@ -210,7 +207,9 @@ def measure_impact(
 
     >>> engine = open_engine()
     >>> spec = load_spec("tests/fixtures/small.yaml")
-    >>> engine.execute("CREATE TABLE book AS SELECT 30.0 AS age, 'N1' AS region_code, 0.5 AS utilisation", "demo")
+    >>> from scoremon.trees import alias, number, text
+    >>> engine.write_table(exp.select(alias(number(30), "age"), alias(text("N1"), "region_code"),
+    ...                               alias(number(0.5), "utilisation")), ["book"], "demo")
     >>> measure_impact(spec, spec, engine, source_relation(table="book")).score_change.rows_unchanged
     1
     """
@@ -230,9 +229,8 @@ def measure_impact(
         raise InputError("the input does not fit the specs:\n" + "\n".join(f"  - {p}" for p in problems))
     cutoffs = None if cutoff is None else (float(cutoff), float(cutoff if new_cutoff is None else new_cutoff))
     query = impact_query(old, new, source, float_columns(columns), outcome, outcome_is_boolean, cutoffs)
-    rows = engine.fetch(render_sql(query.tree, engine.dialect, pretty=False),
-                        "scoring the population under both versions", progress)
-    return summarise_impact(query.columns, rows, old, new, population, outcome, cutoffs)
+    rows = engine.query(query.tree, "scoring the population under both versions", progress)
+    return summarise_impact(rows, old, new, population, outcome, cutoffs)
 
 
 
@@ -245,10 +243,8 @@ def _monitored(spec: Spec, engine: Engine, source: exp.Expression, month_column:
     notes = []
     if is_scored(spec, columns):
         if "model_fingerprint" in columns:
-            found = engine.fetch(render_sql(fingerprints_pass(source), engine.dialect, pretty=False),
-                                 "reading the scored table's model fingerprints")
             expected = fingerprint(spec)
-            others = sorted(str(fp) for fp, _ in found if fp != expected)
+            others = sorted(fp for fp in fingerprint_rows(engine, source) if fp != expected)
             if others:
                 raise InputError(f"the table was scored by a model with fingerprint {', '.join(others)}, not by "
                                  f"{spec.model.name} version {spec.model.version} ({expected}); score it with this "
