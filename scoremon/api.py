@@ -158,7 +158,7 @@ def score(
     columns = describe_source(engine, source)
     problems = check_columns(spec, columns, keys)
     if problems:
-        raise InputError("the input does not fit the spec:\n" + "\n".join(f"  - {p}" for p in problems))
+        raise InputError("the input does not fit the spec", problems)
     output_columns(spec, keys)  # a key colliding with an output column is an input error, found now
     scoring = compile_model(spec, source, keys, float_columns(columns))
     started = time.perf_counter()
@@ -226,10 +226,10 @@ def measure_impact(
         except InputError as error:
             problems.append(str(error))
     if problems:
-        raise InputError("the input does not fit the specs:\n" + "\n".join(f"  - {p}" for p in problems))
+        raise InputError("the input does not fit the specs", problems)
     cutoffs = None if cutoff is None else (float(cutoff), float(cutoff if new_cutoff is None else new_cutoff))
     query = impact_query(old, new, source, float_columns(columns), outcome, outcome_is_boolean, cutoffs)
-    rows = engine.query(query.tree, "scoring the population under both versions", progress)
+    rows = engine.query(query, "scoring the population under both versions", progress)
     return summarise_impact(rows, old, new, population, outcome, cutoffs)
 
 
@@ -254,8 +254,7 @@ def _monitored(spec: Spec, engine: Engine, source: exp.Expression, month_column:
     else:
         problems = check_columns(spec, columns, ())
         if problems:
-            raise InputError("the table is neither scored by this spec nor has the columns to score it:\n"
-                             + "\n".join(f"  - {p}" for p in problems))
+            raise InputError("the table is neither scored by this spec nor has the columns to score it", problems)
         notes.append("the table is scored on the fly by the compiled scoring SQL")
     return monitored_rows(spec, source, columns, month_column, outcome, float_columns(columns)), notes
 

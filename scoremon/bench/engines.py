@@ -17,7 +17,6 @@ the plan copied them.
 from __future__ import annotations
 
 import re
-from contextlib import nullcontext
 from dataclasses import dataclass
 from typing import Sequence
 
@@ -29,7 +28,7 @@ from ..engines.protocol import INTEGER, NUMERIC, TEXT
 from ..errors import InputError
 from ..trees import alias, column, table_path, text
 from . import queries, workload
-from .run import BenchLine, BenchObserver, BenchReport
+from .run import BenchLine, BenchObserver, BenchReport, SilentObserver
 from .timing import time_pair
 
 TABLE = "scoremon_bench_input"
@@ -56,7 +55,7 @@ def run_engine_bench(settings: EngineBenchSettings, observer: BenchObserver | No
     """
     if settings.rows < 1 or settings.repeat < 1:
         raise InputError("rows and repeat must be at least 1")
-    observer = observer or _Quiet()
+    observer = observer or SilentObserver()
     spec = workload.bench_spec()
     lines: list[BenchLine] = []
     notes: list[str] = []
@@ -81,16 +80,6 @@ def run_engine_bench(settings: EngineBenchSettings, observer: BenchObserver | No
                         engine.execute(exp.Drop(tables=[table_path([TABLE])], kind="TABLE", exists=True),
                                        "dropping the bench rows")
     return BenchReport(settings.rows, threads, settings.repeat, tuple(lines), tuple(notes))
-
-
-class _Quiet:
-    """An observer that shows nothing (library use, tests)."""
-
-    def stage(self, description: str):
-        return nullcontext(None)
-
-    def measured(self, line: BenchLine) -> None:
-        pass
 
 
 def _columns(engine: Engine) -> list[tuple[str, str]]:

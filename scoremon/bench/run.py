@@ -120,7 +120,7 @@ class BenchObserver(Protocol):
     def measured(self, line: BenchLine) -> None: ...
 
 
-class _Silent:
+class SilentObserver:
     """An observer that shows nothing (library use, tests)."""
 
     def stage(self, description: str):
@@ -332,7 +332,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
     ['a', 'b', 'a+', 'a-r', 'a0', 'c', 'd', 'd0', 'd1', 'f']
     """
     _check_settings(settings)
-    observer = observer or _Silent()
+    observer = observer or SilentObserver()
     parent = Path(settings.folder) if settings.folder else None
     if parent is not None:
         parent.mkdir(parents=True, exist_ok=True)

@@ -207,14 +207,6 @@ def _inputs(spec: Spec) -> list[str]:
     return list(dict.fromkeys(f.source_column for f in spec.features))
 
 
-@dataclass(frozen=True)
-class ImpactQuery:
-    """The query and the names of the columns it returns, in order."""
-
-    tree: exp.Select
-    columns: tuple[str, ...]
-
-
 def impact_query(
     old: Spec,
     new: Spec,
@@ -223,7 +215,7 @@ def impact_query(
     outcome: str | None = None,
     outcome_is_boolean: bool = False,
     cutoffs: tuple[float, float] | None = None,
-) -> ImpactQuery:
+) -> exp.Select:
     """The one query that scores ``source`` under both versions and aggregates the pairs.
 
     ``float_columns`` names the source's FLOAT/DOUBLE columns (the others need no NaN test).
@@ -374,7 +366,7 @@ def impact_query(
     query = _over([alias(e, n) for n, e in selected], cells, "cells")
     sets = [exp.Tuple(expressions=[])] + [exp.Tuple(expressions=[column(n) for n in names]) for names in groups.values()]
     query.set("group", exp.Group(grouping_sets=[exp.GroupingSets(expressions=sets)]))
-    return ImpactQuery(query, tuple(n for n, _ in selected))
+    return query
 
 
 def _band(change: exp.Expression, steps: Sequence[float], unchanged: float) -> exp.Expression:

@@ -203,10 +203,6 @@ def _change(actual: float | None, expected: float | None) -> float | None:
     return None if actual is None or expected is None else actual - expected
 
 
-def _abs(value: float | None) -> float | None:
-    return None if value is None else abs(value)
-
-
 @dataclass
 class _Passes:
     """The bins, calibration and discrimination results, keyed by month."""
