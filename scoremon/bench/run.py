@@ -34,6 +34,7 @@ from .. import api
 from ..compiler import compile_model, output_columns
 from ..engines import DuckDBEngine, Progress, Row, Statement
 from ..errors import InputError
+from ..sources import describe_source, float_columns
 from ..spec.model import Spec
 from ..trees import alias, case, column, integer, text
 from . import queries, workload
@@ -164,8 +165,8 @@ class _Bench:
         with self.observer.stage(f"generating {self.settings.rows:,} rows") as progress:
             self.engine.write_table(workload.generate_rows(self.settings.rows), [TABLE],
                                     "generating the bench rows", progress)
-        columns = api.describe_source(self.engine, queries.relation(TABLE))
-        self.floats = api.float_columns(columns)
+        columns = describe_source(self.engine, queries.relation(TABLE))
+        self.floats = float_columns(columns)
         self.scoring = compile_model(self.spec, queries.relation(TABLE), (), self.floats)
         self.binning_sql = self.sql(queries.binning_only(self.scoring))  # lines (a0) and (d1)
 
@@ -245,9 +246,9 @@ class _Bench:
         into a table (month and outcome kept as keys)."""
         with self.observer.stage("giving the bench rows months and outcomes") as progress:
             self.engine.write_table(_book(TABLE), [BOOK], "adding months and outcomes", progress)
-        columns = api.describe_source(self.engine, queries.relation(BOOK))
+        columns = describe_source(self.engine, queries.relation(BOOK))
         scoring = self.sql(compile_model(self.spec, queries.relation(BOOK), ("month", "outcome"),
-                                         api.float_columns(columns)))
+                                         float_columns(columns)))
 
         def score():
             self.engine.write_table(scoring, [SCORED_BOOK], "scoring the bench book")
