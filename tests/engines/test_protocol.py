@@ -7,7 +7,7 @@ import pytest
 from sqlglot import exp
 
 from scoremon import api, cli
-from scoremon.dialects import table_path
+from scoremon.trees import table_path
 from scoremon.engines import open_engine
 from scoremon.engines.spark import spark_master
 from scoremon.errors import EngineError, InputError

@@ -1,4 +1,4 @@
-"""The one place a sqlglot tree becomes SQL text, and the list of engines we render for.
+"""The one place a sqlglot tree becomes SQL text.
 
 Per-dialect adjustments live here and nowhere else, so the compiler's tree stays neutral. Each
 adjustment rewrites a copy of the tree just before sqlglot renders it:
@@ -46,30 +46,9 @@ from typing import Callable, Sequence
 from sqlglot import exp
 from sqlglot.errors import ErrorLevel
 
-from .errors import InputError
-from .trees import table_path
-
-# dialect name → whether the test suite runs the rendered SQL on a real engine
-DIALECTS: dict[str, bool] = {
-    "duckdb": True,
-    "postgres": True,
-    "spark": True,
-    "snowflake": False,
-    "bigquery": False,
-    "trino": False,
-    "tsql": False,
-}
-
-# The portable column kinds engines can create tables with (see Engine.write_rows).
-COLUMN_KINDS = ("DOUBLE", "BIGINT", "VARCHAR", "BOOLEAN", "DATE")
-
-
-def dialects_help() -> str:
-    """One line for ``--help``: which dialects run in the tests and which are only rendered."""
-    run = ", ".join(name for name, tested in DIALECTS.items() if tested)
-    rendered = ", ".join(name for name, tested in DIALECTS.items() if not tested)
-    return f"{run} (run on real engines in the tests); {rendered} (rendered only, not run in the tests)"
-
+from ..errors import InputError
+from ..trees import table_path
+from . import COLUMN_KINDS, DIALECTS
 
 def render_sql(tree: exp.Expression, dialect: str = "duckdb", pretty: bool = True, for_parquet: bool = False) -> str:
     """SQL text for ``dialect`` with every identifier quoted.
