@@ -111,25 +111,27 @@ def _postgres(node: exp.Expression) -> exp.Expression:
     return node
 
 
-def _bigquery(node: exp.Expression) -> exp.Expression:
+def _is_nan_or_infinity(node: exp.Expression, infinity: Callable[[bool], exp.Expression]) -> exp.Expression:
+    """The compiler's odd-double test as ``IS_NAN(x)``, or ``x = infinity(positive)``."""
     test = _odd_double_test(node)
     if test is None:
         return node
     x, name = test
     if name == "NaN":
         return exp.IsNan(this=x)
-    return exp.EQ(this=x, expression=_double_from_text("inf" if name == "Infinity" else "-inf"))
+    return exp.EQ(this=x, expression=infinity(name == "Infinity"))
+
+
+def _bigquery(node: exp.Expression) -> exp.Expression:
+    return _is_nan_or_infinity(node, lambda positive: _double_from_text("inf" if positive else "-inf"))
 
 
 def _trino(node: exp.Expression) -> exp.Expression:
-    test = _odd_double_test(node)
-    if test is None:
-        return node
-    x, name = test
-    if name == "NaN":
-        return exp.IsNan(this=x)
-    infinity = exp.Anonymous(this="INFINITY", expressions=[])
-    return exp.EQ(this=x, expression=infinity if name == "Infinity" else exp.Neg(this=infinity))
+    def infinity(positive: bool) -> exp.Expression:
+        value = exp.Anonymous(this="INFINITY", expressions=[])
+        return value if positive else exp.Neg(this=value)
+
+    return _is_nan_or_infinity(node, infinity)
 
 
 def _snowflake(node: exp.Expression) -> exp.Expression:
