@@ -55,7 +55,7 @@ def measure_impact(
         try:
             outcome_is_boolean = check_outcome_type(outcome, columns)
         except InputError as error:
-            problems.append(str(error))
+            problems.append(error.message)
     if problems:
         raise InputError("the input does not fit the specs", problems)
     cutoffs = None if cutoff is None else (float(cutoff), float(cutoff if new_cutoff is None else new_cutoff))
