@@ -15,6 +15,7 @@ from .bench import BenchSettings, run_bench
 from .bench.engines import EngineBenchSettings, run_engine_bench
 from .dialects import DIALECTS, dialects_help
 from .engines import ENGINE_URLS
+from .engines.urls import redact
 from .errors import InputError, ScoremonError, SpecError
 from .report import terminal
 from .report.json import to_json
@@ -110,7 +111,7 @@ def _diff(args) -> int:
         engine = api.open_engine(args.db)
         try:
             source = api.source_relation(table=args.table, file=args.input)
-            where = f"table {args.table} in {args.db}" if args.table is not None else f"file {args.input}"
+            where = f"table {args.table} in {redact(args.db)}" if args.table is not None else f"file {args.input}"
             with terminal.progress_bar("scoring both versions") as progress:
                 impact = api.measure_impact(old, new, engine, source, where, args.outcome, args.cutoff,
                                             args.new_cutoff, progress)
