@@ -7,10 +7,25 @@ Python exceptions. The hierarchy::
     ├── SpecError                 a spec file is unreadable or invalid; carries every problem
     ├── InputError                a table, file or column does not fit the spec
     └── EngineError               the database refused a query; names the purpose and engine
+
+:func:`cut` is how every message shows a value it quotes: long values are cut, so that one
+hostile value (a number 5,000 digits long) cannot turn a message into a page.
 """
 from __future__ import annotations
 
 from dataclasses import dataclass
+
+
+SHOWN_LENGTH = 80  # characters of a value a message shows
+
+
+def cut(text: str, length: int = SHOWN_LENGTH) -> str:
+    """``text`` itself, or its first ``length`` − 1 characters and "…" when it is longer.
+
+    >>> cut("1" * 100, 10)
+    '111111111…'
+    """
+    return text if len(text) <= length else text[:length - 1] + "…"
 
 
 class ScoremonError(Exception):

@@ -85,6 +85,8 @@ def _is_running(pid: int) -> bool:
 def atomic_output(path: str | Path) -> Iterator[Path]:
     """Yield a partial file to write; on success it replaces ``path`` whole, on failure it is removed.
 
+    An :class:`OSError` on the way (a full disk) becomes an :class:`InputError` naming ``path``.
+
     >>> import tempfile
     >>> target = Path(tempfile.mkdtemp()) / "out.txt"
     >>> with atomic_output(target) as partial:
@@ -100,6 +102,10 @@ def atomic_output(path: str | Path) -> Iterator[Path]:
         _sync(partial)
         os.replace(partial, target)
         _sync_folder(target.parent)
+    except OSError as error:
+        # a full disk, a lost permission: the user can act on it, and nothing was written
+        raise InputError(f"cannot write {target}: {error.strerror or error}; nothing was written (an earlier "
+                         f"{target.name} is unchanged)") from error
     finally:
         if partial.exists():
             partial.unlink()

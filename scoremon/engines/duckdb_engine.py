@@ -1,11 +1,10 @@
 """DuckDB, embedded: a database file or memory, with Parquet/CSV read in place.
 
-Implements the :class:`~scoremon.engines.Engine` protocol, plus :meth:`DuckDBEngine.write_parquet`
-and a progress watcher (DuckDB reports the running query's progress to a second thread).
+Implements the :class:`~scoremon.engines.Engine` protocol, plus :meth:`DuckDBEngine.write_file`
+(Parquet or CSV, written atomically through :mod:`scoremon.files`) and a progress watcher (DuckDB reports the running query's progress to a second thread).
 """
 from __future__ import annotations
 
-import os
 import threading
 import uuid
 from pathlib import Path
@@ -16,6 +15,7 @@ import pandas as pd
 
 from ..dialects import render_table
 from ..errors import EngineError, InputError
+from ..files import atomic_output
 from .protocol import ColumnSpec, Progress
 from .rows import arrow_table
 
@@ -105,17 +105,21 @@ class DuckDBEngine:
 
     def write_parquet(self, sql: str, path: str | Path, purpose: str, progress: Progress | None = None) -> None:
         """Write the result of ``sql`` to a Parquet file; the file appears whole or not at all."""
+        self.write_file(sql, path, purpose, progress, "parquet")
+
+    def write_file(self, sql: str, path: str | Path, purpose: str, progress: Progress | None = None,
+                   file_format: str = "parquet") -> None:
+        """Write the result of ``sql`` to a ``parquet`` or ``csv`` (with a header) file, through
+        :func:`scoremon.files.atomic_output`: the file appears whole or not at all."""
+        options = {"parquet": "FORMAT PARQUET", "csv": "FORMAT CSV, HEADER"}.get(file_format)
+        if options is None:
+            raise InputError(f"cannot write {file_format!r} files; write parquet or csv")
         path = Path(path)
         if not path.parent.exists():
             raise InputError(f"{path}: folder {path.parent} does not exist; create it or choose another path")
-        temporary = path.with_name(f".{path.name}.{uuid.uuid4().hex}.partial")
-        literal = "'" + str(temporary).replace("'", "''") + "'"
-        try:
-            self._run(lambda: self.connection.execute(f"COPY ({sql}) TO {literal} (FORMAT PARQUET)"), purpose, progress)
-            os.replace(temporary, path)
-        finally:
-            if temporary.exists():
-                temporary.unlink()
+        with atomic_output(path) as partial:
+            literal = "'" + str(partial).replace("'", "''") + "'"
+            self._run(lambda: self.connection.execute(f"COPY ({sql}) TO {literal} ({options})"), purpose, progress)
 
     def close(self) -> None:
         self.connection.close()
@@ -130,6 +134,12 @@ class DuckDBEngine:
             return work()
         except self._duckdb.Error as error:
             raise EngineError(purpose, "duckdb", str(error).splitlines()[0]) from error
+        except RuntimeError as error:
+            # DuckDB swallows the KeyboardInterrupt of a Ctrl-C that stops a running query and
+            # raises RuntimeError("Query interrupted") instead: give the interrupt back
+            if str(error).strip() == "Query interrupted":
+                raise KeyboardInterrupt from error
+            raise
         finally:
             if watcher:
                 watcher.stop()

@@ -29,6 +29,20 @@ from . import queries
 from .queries import MonitoredRows
 from .statistics import HistogramSums, discrimination
 
+# Below this many development rows `scoremon baseline` warns. With 1,000 rows a 5 % bin holds
+# about 50 rows, and the baseline's own sampling noise in a PSI over ten score bands,
+# (1/M)·χ²(9, 0.95) = 0.017, stays well below the 0.10 watch level; with fewer rows it takes a
+# growing part of every month's PSI (Yurdakul & Naranjo 2020 for the critical value).
+MINIMUM_BASELINE_ROWS = 1_000
+
+
+def small_baseline_warning(rows: int) -> str | None:
+    """The warning for a baseline measured on fewer than :data:`MINIMUM_BASELINE_ROWS` rows, or None."""
+    if rows >= MINIMUM_BASELINE_ROWS:
+        return None
+    return (f"warning: the baseline rests on {rows:,} rows, fewer than {MINIMUM_BASELINE_ROWS:,}; its own sampling "
+            "noise will show in every PSI; measure it on more development rows")
+
 
 @dataclass(frozen=True)
 class BinLabel:

@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 from sklearn.metrics import roc_auc_score
 
-from scoremon import api
+from scoremon import api, files
 from scoremon.errors import InputError
 from scoremon.spec import fingerprint, load_spec
 from tests.monitor.book import SPEC_PATH, load_book, make_book
@@ -116,8 +116,8 @@ def test_no_partial_file_is_left_when_writing_fails(engine, development, tmp_pat
     def refuse(*args):
         raise OSError("disk full")
 
-    monkeypatch.setattr(api.os, "replace", refuse)
-    with pytest.raises(OSError):
+    monkeypatch.setattr(files.os, "replace", refuse)
+    with pytest.raises(InputError, match="cannot write .*out.yaml: disk full; nothing was written"):
         api.write_spec_with_baseline(SPEC_PATH, baseline, tmp_path / "out.yaml")
     assert list(tmp_path.iterdir()) == []
 
