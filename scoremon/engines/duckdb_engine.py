@@ -66,31 +66,12 @@ class DuckDBEngine:
         """Replace ``table`` with the result of ``sql`` in one transaction: all or nothing."""
         statement = f"CREATE OR REPLACE TABLE {render_table(table, self.dialect)} AS {sql}"
 
-        def work():
-            self.connection.execute("BEGIN TRANSACTION")
-            try:
-                self.connection.execute(statement)
-                self.connection.execute("COMMIT")
-            except BaseException:
-                self.connection.execute("ROLLBACK")
-                raise
-
-        self._run(work, purpose, progress)
+        self._run(lambda: self._in_transaction([statement]), purpose, progress)
 
     def execute_atomically(self, statements: Sequence[str], purpose: str) -> None:
         """Run ``statements`` in one transaction: all take effect, or (on any error) none."""
 
-        def work():
-            self.connection.execute("BEGIN TRANSACTION")
-            try:
-                for statement in statements:
-                    self.connection.execute(statement)
-                self.connection.execute("COMMIT")
-            except BaseException:
-                self.connection.execute("ROLLBACK")
-                raise
-
-        self._run(work, purpose)
+        self._run(lambda: self._in_transaction(statements), purpose)
 
     def write_rows(self, table: list[str], columns: Sequence[ColumnSpec], rows: Sequence[Sequence[Any]],
                    purpose: str) -> None:
@@ -125,6 +106,21 @@ class DuckDBEngine:
         self.connection.close()
 
     # -- helpers
+
+    def _in_transaction(self, statements: Sequence[str]) -> None:
+        self.connection.execute("BEGIN TRANSACTION")
+        try:
+            for statement in statements:
+                self.connection.execute(statement)
+            self.connection.execute("COMMIT")
+        except BaseException:
+            try:
+                self.connection.execute("ROLLBACK")
+            except self._duckdb.Error:
+                # a COMMIT that failed (a full disk) has already ended the transaction, and the
+                # ROLLBACK's "no transaction is active" would hide the first cause: show that one
+                pass
+            raise
 
     def _run(self, work, purpose: str, progress: Progress | None = None):
         watcher = _ProgressWatcher(self.connection, progress) if progress else None
