@@ -17,6 +17,7 @@ from typing import Any
 import yaml
 
 from ..errors import InputError
+from ..spec import limits
 
 OK, WATCH, ALERT = "ok", "watch", "alert"
 STATUS_ORDER = {None: 0, OK: 1, WATCH: 2, ALERT: 3}
@@ -134,13 +135,18 @@ def load_thresholds(path: str | Path | None) -> Thresholds:
         return DEFAULT_THRESHOLDS
     path = Path(path)
     try:
+        limits.check_file_size(path)
         text = path.read_text(encoding="utf-8")
+    except limits.LimitError as error:
+        raise InputError(f"{path}:{error.line}:{error.column}: {error}") from None
     except FileNotFoundError:
         raise InputError(f"{path}: no such thresholds file; check the path") from None
     except OSError as error:
         raise InputError(f"{path}: cannot read the thresholds file ({error.strerror})") from None
     try:
-        data = yaml.safe_load(text)
+        data = limits.load(text)
+    except limits.LimitError as error:
+        raise InputError(f"{path}:{error.line}:{error.column}: {error}") from None
     except yaml.YAMLError as error:
         mark = getattr(error, "problem_mark", None)
         where = f"{path}:{mark.line + 1}:{mark.column + 1}" if mark else str(path)
