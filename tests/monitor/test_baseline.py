@@ -46,7 +46,7 @@ def test_score_bands_are_deciles_of_the_development_score(engine, development):
     bands = baseline.score_bands
     assert len(bands) == 10 and bands[0].lower == -math.inf and bands[-1].upper == math.inf
     assert all(a.upper == b.lower for a, b in zip(bands, bands[1:]))
-    api.score(spec, engine, api.source_relation(table="development"), out_table="scored")
+    api.score(spec, engine, api.source_relation(table="development"), out_table="scored", replace=True)
     scores = np.sort(np.array([r[0] for r in engine.fetch('SELECT score FROM "scored"', "scores")]))
     for k, band in enumerate(bands[1:], start=1):
         # the edge is the lowest score with at least k/10 of the rows strictly below it
