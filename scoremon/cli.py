@@ -11,7 +11,7 @@ import argparse
 import sys
 import tempfile
 import traceback
-from datetime import datetime, timezone
+from datetime import date, datetime, timezone
 from pathlib import Path
 
 from . import api, files, outputs
@@ -21,6 +21,7 @@ from .dialects import DIALECTS, dialects_help
 from .engines import ENGINE_URLS
 from .engines.urls import redact
 from .monitor.baseline import small_baseline_warning
+from .monitor.months import out_of_range_note
 from .errors import InputError, ScoremonError, SpecError, cut
 from .report import terminal
 from .report.json import to_json
@@ -174,6 +175,8 @@ def _baseline(args) -> int:
     warning = small_baseline_warning(baseline.rows)
     if warning:
         terminal.print_problems([warning])
+    if baseline.rows_out_of_range:
+        terminal.print_problems([f"note: {out_of_range_note(baseline.rows_out_of_range, date.today())}"])
     return EXIT_OK
 
 
