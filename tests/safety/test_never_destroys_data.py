@@ -118,7 +118,8 @@ def test_baseline_never_writes_over_the_database_file(tmp_path, capsys):
 def test_reports_never_write_over_the_spec(command, capsys):
     before = SPEC.read_bytes()
     assert main(command + [str(SPEC), "--replace"]) == 2
-    assert "is the" in capsys.readouterr().err and "spec" in capsys.readouterr().err + "spec"
+    err = capsys.readouterr().err
+    assert f"{SPEC} is the" in err and "spec; scoremon never writes over its input" in err
     assert SPEC.read_bytes() == before
 
 
@@ -196,7 +197,8 @@ def test_an_existing_output_table_needs_replace(database, capsys):
 def test_an_empty_input_never_replaces_an_output_unless_asked(database, tmp_path, capsys):
     out = existing(tmp_path / "scores.parquet")
     assert score(database, "--table", "empty_book", "--out", str(out), "--replace") == 2
-    assert "the input holds no rows" in capsys.readouterr().err and "--allow-empty" in capsys.readouterr().err + "--allow-empty"
+    err = capsys.readouterr().err
+    assert "the input holds no rows" in err and "give --allow-empty to write it anyway" in err
     assert out.read_text() == "the previous output"
     assert score(database, "--table", "empty_book", "--out", str(out), "--replace", "--allow-empty") == 0
     assert len(pd.read_parquet(out)) == 0
