@@ -63,7 +63,8 @@ def _score(args) -> int:
                                                          *outputs.kept_database(args.db)])
     spec = api.load_spec(args.spec)
     source = api.source_relation(table=args.table, file=args.input)
-    outputs.require_database_file(args.db)
+    if args.input is None or args.out_table is None:  # only writing a table may start a new database
+        outputs.require_database_file(args.db)
     engine = api.open_engine(args.db, threads=args.threads)
     try:
         with terminal.progress_bar("scoring") as progress:

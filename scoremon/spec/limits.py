@@ -85,22 +85,20 @@ def compose(text: str) -> yaml.Node | None:
     Raises :class:`LimitError` when a limit is passed and :class:`yaml.YAMLError` when the text
     is not YAML.
     """
-    if len(text) > MAX_FILE_BYTES:
-        raise LimitError(1, 1, _too_large())
-    loader = _LimitedLoader(text)
-    try:
-        return loader.get_single_node()
-    finally:
-        loader.dispose()
+    return _read(text, lambda loader: loader.get_single_node())
 
 
 def load(text: str) -> Any:
     """Plain Python data from ``text`` by YAML's safe rules, within the limits (as :func:`compose`)."""
+    return _read(text, lambda loader: loader.get_single_data())
+
+
+def _read(text: str, take):
     if len(text) > MAX_FILE_BYTES:
         raise LimitError(1, 1, _too_large())
     loader = _LimitedLoader(text)
     try:
-        return loader.get_single_data()
+        return take(loader)
     finally:
         loader.dispose()
 

@@ -277,3 +277,12 @@ def test_partial_files_of_dead_runs_are_removed_by_the_next_write(database, tmp_
     assert score(database, "--table", "book", "--out", str(tmp_path / "scores.parquet")) == 0
     assert not stale.exists()
     assert alive.exists()
+
+
+def test_scoring_a_file_into_a_table_may_start_a_new_database(tmp_path):
+    # writing a table is not a read: --input FILE --out-table T may create the database file
+    data = tmp_path / "book.csv"
+    pd.DataFrame(BOOK_ROWS, columns=["age", "region_code", "utilisation"]).to_csv(data, index=False)
+    database = tmp_path / "new.duckdb"
+    assert main(["score", str(SPEC), "--db", str(database), "--input", str(data), "--out-table", "scores"]) == 0
+    assert len(rows(database, "scores")) == len(BOOK_ROWS)
