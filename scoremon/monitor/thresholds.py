@@ -16,7 +16,7 @@ from typing import Any
 
 import yaml
 
-from ..errors import InputError
+from ..errors import InputError, cut
 from ..spec import limits
 
 OK, WATCH, ALERT = "ok", "watch", "alert"
@@ -89,7 +89,7 @@ def thresholds_from_data(data: Any, where: str) -> Thresholds:
         if name not in NAMES:
             close = get_close_matches(str(name), NAMES, n=1)
             hint = f"; did you mean {close[0]!r}?" if close else f"; known names: {', '.join(NAMES)}"
-            problems.append(f"{where}: {name}: unknown threshold{hint}")
+            problems.append(f"{where}: {cut(str(name))}: unknown threshold{hint}")
             continue
         limit = getattr(DEFAULT_THRESHOLDS, name)
         if not isinstance(given, dict) or not given or set(given) - {"watch", "alert"}:
@@ -100,7 +100,7 @@ def thresholds_from_data(data: Any, where: str) -> Thresholds:
         for level in ("watch", "alert"):
             value = given.get(level, getattr(limit, level))
             if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
-                problems.append(f"{where}: {name}.{level}: {value!r} is not a number")
+                problems.append(f"{where}: {name}.{level}: {cut(repr(value))} is not a number")
             else:
                 levels[level] = float(value)
         if len(levels) < 2:

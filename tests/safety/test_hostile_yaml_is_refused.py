@@ -89,3 +89,14 @@ def test_a_number_5000_digits_long_is_cut_in_the_message(tmp_path, capsys):
     assert len(lines) == 1
     assert "intercept" in lines[0] and "…" in lines[0]
     assert len(lines[0]) < len(str(tmp_path)) + 200
+
+
+def test_long_values_in_a_thresholds_file_are_cut(tmp_path, capsys):
+    thresholds = tmp_path / "thresholds.yaml"
+    # a key longer than 1024 characters must be written as an explicit key (`? key`), YAML's rule
+    thresholds.write_text(f"score_psi: {{watch: '{'9' * 5000}'}}\n? {'k' * 5000}\n: {{watch: 1}}\n")
+    code = main(["monitor", "tests/fixtures/small.yaml", "--db", str(tmp_path / "none.duckdb"), "--table", "t",
+                 "--month-column", "m", "--thresholds", str(thresholds)])
+    lines = capsys.readouterr().err.strip().splitlines()
+    assert code == 2
+    assert len(lines) == 2 and all("…" in line and len(line) < len(str(thresholds)) + 300 for line in lines), lines
