@@ -18,12 +18,12 @@ from typing import Sequence
 
 from sqlglot import exp
 
+from . import files, outputs
 from .compiler import compile_model, identifier, output_columns
 from .dialects import render_sql
 from .diff import DiffReport, Impact, ModelDiff, diff_models, impact_query, summarise_impact
 from .diff.impact import check_outcome_type
 from .engines import DuckDBEngine, Engine, Progress, open_engine
-from . import files, outputs
 from .errors import EngineError, InputError
 from .monitor import (
     DEFAULT_THRESHOLDS,
@@ -173,7 +173,9 @@ def score(
         outputs.refuse_file(out_file, "--out", [("the input file", _source_file(source))])
         files.check_output(out_file, "--out", replace)
     else:
-        input_table = ".".join(p.name for p in (source.args.get("db"), source.this) if p) if isinstance(source, exp.Table) else None
+        input_table = None
+        if isinstance(source, exp.Table):
+            input_table = ".".join(part.name for part in (source.args.get("db"), source.this) if part)
         outputs.refuse_table(out_table, "--out-table", engine.dialect, input_table)
         if not replace and _table_exists(engine, out_table):
             raise InputError(f"--out-table {out_table} exists; give --replace to replace it, or choose another name")

@@ -20,9 +20,9 @@ from .bench.engines import EngineBenchSettings, run_engine_bench
 from .dialects import DIALECTS, dialects_help
 from .engines import ENGINE_URLS
 from .engines.urls import redact
+from .errors import InputError, ScoremonError, SpecError, cut
 from .monitor.baseline import small_baseline_warning
 from .monitor.months import out_of_range_note
-from .errors import InputError, ScoremonError, SpecError, cut
 from .report import terminal
 from .report.json import to_json
 from .report.markdown import diff_markdown

@@ -94,7 +94,8 @@ def history_ddl_text(dialect: str = "duckdb") -> str:
               "-- Generated from scoremon/monitor/history.py; regenerate with\n"
               "--   python -m scoremon.monitor.history > sql/monitor_history.sql\n"
               "-- Runs only ever add rows. status is ok, watch or alert; value is NULL when a figure\n"
-              "-- cannot be computed (no rows, no events).\n")
+              "-- cannot be computed (no rows, no events). month is empty for a figure of the whole run\n"
+              "-- (rows_out_of_range: rows whose month is out of range, left out).\n")
     return header + "\n" + "\n\n".join(render_sql(s, dialect) + ";" for s in create_statements()) + "\n"
 
 
