@@ -6,9 +6,11 @@ compiled SQL, the JSON Schema) goes through :func:`atomic_output`: the content i
 :func:`os.replace`, which is atomic on one file system. Any failure — a full disk, an engine
 error, Ctrl-C — removes the partial file and leaves the previous output untouched.
 
-A partial file is named ``.<target name>.scoremon-partial-<pid>-<random>``. A run killed
+A partial file is named ``.<target name>.scoremon-partial-<host>-<pid>-<random>``. A run killed
 outright (kill -9, a power cut) cannot remove its own, so every later write into the same
-folder removes the partial files whose process id no longer runs (:func:`remove_stale_partials`).
+folder removes the partial files of this host whose process id no longer runs
+(:func:`remove_stale_partials`); on a folder shared between machines, another host's partial
+files are left alone, since a process id means nothing here.
 
 Refusing to replace: an existing output is replaced only when the caller says so
 (``replace=True``; the command line's ``--replace``). :func:`check_output` is that check, run
@@ -18,6 +20,7 @@ from __future__ import annotations
 
 import os
 import re
+import socket
 import uuid
 from contextlib import contextmanager
 from pathlib import Path
@@ -26,7 +29,7 @@ from typing import Iterator
 from .errors import InputError
 
 PARTIAL_MARK = ".scoremon-partial-"
-_PARTIAL = re.compile(r"^\..+" + re.escape(PARTIAL_MARK) + r"(\d+)-[0-9a-f]+$")
+_PARTIAL = re.compile(r"^\..+" + re.escape(PARTIAL_MARK) + r"(.+)-(\d+)-[0-9a-f]+$")
 
 
 def is_same_file(a: str | Path, b: str | Path) -> bool:
@@ -58,11 +61,12 @@ def check_output(path: str | Path, option: str, replace: bool) -> Path:
 
 def partial_name(path: Path) -> Path:
     """The partial file a write to ``path`` goes through (see the module docstring)."""
-    return path.with_name(f".{path.name}{PARTIAL_MARK}{os.getpid()}-{uuid.uuid4().hex[:12]}")
+    return path.with_name(f".{path.name}{PARTIAL_MARK}{socket.gethostname()}-{os.getpid()}-{uuid.uuid4().hex[:12]}")
 
 
 def remove_stale_partials(folder: Path) -> list[Path]:
-    """Remove the partial files in ``folder`` left by processes that no longer run; return them."""
+    """Remove the partial files in ``folder`` left by processes of this host that no longer run; return them."""
+    host = socket.gethostname()
     removed = []
     try:
         names = [entry.name for entry in os.scandir(folder)]
@@ -70,7 +74,7 @@ def remove_stale_partials(folder: Path) -> list[Path]:
         return removed
     for name in names:
         match = _PARTIAL.match(name)
-        if match is None or _is_running(int(match.group(1))):
+        if match is None or match.group(1) != host or _is_running(int(match.group(2))):
             continue
         try:
             (folder / name).unlink()

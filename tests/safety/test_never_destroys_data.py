@@ -9,6 +9,7 @@ from __future__ import annotations
 import errno
 import os
 import shutil
+import socket
 import subprocess
 import sys
 from pathlib import Path
@@ -270,13 +271,17 @@ def test_a_full_disk_keeps_the_previous_file_and_leaves_no_partial(tmp_path, mon
 def test_partial_files_of_dead_runs_are_removed_by_the_next_write(database, tmp_path):
     dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True, text=True)
     dead_pid = int(dead.stdout)  # that process has exited
-    stale = tmp_path / f".scores.parquet{files.PARTIAL_MARK}{dead_pid}-0123456789ab"
+    host = socket.gethostname()
+    stale = tmp_path / f".scores.parquet{files.PARTIAL_MARK}{host}-{dead_pid}-0123456789ab"
     stale.write_bytes(b"half a file from a run killed with -9")
-    alive = tmp_path / f".other.parquet{files.PARTIAL_MARK}{os.getppid()}-0123456789ab"
+    alive = tmp_path / f".other.parquet{files.PARTIAL_MARK}{host}-{os.getppid()}-0123456789ab"
     alive.write_bytes(b"a write still running")
+    # a folder shared between machines: a process id means nothing on another host, so leave it
+    elsewhere = tmp_path / f".other.parquet{files.PARTIAL_MARK}other-host.example-{dead_pid}-0123456789ab"
+    elsewhere.write_bytes(b"a write running on another machine")
     assert score(database, "--table", "book", "--out", str(tmp_path / "scores.parquet")) == 0
     assert not stale.exists()
-    assert alive.exists()
+    assert alive.exists() and elsewhere.exists()
 
 
 def test_scoring_a_file_into_a_table_may_start_a_new_database(tmp_path):
