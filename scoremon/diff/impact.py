@@ -261,7 +261,9 @@ def impact_query(
 
     # paired: our own names from here on
     if outcome is None:
-        outcome_value, invalid = exp.Null(), integer(0)
+        # a typed NULL: a bare one is text to PostgreSQL once it leaves its subquery, and
+        # SUM(outcome) below then fails ("function sum(text) does not exist")
+        outcome_value, invalid = exp.Cast(this=exp.Null(), to=exp.DataType.build("INT")), integer(0)
     elif outcome_is_boolean:
         o = column(outcome_name)
         outcome_value = case([(o.copy(), integer(1)), (exp.Not(this=o.copy()), integer(0))], exp.Null())

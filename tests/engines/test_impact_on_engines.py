@@ -66,3 +66,23 @@ def check_impact(each_engine):
         reference.close()
     problems = same(impact, expected)
     assert not problems, f"{each_engine.dialect} differs from duckdb:\n" + "\n".join(problems[:30])
+
+
+def test_impact_without_an_outcome_runs_on_every_engine(each_engine):
+    # Without --outcome the outcome column is a bare NULL; PostgreSQL typed it as text and
+    # refused SUM over it ("function sum(text) does not exist"). The same population with the
+    # outcome given is the comparison: the scores and their moves do not depend on it.
+    rows = make_rows(300)
+    old, new = base(), variant(new_version)
+    each_engine.write_rows(["book"], COLUMNS, rows, "loading the test book")
+    source = api.source_relation(table="book")
+    without = api.measure_impact(old, new, each_engine, source, "table book", cutoff=CUTOFF)
+    with_outcome = api.measure_impact(old, new, each_engine, source, "table book", outcome="defaulted", cutoff=CUTOFF)
+    assert (without.rows, without.rows_with_outcome, without.events, without.event_rate) == (len(rows), 0, 0, None)
+    assert all((cell.rows_with_outcome, cell.events, cell.event_rate) == (0, 0, None)
+               for cell in without.swap_set.cells)
+    for field in ("mean_score_old", "mean_score_new", "mean_pd_old", "mean_pd_new", "score_change", "pd_change",
+                  "migration", "first_reason", "spearman"):
+        problems = same(getattr(without, field), getattr(with_outcome, field), field)
+        assert not problems, "\n".join(problems[:30])
+    assert [(c.name, c.rows) for c in without.swap_set.cells] == [(c.name, c.rows) for c in with_outcome.swap_set.cells]
