@@ -52,9 +52,10 @@ def score(args) -> int:
                                                          *outputs.kept_database(args.db)])
     spec = api.load_spec(args.spec)
     source = api.source_relation(table=args.table, file=args.input)
-    if args.input is None or args.out_table is None:  # only writing a table may start a new database
+    if args.input is None and args.out_table is not None:  # only writing a table may start a new database
         outputs.require_database_file(args.db)
-    engine = api.open_engine(args.db, threads=args.threads)
+    # writing a file reads the database and writes nothing to it
+    engine = api.open_engine(args.db, threads=args.threads, read_only=args.out_table is None)
     try:
         with terminal.progress_bar("scoring") as progress:
             result = api.score(spec, engine, source, args.key or (), args.out_table, args.out, progress,
@@ -114,8 +115,7 @@ def diff(args) -> int:
     diff = api.diff_models(old, new, args.old, args.new)
     impact = None
     if population:
-        outputs.require_database_file(args.db)
-        engine = api.open_engine(args.db)
+        engine = api.open_engine(args.db, read_only=True)
         try:
             source = api.source_relation(table=args.table, file=args.input)
             where = f"table {args.table} in {redact(args.db)}" if args.table is not None else f"file {args.input}"
@@ -161,8 +161,7 @@ def baseline(args) -> int:
                          "file name")
     out = _file_output(args.out, "--out", args.replace, outputs.kept_database(args.db))
     spec = api.load_spec(args.spec)
-    outputs.require_database_file(args.db)
-    engine = api.open_engine(args.db)
+    engine = api.open_engine(args.db, read_only=True)  # the baseline goes to a spec file, not the database
     try:
         source = api.source_relation(table=args.table)
         baseline = api.measure_development(spec, engine, source, args.outcome, args.month_column,
@@ -192,8 +191,9 @@ def monitor(args) -> int:
     json_file = _file_output(args.json, "--json", args.replace, [("the spec", args.spec),
                                                                  ("the thresholds file", args.thresholds),
                                                                  *outputs.kept_database(args.db)])
-    outputs.require_database_file(args.db)
-    engine = api.open_engine(args.db)
+    if not args.no_history:  # the history is written: the database must exist all the same
+        outputs.require_database_file(args.db)
+    engine = api.open_engine(args.db, read_only=args.no_history)
     try:
         report = api.monitor(spec, engine, args.table, args.month_column, as_of, args.outcome, thresholds,
                              args.baseline_table, months, record_history=not args.no_history)

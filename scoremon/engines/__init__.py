@@ -41,12 +41,18 @@ ENGINE_URLS = (
 )
 
 
-def open_engine(url: str | None = None, threads: int | None = None, memory_limit: str | None = None) -> Engine:
+def open_engine(url: str | None = None, threads: int | None = None, memory_limit: str | None = None,
+                read_only: bool = False) -> Engine:
     """The engine named by ``url``; see :data:`ENGINE_URLS`.
 
     ``threads`` sets DuckDB's threads, or the cores of a plain ``spark://local`` session;
-    ``memory_limit`` is DuckDB's. Raises :class:`InputError` for a URL scoremon does not know,
-    :class:`~scoremon.errors.EngineError` when the engine refuses to start.
+    ``memory_limit`` is DuckDB's. ``read_only`` says the caller writes nothing to the database
+    (temporary tables and files aside): a DuckDB file is then opened read-only, must exist, and
+    is left byte for byte as it was; PostgreSQL and Spark open as usual (the server's
+    permissions decide what a user may write, and a read-only PostgreSQL session could not make
+    the temporary tables a read needs). Raises :class:`InputError` for a URL scoremon does not
+    know or a missing DuckDB file opened read-only, :class:`~scoremon.errors.EngineError` when
+    the engine refuses to start.
 
     >>> engine = open_engine(":memory:")
     >>> engine.dialect
@@ -65,4 +71,4 @@ def open_engine(url: str | None = None, threads: int | None = None, memory_limit
         url = url[len("duckdb://"):]
     elif scheme:
         raise InputError(f"engine URL scheme {scheme!r} is not one scoremon knows; give {ENGINE_URLS}")
-    return _load("DuckDBEngine")(url, threads, memory_limit)
+    return _load("DuckDBEngine")(url, threads, memory_limit, read_only)

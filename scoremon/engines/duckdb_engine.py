@@ -40,12 +40,19 @@ class DuckDBEngine(Engine):
     reads_files = True
     writes_parquet = True
 
-    def __init__(self, database: str = ":memory:", threads: int | None = None, memory_limit: str | None = None):
+    def __init__(self, database: str = ":memory:", threads: int | None = None, memory_limit: str | None = None,
+                 read_only: bool = False):
         self._driver_errors = (duckdb.Error,)
         self.label = "duckdb"
         self.database = database
+        # read-only: the file must exist (opening a missing one for writing would create it)
+        # and is never written, not even by replaying a write-ahead log left by a stopped
+        # writer; a database in memory is always new, so the flag means nothing there
+        read_only = read_only and database != ":memory:"
+        if read_only and not Path(database).is_file():
+            raise InputError(f"no such database file: {database}; check the path (--db)")
         try:
-            self.connection = duckdb.connect(database)
+            self.connection = duckdb.connect(database, read_only=read_only)
         except duckdb.Error as error:
             raise EngineError("opening the database", f"duckdb {database}", first_line(error)) from error
         # DuckDB draws its own progress bar on standard output for long queries, in the middle of
