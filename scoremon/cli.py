@@ -22,6 +22,9 @@ from .engines import ENGINE_URLS
 from .errors import InputError, ScoremonError, SpecError, cut
 
 EXIT_OK, EXIT_FOUND, EXIT_INVALID, EXIT_INTERNAL, EXIT_INTERRUPTED = 0, 1, 2, 3, 130
+# the numbers are scoremon.monitor.months' (not imported here: it loads sqlglot); a test keeps them equal
+MONTHS_IN_RANGE_HELP = ("how many months, ending with the as-of month, are in range; rows of earlier months are "
+                        "counted as out of range and left out (default 120, ten years; 1 to 1200)")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -131,6 +134,7 @@ def build_parser() -> argparse.ArgumentParser:
     baseline.add_argument("--outcome", help="0/1 outcome column (NULL: not known), for event rate, AUC and KS")
     baseline.add_argument("--month-column", help="month column, for the development rows per month")
     baseline.add_argument("--out", required=True, metavar="NEW_SPEC", help="the new spec file to write")
+    baseline.add_argument("--months-in-range", type=int, metavar="N", help=MONTHS_IN_RANGE_HELP)
     baseline.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
     baseline.set_defaults(run="baseline")
 
@@ -161,6 +165,7 @@ def build_parser() -> argparse.ArgumentParser:
                                                                    "of the spec's")
     against.add_argument("--baseline-months", metavar="FROM:TO", help="measure the baseline from these months of "
                                                                       "--table, e.g. 2024-05:2025-04")
+    monitor.add_argument("--months-in-range", type=int, metavar="N", help=MONTHS_IN_RANGE_HELP)
     monitor.add_argument("--json", metavar="FILE", help="also write every figure as JSON to FILE")
     monitor.add_argument("--replace", action="store_true", help="replace --json when it exists (without it, an existing output is an error)")
     monitor.add_argument("--no-history", action="store_true",

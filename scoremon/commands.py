@@ -154,18 +154,19 @@ def baseline(args) -> int:
     # the monitor's modules load sqlglot and the engines: imported when a command needs them, so
     # that `scoremon check` starts without them
     from .monitor.baseline import small_baseline_warning
-    from .monitor.months import out_of_range_note
+    from .monitor.months import MONTHS_IN_RANGE, check_months_in_range, out_of_range_note
 
     if files.is_same_file(args.out, args.spec):
         raise InputError(f"--out {args.out} is the spec itself; a spec is never overwritten in place, give a new "
                          "file name")
     out = _file_output(args.out, "--out", args.replace, outputs.kept_database(args.db))
+    months_in_range = check_months_in_range(MONTHS_IN_RANGE if args.months_in_range is None else args.months_in_range)
     spec = api.load_spec(args.spec)
     engine = api.open_engine(args.db, read_only=True)  # the baseline goes to a spec file, not the database
     try:
         source = api.source_relation(table=args.table)
         baseline = api.measure_development(spec, engine, source, args.outcome, args.month_column,
-                                           computed_from=f"table {args.table}")
+                                           computed_from=f"table {args.table}", months_in_range=months_in_range)
     finally:
         engine.close()
     written = api.write_spec_with_baseline(args.spec, baseline, out, replace=args.replace)
@@ -174,11 +175,15 @@ def baseline(args) -> int:
     if warning:
         terminal.print_problems([warning])
     if baseline.rows_out_of_range:
-        terminal.print_problems([f"note: {out_of_range_note(baseline.rows_out_of_range, date.today())}"])
+        note = out_of_range_note(baseline.rows_out_of_range, date.today(), months=months_in_range)
+        terminal.print_problems([f"note: {note}"])
     return EXIT_OK
 
 
 def monitor(args) -> int:
+    from .monitor.months import MONTHS_IN_RANGE, check_months_in_range  # with sqlglot, as in baseline
+
+    months_in_range = check_months_in_range(MONTHS_IN_RANGE if args.months_in_range is None else args.months_in_range)
     spec = api.load_spec(args.spec)
     thresholds = api.load_thresholds(args.thresholds)
     as_of = _date(args.as_of, "--as-of") if args.as_of else datetime.now(timezone.utc).date()
@@ -196,7 +201,8 @@ def monitor(args) -> int:
     engine = api.open_engine(args.db, read_only=args.no_history)
     try:
         report = api.monitor(spec, engine, args.table, args.month_column, as_of, args.outcome, thresholds,
-                             args.baseline_table, months, record_history=not args.no_history)
+                             args.baseline_table, months, record_history=not args.no_history,
+                             months_in_range=months_in_range)
     finally:
         engine.close()
     monitor_view.print_monitor_report(report, history_written=not args.no_history)

@@ -29,7 +29,7 @@ from ..spec.loading import parse_spec
 from ..spec.model import LINEAR_LABELS, Baseline, BaselineBand, LinearFeature, Spec
 from ..spec.terms import feature_terms
 from . import queries
-from .months import sort_months
+from .months import MONTHS_IN_RANGE, sort_months
 from .passes import BinCounts, bin_counts, decile_edges, histogram_sums, month_sums
 from .queries import MonitoredRows
 from .statistics import discrimination
@@ -77,20 +77,21 @@ def band_edges(bands: Sequence[BaselineBand]) -> list[float]:
 
 def measure_baseline(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expression,
                      where: exp.Expression | None = None, computed_from: str = "",
-                     as_of: date | None = None) -> Baseline:
+                     as_of: date | None = None, months_in_range: int = MONTHS_IN_RANGE) -> Baseline:
     """The baseline of the rows in ``relation`` (those matching ``where``), measured in the engine.
 
     Development volume always; per month only when the rows have a month; event rate, AUC and
     KS only when they have an outcome. Month values are read and sorted as the monitor does
-    (:func:`~scoremon.monitor.months.sort_months`, as of ``as_of``, default today): rows out of
-    range are left out and counted. Raises :class:`InputError` when there are no rows, a month
+    (:func:`~scoremon.monitor.months.sort_months`, as of ``as_of``, default today, keeping
+    ``months_in_range`` months): rows out of range are left out and counted. Raises :class:`InputError` when there are no rows, a month
     value is not a month, or the outcome holds values other than 0, 1 and NULL.
     """
     month_rows = month_sums(engine, spec, rows, relation, where, "measuring the development volume")
     with_month, rows_out_of_range = month_rows, None
     if rows.has_month:
         # the monitor's parser and rule (scoremon.monitor.months): rows out of range are left out
-        sorted_months = sort_months(month_rows, rows.month_column or queries.MONTH, as_of or date.today())
+        sorted_months = sort_months(month_rows, rows.month_column or queries.MONTH, as_of or date.today(),
+                                    months_in_range)
         with_month = list(sorted_months.kept.values())
         rows_out_of_range = sorted_months.rows_out_of_range
         if sorted_months.rows_out_of_range or sorted_months.rows_later:

@@ -120,8 +120,10 @@ class BookMonths:
 
 
 def read_months(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expression, as_of: date,
-                month_column: str) -> BookMonths:
-    """Run the month pass and decide the reported months (see the module docstring).
+                month_column: str, months_in_range: int = MONTHS_IN_RANGE) -> BookMonths:
+    """Run the month pass and decide the reported months (see the module docstring): those of
+    the ``months_in_range`` months ending with the as-of month that the book has, and every
+    month between them.
 
     Raises :class:`InputError` when the outcome holds values other than 0, 1 and NULL, when the
     month column holds something that is not a month, or when no month is on or before ``as_of``.
@@ -132,13 +134,14 @@ def read_months(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expressio
         raise InputError(f"the outcome column holds {invalid:,} values that are neither 1, 0 nor NULL; "
                          "fix the outcome column (1 = event, 0 = no event, NULL = not known yet)")
     features = len(spec.features)
-    sorted_months = sort_months(result, month_column, as_of)
+    sorted_months = sort_months(result, month_column, as_of, months_in_range)
     found: dict[Month, MonthRow] = {}
     for month, r in sorted_months.kept.items():
         found[month] = MonthRow(month, r.value, r.rows, r.score_sum, r.points_sums, r.unseen_rows, r.outcome_rows)
     if not found:
         raise InputError(f"no rows have a month on or before the as-of date {as_of} and in range (the "
-                         f"{MONTHS_IN_RANGE} months ending then); check --as-of and --month-column")
+                         f"{months_in_range} months ending then); check --as-of, --month-column and "
+                         "--months-in-range")
     ordered = sorted(found)
     months = []
     for month in calendar_between(ordered[0], ordered[-1]):

@@ -4,8 +4,10 @@ A month column is a DATE or TIMESTAMP (any day of the month; the query truncates
 first day), text ``YYYY-MM``, or a whole number ``YYYYMM``. Every month is written
 ``YYYY-MM`` in results, history and JSON.
 
-Months out of range: a month is *in range* when it is one of the :data:`MONTHS_IN_RANGE`
-months ending with the as-of month (``monitor``: ``--as-of``; ``baseline``: the day it runs).
+Months out of range: a month is *in range* when it is one of the N months ending with the
+as-of month (``monitor``: ``--as-of``; ``baseline``: the day it runs); N is
+:data:`MONTHS_IN_RANGE` unless a model owner sets it (``--months-in-range N``, from 1 to
+:data:`MAX_MONTHS_IN_RANGE`).
 Rows of earlier months are counted as out of range and left out; rows of later months have
 not happened yet and are left out too. So a stray date (1900-01-01, a default 0001-01-01)
 never becomes hundreds of empty months, and no month list is ever longer than the range.
@@ -29,6 +31,9 @@ MONTH_TEXT = re.compile(r"^(\d{4})-(\d{2})$")
 # Ten years: longer than any performance window and any monitoring history a model owner reads
 # month by month, short enough that a month list stays a readable page.
 MONTHS_IN_RANGE = 120
+# A century: the bound keeps the rule's purpose (a stray 0001-01-01 once made 24,000 empty
+# months, 86 s and 972 MB) whatever a model owner sets.
+MAX_MONTHS_IN_RANGE = 1200
 
 
 @dataclass(frozen=True, order=True)
@@ -104,16 +109,29 @@ def is_mature(month: Month, window_months: int, as_of: date) -> bool:
 
 
 def calendar_between(first: Month, last: Month) -> list[Month]:
-    """Every month from ``first`` to ``last``, both included (at most :data:`MONTHS_IN_RANGE`)."""
-    if last.minus(first) >= MONTHS_IN_RANGE:
-        raise ValueError(f"{first} to {last} is longer than {MONTHS_IN_RANGE} months")  # sort_months keeps it shorter
+    """Every month from ``first`` to ``last``, both included (at most :data:`MAX_MONTHS_IN_RANGE`)."""
+    if last.minus(first) >= MAX_MONTHS_IN_RANGE:
+        # sort_months keeps it shorter
+        raise ValueError(f"{first} to {last} is longer than {MAX_MONTHS_IN_RANGE} months")
     return [first.plus(k) for k in range(last.minus(first) + 1)]
 
 
-def range_ending(as_of: date) -> tuple[Month, Month]:
-    """The first and last month in range for ``as_of`` (see the module docstring)."""
+def check_months_in_range(months: int) -> int:
+    """``months`` when it is a number of months in range scoremon takes, else :class:`InputError`."""
+    if isinstance(months, bool) or not isinstance(months, int) or not 1 <= months <= MAX_MONTHS_IN_RANGE:
+        raise InputError(f"--months-in-range {cut(repr(months))}: give a whole number of months from 1 to "
+                         f"{MAX_MONTHS_IN_RANGE:,} (default {MONTHS_IN_RANGE})")
+    return months
+
+
+def range_ending(as_of: date, months: int = MONTHS_IN_RANGE) -> tuple[Month, Month]:
+    """The first and last month in range for ``as_of``: the ``months`` months ending with its
+    month (see the module docstring)."""
     last = Month(as_of.year, as_of.month)
-    return last.plus(1 - MONTHS_IN_RANGE), last
+    earliest_possible = Month(1, 1)
+    if last.minus(earliest_possible) < check_months_in_range(months) - 1:
+        return earliest_possible, last
+    return last.plus(1 - months), last
 
 
 @dataclass(frozen=True)
@@ -125,6 +143,7 @@ class SortedMonths:
     rows_later: int  # rows of months after the as-of month
     rows_without_month: int
     earliest: Month | None  # the earliest month out of range, for the note
+    months_in_range: int = MONTHS_IN_RANGE  # the rule's N
 
     def notes(self, as_of: date) -> list[str]:
         """What was left out, in words."""
@@ -134,27 +153,29 @@ class SortedMonths:
         if self.rows_later:
             notes.append(f"{self.rows_later:,} rows are in months after the as-of date {as_of} and are left out")
         if self.rows_out_of_range:
-            notes.append(out_of_range_note(self.rows_out_of_range, as_of, self.earliest))
+            notes.append(out_of_range_note(self.rows_out_of_range, as_of, self.earliest, self.months_in_range))
         return notes
 
 
-def out_of_range_note(rows: int, as_of: date, earliest: Month | None = None) -> str:
+def out_of_range_note(rows: int, as_of: date, earliest: Month | None = None,
+                      months: int = MONTHS_IN_RANGE) -> str:
     """How many rows were left out as out of range, and what the range is, in words."""
-    first, _ = range_ending(as_of)
+    first, _ = range_ending(as_of, months)
     counted = "1 row" if rows == 1 else f"{rows:,} rows"
     since = f"; the earliest in {earliest}" if earliest else ""
-    return (f"{counted} out of range: in months before {first}, more than {MONTHS_IN_RANGE} months before the "
-            f"as-of month{since}; left out")
+    return (f"{counted} out of range: in months before {first}, {months} months or more before the "
+            f"as-of month{since}; left out (--months-in-range sets how many months are kept)")
 
 
-def sort_months(rows, column: str, as_of: date) -> SortedMonths:
+def sort_months(rows, column: str, as_of: date, months_in_range: int = MONTHS_IN_RANGE) -> SortedMonths:
     """Sort the rows of a month pass (each with its month ``value`` and its ``rows``; see
-    :class:`~scoremon.monitor.passes.MonthSums`) by the rule.
+    :class:`~scoremon.monitor.passes.MonthSums`) by the rule, ``months_in_range`` months
+    ending with the as-of month.
 
     Raises :class:`InputError` for a value that is not a month (:func:`month_of`) and for two
     values of one month.
     """
-    first, last = range_ending(as_of)
+    first, last = range_ending(as_of, months_in_range)
     kept: dict[Month, object] = {}
     out_of_range = later = without = 0
     earliest = None
@@ -174,4 +195,4 @@ def sort_months(rows, column: str, as_of: date) -> SortedMonths:
                              f"({cut(repr(kept[month].value))}, {cut(repr(row.value))}); give one value per month")
         else:
             kept[month] = row
-    return SortedMonths(kept, out_of_range, later, without, earliest)
+    return SortedMonths(kept, out_of_range, later, without, earliest, months_in_range)

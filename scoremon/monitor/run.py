@@ -21,7 +21,7 @@ from ..spec.model import Baseline, Spec
 from .baseline import measure_baseline, small_baseline_warning
 from .history import write_history
 from .measure import measure_book, monitored_relation, read_months
-from .months import Month
+from .months import MONTHS_IN_RANGE, Month, check_months_in_range
 from .passes import fingerprint_rows
 from .queries import MonitoredRows, is_scored, monitored_rows, months_in
 from .records import MonitorReport
@@ -39,13 +39,16 @@ def monitor_table(
     baseline_table: str | None = None,
     baseline_months: tuple[Month, Month] | None = None,
     record_history: bool = True,
+    months_in_range: int = MONTHS_IN_RANGE,
 ) -> MonitorReport:
     """Monitor ``table`` month by month against a baseline; append the run to the history.
 
     The baseline is the spec's own, or one measured now from ``baseline_table`` or from the
     months ``baseline_months`` (first, last) of ``table``. ``table`` may be scored already (it
     has the scored columns, and ``month_column`` / ``outcome`` kept as keys) or raw (it is
-    scored on the fly). Raises :class:`InputError` for anything the user can fix; the history
+    scored on the fly). Months are reported when they lie in the ``months_in_range`` months
+    ending with the as-of month (:mod:`scoremon.monitor.months`); rows of earlier months are
+    counted as out of range. Raises :class:`InputError` for anything the user can fix; the history
     is written last, in one transaction, so a failing run leaves it unchanged.
     """
     if baseline_table is not None and baseline_months is not None:
@@ -54,10 +57,11 @@ def monitor_table(
         raise InputError(f"{spec.model.name} version {spec.model.version} has no baseline section; write one "
                          "with `scoremon baseline SPEC --table DEVELOPMENT --out NEW.yaml`, or give "
                          "--baseline-table or --baseline-months")
+    check_months_in_range(months_in_range)
     source = source_relation(table=table)
     rows, notes = _monitored(spec, engine, source, month_column, outcome)
     with monitored_relation(engine, rows) as relation:
-        book = read_months(engine, spec, rows, relation, as_of, month_column)
+        book = read_months(engine, spec, rows, relation, as_of, month_column, months_in_range)
         if baseline_table is not None:
             baseline_source = f"table {baseline_table}"
             baseline = measure_development(spec, engine, source_relation(table=baseline_table), outcome, None,
@@ -68,7 +72,8 @@ def monitor_table(
             if not values:
                 raise InputError(f"no rows of {table} are in the baseline months {first} to {last}")
             baseline_source = f"months {first} to {last} of {table}"
-            baseline = measure_baseline(engine, spec, rows, relation, months_in(values), baseline_source)
+            baseline = measure_baseline(engine, spec, rows, relation, months_in(values), baseline_source, as_of,
+                                        months_in_range)
         else:
             baseline = spec.baseline
             baseline_source = f"the spec's baseline ({baseline.computed_from or 'source not recorded'})"
@@ -84,17 +89,21 @@ def monitor_table(
 
 
 def measure_development(spec: Spec, engine: Engine, source: exp.Expression, outcome: str | None = None,
-                        month_column: str | None = None, computed_from: str = "") -> Baseline:
+                        month_column: str | None = None, computed_from: str = "",
+                        months_in_range: int = MONTHS_IN_RANGE) -> Baseline:
     """The baseline of a development table (raw or scored), measured inside ``engine``.
 
     Development shares per score band (deciles) and per feature bin, volume (per month when
     ``month_column`` is given), mean score and points, unseen-category rates, and with an
-    ``outcome`` column the event rate, AUC and KS. Raises :class:`InputError` when the table
+    ``outcome`` column the event rate, AUC and KS. Months are kept by the monitor's rule, the
+    ``months_in_range`` months ending this month. Raises :class:`InputError` when the table
     does not fit the spec or holds no rows.
     """
+    check_months_in_range(months_in_range)
     rows, _ = _monitored(spec, engine, source, month_column, outcome)
     with monitored_relation(engine, rows) as relation:
-        return measure_baseline(engine, spec, rows, relation, None, computed_from)
+        return measure_baseline(engine, spec, rows, relation, None, computed_from,
+                                months_in_range=months_in_range)
 
 
 def _monitored(spec: Spec, engine: Engine, source: exp.Expression, month_column: str | None,

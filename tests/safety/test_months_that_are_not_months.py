@@ -3,19 +3,20 @@ of range, never turned into hundreds of empty months; `baseline` and `monitor` r
 values with one parser and one rule, so a value one refuses the other refuses too.
 
 The rule (README, "Months out of range"): a month is in range when it is one of the
-MONTHS_IN_RANGE months ending with the as-of month (monitor: --as-of; baseline: the day it
+MONTHS_IN_RANGE months (or --months-in-range N) ending with the as-of month (monitor: --as-of; baseline: the day it
 runs); months after it are left out as not yet happened.
 """
 from __future__ import annotations
 
 import json
+from datetime import date
 
 import duckdb
 import pytest
 import yaml
 
-from scoremon.cli import main
-from scoremon.monitor.months import MONTHS_IN_RANGE
+from scoremon.cli import MONTHS_IN_RANGE_HELP, main
+from scoremon.monitor.months import MAX_MONTHS_IN_RANGE, MONTHS_IN_RANGE, Month
 from tests.monitor.book import SPEC_PATH
 from tests.monitor.test_cli import make_database
 
@@ -113,3 +114,55 @@ def test_baseline_and_monitor_refuse_the_same_month_values(book, tmp_path, capsy
     assert code == 2
     assert baseline_err == monitor_err
     assert str(values[0]) in baseline_err
+
+
+# ---------------------------------------------------------------- the range is a setting
+
+def monitor_json(book, tmp_path, *options) -> dict:
+    json_file = tmp_path / "run.json"
+    code = main(["monitor", str(SPEC_PATH), "--db", str(book), "--table", "book", "--month-column",
+                 "application_month", "--as-of", "2024-12-31", "--baseline-table", "development", "--no-history",
+                 "--json", str(json_file), "--replace", *options])
+    assert code in (0, 1)
+    return json.loads(json_file.read_text())
+
+
+def test_a_model_owner_sets_how_many_months_are_in_range(book, tmp_path, capsys):
+    # the book: 300 rows in each month of 2024 (tests/monitor/test_cli.py); as of 2024-12-31,
+    # six months in range are 2024-07 to 2024-12, and the first six months' rows are out of range
+    data = monitor_json(book, tmp_path, "--months-in-range", "6")
+    assert [m["month"] for m in data["months"]] == [f"2024-{k:02d}" for k in range(7, 13)]
+    assert data["rows_out_of_range"] == 6 * 300
+    assert "1,800 rows out of range: in months before 2024-07, 6 months or more before" in \
+        " ".join(capsys.readouterr().out.split())
+    # a stray row 150 months before the as-of month is out of range by default and kept with 200
+    add_rows(book, "book", ["2012-07-10"])
+    assert monitor_json(book, tmp_path)["rows_out_of_range"] == 1
+    data = monitor_json(book, tmp_path, "--months-in-range", "200")
+    assert data["rows_out_of_range"] == 0
+    assert data["months"][0]["month"] == "2012-07" and len(data["months"]) == 150
+
+
+def test_baseline_takes_the_same_setting(book, tmp_path, capsys):
+    # relative to the day the test runs: baseline's as-of month is the current month
+    today = date.today()
+    stray = Month(today.year, today.month).plus(-150).first_day.isoformat()
+    add_rows(book, "development", [stray])
+    out = tmp_path / "kept.yaml"
+    for months, out_of_range in ((None, 1), (200, 0)):
+        options = [] if months is None else ["--months-in-range", str(months)]
+        assert main(["baseline", str(SPEC_PATH), "--db", str(book), "--table", "development", "--outcome", "bad",
+                     "--month-column", "application_month", "--out", str(out), "--replace", *options]) == 0
+        assert yaml.safe_load(out.read_text())["baseline"].get("rows_out_of_range", 0) == out_of_range
+
+
+@pytest.mark.parametrize("value", ["0", "-3", "1201"])
+def test_a_months_setting_outside_its_bounds_is_refused(book, tmp_path, capsys, value):
+    code = main(["monitor", str(SPEC_PATH), "--db", str(book), "--table", "book", "--month-column",
+                 "application_month", "--baseline-table", "development", "--no-history", "--months-in-range", value])
+    assert code == 2
+    assert f"--months-in-range {value}: give a whole number of months from 1 to 1,200" in capsys.readouterr().err
+
+
+def test_the_help_states_the_settings_numbers():
+    assert f"default {MONTHS_IN_RANGE}," in MONTHS_IN_RANGE_HELP and f"1 to {MAX_MONTHS_IN_RANGE})" in MONTHS_IN_RANGE_HELP
