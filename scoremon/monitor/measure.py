@@ -114,6 +114,7 @@ class BookMonths:
     months: tuple[MonthRow, ...]
     notes: tuple[str, ...] = ()
     rows_out_of_range: int = 0  # rows of months before the range (see scoremon.monitor.months)
+    months_in_range: int = MONTHS_IN_RANGE  # the range's length
 
     def values_between(self, first: Month, last: Month) -> list:
         return [m.value for m in self.months if first <= m.month <= last and m.rows > 0]
@@ -146,7 +147,8 @@ def read_months(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expressio
     months = []
     for month in calendar_between(ordered[0], ordered[-1]):
         months.append(found.get(month) or MonthRow(month, None, 0, 0.0, (0.0,) * features, {}, 0))
-    return BookMonths(tuple(months), tuple(sorted_months.notes(as_of)), sorted_months.rows_out_of_range)
+    return BookMonths(tuple(months), tuple(sorted_months.notes(as_of)), sorted_months.rows_out_of_range,
+                      months_in_range)
 
 
 def _material_and_real(value: float | None, limit: Limit, critical_watch: float | None,
@@ -281,6 +283,7 @@ def measure_book(
         notes=tuple(notes),
         status=status,
         rows_out_of_range=book.rows_out_of_range,
+        months_in_range=book.months_in_range,
     )
 
 

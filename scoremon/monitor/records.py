@@ -10,6 +10,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from datetime import date
 
+from .months import MONTHS_IN_RANGE
+
 MATURE, IMMATURE = "mature", "immature"
 
 
@@ -169,6 +171,7 @@ class MonitorReport:
     notes: tuple[str, ...] = field(default_factory=tuple)
     status: str | None = None
     rows_out_of_range: int = 0  # rows in months before the range (scoremon.monitor.months), left out
+    months_in_range: int = MONTHS_IN_RANGE  # the range's length in months (--months-in-range)
 
     @property
     def has_alert(self) -> bool:

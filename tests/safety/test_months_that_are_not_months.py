@@ -132,7 +132,7 @@ def test_a_model_owner_sets_how_many_months_are_in_range(book, tmp_path, capsys)
     # six months in range are 2024-07 to 2024-12, and the first six months' rows are out of range
     data = monitor_json(book, tmp_path, "--months-in-range", "6")
     assert [m["month"] for m in data["months"]] == [f"2024-{k:02d}" for k in range(7, 13)]
-    assert data["rows_out_of_range"] == 6 * 300
+    assert data["rows_out_of_range"] == 6 * 300 and data["months_in_range"] == 6
     assert "1,800 rows out of range: in months before 2024-07, 6 months or more before" in \
         " ".join(capsys.readouterr().out.split())
     # a stray row 150 months before the as-of month is out of range by default and kept with 200
