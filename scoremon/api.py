@@ -28,6 +28,7 @@ from .engines import DuckDBEngine, Engine, Progress, open_engine
 from .errors import InputError
 from .monitor import (
     DEFAULT_THRESHOLDS,
+    History,
     Month,
     MonitoredRows,
     MonitorReport,
@@ -37,6 +38,7 @@ from .monitor import (
     measure_book,
     monitored_rows,
     parse_month,
+    read_history,
     read_months,
     spec_text_with_baseline,
     write_history,
@@ -48,9 +50,10 @@ from .spec import fingerprint, load_spec, parse_spec
 from .spec.checks import suggest
 from .spec.model import Baseline, CategoricalFeature, Spec
 
-__all__ = ["DiffReport", "Impact", "ModelDiff", "MonitorReport", "ScoreResult", "Thresholds", "compile_sql",
+__all__ = ["DiffReport", "History", "Impact", "ModelDiff", "MonitorReport", "ScoreResult", "Thresholds", "compile_sql",
            "describe_source", "diff_models", "load_spec", "load_thresholds", "measure_development", "measure_impact",
-           "monitor", "open_engine", "parse_month", "score", "source_relation", "write_spec_with_baseline"]
+           "model_name_of", "monitor", "open_engine", "parse_month", "read_history", "score", "source_relation",
+           "write_spec_with_baseline"]
 
 # Column types as each engine's describe() spells them: DuckDB (DOUBLE, VARCHAR, …), PostgreSQL
 # (FLOAT8, INT4, NUMERIC, VARCHAR, BPCHAR, …) and Spark (DOUBLE, INT, STRING, DECIMAL(p,s), …).
@@ -365,3 +368,15 @@ def monitor(
     if record_history:
         write_history(engine, report)
     return report
+
+
+# ---------------------------------------------------------------- history
+
+def model_name_of(spec_or_model: str) -> str:
+    """The model a history pack is for: the ``model.name`` of a spec file, or the text as a
+    model name when it is not a file. Raises :class:`~scoremon.errors.SpecError` for a spec
+    file that does not load."""
+    path = Path(spec_or_model)
+    if path.suffix.lower() in (".yaml", ".yml") or path.is_file():
+        return load_spec(path).model.name
+    return spec_or_model

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+import time
 from datetime import datetime, timezone
 from pathlib import Path
 
@@ -17,6 +18,10 @@ from .dialects import DIALECTS, dialects_help
 from .engines import ENGINE_URLS
 from .errors import InputError, ScoremonError, SpecError
 from .report import terminal
+from .report.html.diff import diff_html
+from .report.html.files import check_target, write_text_file
+from .report.html.monitor import monitor_html
+from .report.html.pack import pack_html
 from .report.json import to_json
 from .report.markdown import diff_markdown
 from .report.terminal import bench as bench_view
@@ -103,11 +108,14 @@ def _diff(args) -> int:
     if args.table is not None and args.db is None:
         raise InputError("--table names a table in a database; give the database with --db (or use --input FILE)")
     json_file, markdown_file = _writable(args.json), _writable(args.markdown)
+    html_file = check_target(args.html, args.replace) if args.html else None
     old, new = _load_both(args.old, args.new)
     diff = api.diff_models(old, new, args.old, args.new)
     impact = None
+    dialect = None
     if population:
         engine = api.open_engine(args.db)
+        dialect = engine.dialect
         try:
             source = api.source_relation(table=args.table, file=args.input)
             where = f"table {args.table} in {args.db}" if args.table is not None else f"file {args.input}"
@@ -122,7 +130,15 @@ def _diff(args) -> int:
         if target is not None:
             target.write_text(text() + "\n", encoding="utf-8")
             terminal.print_text(f"wrote {target}")
+    if html_file is not None:
+        _write_html(html_file, lambda: diff_html(report, old, new, dialect), args.replace)
     return EXIT_OK if diff.is_equivalent else EXIT_FOUND
+
+
+def _write_html(target: Path, build, replace: bool) -> None:
+    started = time.perf_counter()
+    written = write_text_file(target, build(), replace)
+    terminal.print_text(f"wrote {written} ({time.perf_counter() - started:.1f} s)")
 
 
 def _bench(args) -> int:
@@ -166,7 +182,9 @@ def _monitor(args) -> int:
         if months[1] < months[0]:
             raise InputError(f"--baseline-months {args.baseline_months}: the end comes before the start")
     json_file = _writable(args.json)
+    html_file = check_target(args.html, args.replace) if args.html else None
     engine = api.open_engine(args.db)
+    dialect = engine.dialect
     try:
         report = api.monitor(spec, engine, args.table, args.month_column, as_of, args.outcome, thresholds,
                              args.baseline_table, months, record_history=not args.no_history)
@@ -176,7 +194,30 @@ def _monitor(args) -> int:
     if json_file is not None:
         json_file.write_text(to_json(report) + "\n", encoding="utf-8")
         terminal.print_text(f"wrote {json_file}")
+    if html_file is not None:
+        _write_html(html_file, lambda: monitor_html(report, dialect), args.replace)
     return EXIT_FOUND if report.has_alert else EXIT_OK
+
+
+def _pack(args) -> int:
+    if args.runs and (args.first or args.last):
+        raise InputError("give --runs, or a range of months with --from and --to, not both")
+    first = str(api.parse_month(args.first, "--from")) if args.first else None
+    last = str(api.parse_month(args.last, "--to")) if args.last else None
+    if first and last and last < first:
+        raise InputError(f"--from {first} --to {last}: the end comes before the start")
+    html_file = check_target(args.html, args.replace)
+    model = api.model_name_of(args.model)
+    engine = api.open_engine(args.db)
+    try:
+        history = api.read_history(engine, model, tuple(args.runs or ()), first, last)
+    finally:
+        engine.close()
+    if not any(history.figures.values()):
+        raise InputError(f"the runs of {model} measured no month in {first or 'the first month'} to "
+                         f"{last or 'the last month'}; widen the range")
+    _write_html(html_file, lambda: pack_html(history, engine.dialect), args.replace)
+    return EXIT_OK
 
 
 def _date(text: str, option: str):
@@ -251,6 +292,9 @@ def build_parser() -> argparse.ArgumentParser:
                       help="the new version's cut-off when it differs from --cutoff (e.g. after a rescaling)")
     diff.add_argument("--json", metavar="FILE", help="also write the result as JSON to FILE")
     diff.add_argument("--markdown", metavar="FILE", help="also write an audit document (Markdown) to FILE")
+    diff.add_argument("--html", metavar="FILE", help="also write a report with charts, one self-contained HTML "
+                                                     "file, to FILE")
+    diff.add_argument("--replace", action="store_true", help="overwrite the --html file if it exists")
     diff.set_defaults(run=_diff)
 
     bench = commands.add_parser(
@@ -319,10 +363,30 @@ def build_parser() -> argparse.ArgumentParser:
     against.add_argument("--baseline-months", metavar="FROM:TO", help="measure the baseline from these months of "
                                                                       "--table, e.g. 2024-05:2025-04")
     monitor.add_argument("--json", metavar="FILE", help="also write every figure as JSON to FILE")
+    monitor.add_argument("--html", metavar="FILE", help="also write a report with charts, one self-contained HTML "
+                                                        "file, to FILE")
+    monitor.add_argument("--replace", action="store_true", help="overwrite the --html file if it exists")
     monitor.add_argument("--no-history", action="store_true",
                          help="do not append this run to the history tables (e.g. a trial run, or an engine "
                               "without transactions)")
     monitor.set_defaults(run=_monitor)
+
+    pack = commands.add_parser(
+        "pack", help="a history pack: one model's monitoring over many runs or months, as one HTML file",
+        description="Read the monitoring history that `scoremon monitor` appended to the database and draw, "
+                    "month by month, score PSI, calibration and AUC across every run in the range, one line per "
+                    "model version. Reads only the history tables, never the book.",
+        epilog="exit codes: 0 written; 2 invalid input, one line per problem",
+    )
+    pack.add_argument("model", metavar="SPEC_OR_MODEL", help="a spec file (its model name is used) or a model name")
+    pack.add_argument("--db", required=True, help=f"engine URL holding the history tables: {ENGINE_URLS}")
+    pack.add_argument("--from", dest="first", metavar="YYYY-MM", help="first month (default: the earliest measured)")
+    pack.add_argument("--to", dest="last", metavar="YYYY-MM", help="last month (default: the latest measured)")
+    pack.add_argument("--runs", nargs="+", metavar="RUN", help="only these runs (ids from the runs table), "
+                                                               "instead of --from/--to")
+    pack.add_argument("--html", required=True, metavar="FILE", help="the HTML file to write")
+    pack.add_argument("--replace", action="store_true", help="overwrite FILE if it exists")
+    pack.set_defaults(run=_pack)
 
     demo = commands.add_parser("demo", help="build the demo warehouse and run the whole job on it")
     demo.add_argument("--rows", type=int, default=None, help="applications in the demo book (default: about 400,000)")

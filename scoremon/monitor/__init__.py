@@ -10,13 +10,13 @@ Modules, in the order a run uses them:
 ``thresholds``  ok / watch / alert levels, defaults and overrides
 ``measure``     runs the passes and builds the records
 ``records``     the result records
-``history``     appends a run to the history tables in one transaction
+``history``     appends a run to the history tables in one transaction; reads them back
 
 Only aggregate tables reach Python; the engine is reached through the
 :class:`~scoremon.engines.Engine` protocol only.
 """
 from .baseline import measure_baseline, spec_text_with_baseline
-from .history import write_history
+from .history import History, read_history, write_history
 from .measure import BookMonths, measure_book, read_months
 from .months import Month, parse_month
 from .queries import MonitoredRows, monitored_rows
@@ -26,6 +26,7 @@ from .thresholds import DEFAULT_THRESHOLDS, Thresholds, load_thresholds
 __all__ = [
     "DEFAULT_THRESHOLDS",
     "BookMonths",
+    "History",
     "MonitorReport",
     "MonitoredRows",
     "Month",
@@ -36,6 +37,7 @@ __all__ = [
     "measure_book",
     "monitored_rows",
     "parse_month",
+    "read_history",
     "read_months",
     "spec_text_with_baseline",
     "write_history",
