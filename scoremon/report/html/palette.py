@@ -6,10 +6,10 @@ see *lightness*. So every pair of colours that must be told apart differs in lig
 least 15 points of CIE L* (a test keeps it so), and where hue helps too it runs along the
 blue–ochre axis, the one that protan and deutan vision keeps:
 
-* series: a deep blue (L* 34) for the reference side — the baseline, the old version, the
+* series: a deep blue (L* 25) for the reference side — the baseline, the old version, the
   first model version — and an ochre (L* 58) for the side being compared, then a light blue
-  and a dark brown for further model versions. Each series also has its own line style and
-  marker, so a chart reads without any colour at all;
+  (L* 79) and a brown (L* 42) for further model versions. Each series also has its own line
+  style and marker, so a chart reads without any colour at all;
 * statuses: severity is darkness — ``ok`` nearly white, ``watch`` a mid ochre, ``alert`` a
   dark brown with white text — and a status is always written out in words or marked with
   its shape (○ ok, △ watch, ■ alert), never left to colour alone;
@@ -43,10 +43,10 @@ class Series:
 
 # The reference side first (baseline, old version), then the compared side, then more versions.
 SERIES = (
-    Series("#2f4f86", "-", "o"),  # deep blue, L* 34
+    Series("#22396a", "-", "o"),  # deep blue, L* 25
     Series("#c47a00", "--", "s"),  # ochre, L* 58
-    Series("#7ea6d8", ":", "^"),  # light blue, L* 67
-    Series("#5c2e00", "-.", "D"),  # dark brown, L* 24
+    Series("#a9c6ec", ":", "^"),  # light blue, L* 79
+    Series("#935514", "-.", "D"),  # brown, L* 42
 )
 REFERENCE, COMPARED = SERIES[0], SERIES[1]
 BAND = "#c9d8ee"  # a confidence band around a reference-coloured line (L* 86)
@@ -82,7 +82,7 @@ NO_STATUS = StatusLook("no figure", "–", PAPER, MUTED)
 # Threshold lines on PSI and AUC charts; each is also labelled in words on the chart.
 WATCH_LINE = "#c47a00"
 ALERT_LINE = "#7a3d00"
-CRITICAL_LINE = "#2f4f86"
+CRITICAL_LINE = SERIES[0].colour
 
 SHADES = ("#ffffff", "#c9d8ee", "#7ea6d8", "#4f79b8", "#23395d")  # L* 100, 86, 67, 50, 24
 
