@@ -207,6 +207,9 @@ def _pack(args) -> int:
     if first and last and last < first:
         raise InputError(f"--from {first} --to {last}: the end comes before the start")
     html_file = check_target(args.html, args.replace)
+    if "://" not in args.db and args.db != ":memory:" and not Path(args.db).exists():
+        # DuckDB would create an empty database there; a pack only reads
+        raise InputError(f"--db {args.db}: no such database file; give the database `scoremon monitor` wrote to")
     model = api.model_name_of(args.model)
     engine = api.open_engine(args.db)
     try:
