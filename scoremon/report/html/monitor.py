@@ -391,7 +391,7 @@ def _calibration_by_month(report: MonitorReport) -> Markup:
         top = max([v for v in [i[1] for i in intervals if i] + [c.mean_pd for c in cal if c and c.mean_pd]] or [0.1])
         ax.set_ylim(0, top * 1.35)
         ax.set_ylabel("rate")
-        fig.legend(loc="outside upper center", ncols=6)
+        fig.legend(loc="outside upper center", ncols=3)
 
     svg = charts.chart("calibration-months", "Realised event rate against mean PD by month", 3.1, paint)
     flagged = [m.month for m in report.months if m.calibration_status in ("watch", "alert")]
