@@ -300,7 +300,9 @@ def _history_queries(model_name: str, run_ids: Sequence[str], first: str | None,
         runs_filter = exp.and_(runs_filter, exp.In(this=_column("run_id"), expressions=[text(r) for r in run_ids]))
     runs = (exp.select(*[_column(c) for c in ("run_id", "run_at", "model_version", "model_fingerprint", "as_of",
                                               "source", "baseline_source", "months", "status", "thresholds")])
-            .from_(_table(RUNS_TABLE)).where(runs_filter).order_by(_column("run_at"), _column("run_id")))
+            # run_at has whole seconds: runs within one second are ordered by their as-of date
+            .from_(_table(RUNS_TABLE)).where(runs_filter).order_by(_column("run_at"), _column("as_of"),
+                                                                   _column("run_id")))
     wanted = exp.or_(*[exp.and_(exp.EQ(this=_column("family"), expression=text(family)),
                                 exp.EQ(this=_column("metric"), expression=text(metric)))
                        for family, metric in PACK_METRICS])
