@@ -26,9 +26,10 @@ from typing import Iterator, Sequence
 
 from sqlglot import exp
 
-from ..compiler import identifier, integer, number, text
 from ..dialects import render_sql
+from ..engines import Engine
 from ..errors import EngineError, InputError
+from ..trees import column, identifier, integer, number, text
 from .records import MATURE, MonitorReport
 
 RUNS_TABLE = "scoremon_monitor_runs"
@@ -190,17 +191,14 @@ def _insert(table: str, columns, rows: list[exp.Tuple]) -> exp.Insert:
     return exp.Insert(this=target, expression=exp.Values(expressions=rows))
 
 
-def write_history(engine, report: MonitorReport) -> int:
+def write_history(engine: Engine, report: MonitorReport) -> int:
     """Append ``report`` to the history tables in one transaction; return the metric rows written.
 
-    Raises :class:`~scoremon.errors.EngineError` (and leaves the history unchanged) when the
-    database refuses any statement, :class:`InputError` for an engine without transactions.
+    Raises :class:`~scoremon.errors.EngineError` (and, where the engine
+    :attr:`~scoremon.engines.Engine.is_transactional`, leaves the history unchanged) when the
+    database refuses any statement.
     """
-    if not hasattr(engine, "execute_atomically"):
-        raise InputError(f"the history is written in one transaction and {engine.dialect} has none; monitor "
-                         "from DuckDB or PostgreSQL, or run without the history (--no-history)")
-    statements = create_statements() + insert_statements(report)
-    engine.execute_atomically([render_sql(s, engine.dialect, pretty=False) for s in statements],
+    engine.execute_atomically(create_statements() + insert_statements(report),
                               "appending the run to the monitoring history")
     return len(metric_rows(report))
 
@@ -288,32 +286,28 @@ class History:
         return dict(sorted(found.items()))
 
 
-def _column(name: str) -> exp.Column:
-    return exp.column(identifier(name))
-
-
 def _history_queries(model_name: str, run_ids: Sequence[str], first: str | None,
                      last: str | None) -> tuple[exp.Select, exp.Select]:
     """The two queries a pack needs: the model's runs, and their whole-month figures."""
-    runs_filter = exp.EQ(this=_column("model_name"), expression=text(model_name))
+    runs_filter = exp.EQ(this=column("model_name"), expression=text(model_name))
     if run_ids:
-        runs_filter = exp.and_(runs_filter, exp.In(this=_column("run_id"), expressions=[text(r) for r in run_ids]))
-    runs = (exp.select(*[_column(c) for c in ("run_id", "run_at", "model_version", "model_fingerprint", "as_of",
+        runs_filter = exp.and_(runs_filter, exp.In(this=column("run_id"), expressions=[text(r) for r in run_ids]))
+    runs = (exp.select(*[column(c) for c in ("run_id", "run_at", "model_version", "model_fingerprint", "as_of",
                                               "source", "baseline_source", "months", "status", "thresholds")])
             # run_at has whole seconds: runs within one second are ordered by their as-of date
-            .from_(_table(RUNS_TABLE)).where(runs_filter).order_by(_column("run_at"), _column("as_of"),
-                                                                   _column("run_id")))
-    wanted = exp.or_(*[exp.and_(exp.EQ(this=_column("family"), expression=text(family)),
-                                exp.EQ(this=_column("metric"), expression=text(metric)))
+            .from_(_table(RUNS_TABLE)).where(runs_filter).order_by(column("run_at"), column("as_of"),
+                                                                   column("run_id")))
+    wanted = exp.or_(*[exp.and_(exp.EQ(this=column("family"), expression=text(family)),
+                                exp.EQ(this=column("metric"), expression=text(metric)))
                        for family, metric in PACK_METRICS])
-    chosen = exp.select(_column("run_id")).from_(_table(RUNS_TABLE)).where(runs_filter.copy())
-    conditions = [exp.In(this=_column("run_id"), query=exp.Subquery(this=chosen)),
-                  exp.EQ(this=_column("subject"), expression=text("")), exp.paren(wanted)]
+    chosen = exp.select(column("run_id")).from_(_table(RUNS_TABLE)).where(runs_filter.copy())
+    conditions = [exp.In(this=column("run_id"), query=exp.Subquery(this=chosen)),
+                  exp.EQ(this=column("subject"), expression=text("")), exp.paren(wanted)]
     if first is not None:
-        conditions.append(exp.GTE(this=_column("month"), expression=text(first)))
+        conditions.append(exp.GTE(this=column("month"), expression=text(first)))
     if last is not None:
-        conditions.append(exp.LTE(this=_column("month"), expression=text(last)))
-    metrics = (exp.select(*[_column(c) for c in ("run_id", "month", "family", "metric", "value", "status")])
+        conditions.append(exp.LTE(this=column("month"), expression=text(last)))
+    metrics = (exp.select(*[column(c) for c in ("run_id", "month", "family", "metric", "value", "status")])
                .from_(_table(METRICS_TABLE)).where(exp.and_(*conditions)))
     return runs, metrics
 
@@ -331,7 +325,7 @@ def _thresholds(value) -> dict:
     return found if isinstance(found, dict) else {}
 
 
-def read_history(engine, model_name: str, run_ids: Sequence[str] = (), first: str | None = None,
+def read_history(engine: Engine, model_name: str, run_ids: Sequence[str] = (), first: str | None = None,
                  last: str | None = None) -> History:
     """The history of ``model_name``: every run (or the runs ``run_ids``), months ``first`` to
     ``last`` (``YYYY-MM``, both included; None: no bound).
@@ -341,15 +335,15 @@ def read_history(engine, model_name: str, run_ids: Sequence[str] = (), first: st
     """
     runs_query, metrics_query = _history_queries(model_name, run_ids, first, last)
     try:
-        # the only two engine calls of the pack: kept together so an engine API change is one edit
-        run_rows = engine.fetch(render_sql(runs_query, engine.dialect, pretty=False), "reading the monitoring runs")
-        figure_rows = engine.fetch(render_sql(metrics_query, engine.dialect, pretty=False),
-                                    "reading the monitoring figures") if run_rows else []
+        # the only two engine calls of the pack, kept together
+        run_rows = engine.query(runs_query, "reading the monitoring runs")
+        figure_rows = engine.query(metrics_query, "reading the monitoring figures") if run_rows else []
     except EngineError as error:
         raise InputError(f"could not read the monitoring history ({RUNS_TABLE}, {METRICS_TABLE}): {error}; give "
                          "the database that `scoremon monitor` wrote its history to") from error
-    runs = tuple(RunRow(str(r[0]), _iso(r[1]), str(r[2]), str(r[3]), _iso(r[4]), str(r[5]), str(r[6]), int(r[7]),
-                        str(r[8]), _thresholds(r[9])) for r in run_rows)
+    runs = tuple(RunRow(str(r.run_id), _iso(r.run_at), str(r.model_version), str(r.model_fingerprint), _iso(r.as_of),
+                        str(r.source), str(r.baseline_source), int(r.months), str(r.status), _thresholds(r.thresholds))
+                 for r in run_rows)
     if run_ids:
         missing = sorted(set(run_ids) - {r.run_id for r in runs})
         if missing:
@@ -359,10 +353,10 @@ def read_history(engine, model_name: str, run_ids: Sequence[str] = (), first: st
         raise InputError(f"the monitoring history holds no run of model {model_name!r}; check the model name "
                          "(the spec's model.name) and the database")
     figures: dict[str, dict[str, dict[tuple[str, str], Figure]]] = {}
-    for run_id, month, family, metric, value, status in figure_rows:
-        value = None if value is None or (isinstance(value, float) and math.isnan(value)) else float(value)
-        figures.setdefault(str(run_id), {}).setdefault(str(month), {})[(str(family), str(metric))] = Figure(
-            value, None if status is None else str(status))
+    for row in figure_rows:
+        value = None if row.value is None or (isinstance(row.value, float) and math.isnan(row.value)) else float(row.value)
+        figures.setdefault(str(row.run_id), {}).setdefault(str(row.month), {})[(str(row.family), str(row.metric))] = (
+            Figure(value, None if row.status is None else str(row.status)))
     return History(model_name, runs, figures, first, last)
 
 
