@@ -188,3 +188,27 @@ def log_percent_axis(ax: "Axes") -> None:
     ax.yaxis.set_major_locator(LogLocator(base=10, subs=(1.0, 2.0, 5.0)))
     ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v * 100:.2g}%"))
     ax.yaxis.set_minor_formatter(NullFormatter())
+
+
+def status_points(ax: "Axes", xs: Sequence[int], ys: Sequence[float | None], statuses: Sequence[str | None],
+                  colour: str, label: bool = True) -> None:
+    """Markers whose shape tells the status (○ ok, △ watch, ■ alert), as the tables write it."""
+    for status, marker in palette.STATUS_MARKERS.items():
+        points = [(x, y) for x, y, s in zip(xs, ys, statuses) if s == status and y is not None]
+        if points:
+            ax.scatter([p[0] for p in points], [p[1] for p in points], marker=marker, s=30 if status != "ok" else 18,
+                       facecolor=palette.PAPER if status == "ok" else colour, edgecolor=colour, linewidth=1.1,
+                       zorder=4, label=f"status {status}" if label else None)
+
+
+def psi_bands(ax: "Axes", watch: float, alert: float, top: float) -> None:
+    """The watch and alert lines of a PSI chart whose y axis ends at ``top``; an alert line
+    above the chart is named in words instead of stretching the axis over the data."""
+    threshold(ax, watch, f"watch {watch:g}", palette.WATCH_LINE, "--")
+    if alert <= top:
+        threshold(ax, alert, f"alert {alert:g}", palette.ALERT_LINE, "-")
+    else:
+        ax.annotate(f"alert at {alert:g}, above the chart", xy=(1.0, 1.0), xycoords="axes fraction",
+                    xytext=(-3, -2), textcoords="offset points", ha="right", va="top",
+                    fontsize=FONT_SIZE - 1, color=palette.ALERT_LINE)
+    ax.set_ylim(0, top)

@@ -9,7 +9,7 @@ cut-off and the first-reason changes; then old and new points per changed charac
 """
 from __future__ import annotations
 
-from ...diff.features import compare_feature, probe_changed, written_in_points
+from ...diff.features import compare_feature
 from ...diff.impact import Impact
 from ...diff.records import DiffReport
 from ...diff.wording import number as plain_number

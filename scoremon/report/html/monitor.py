@@ -36,7 +36,6 @@ from .page import (
 
 FAMILIES = (("stability_status", "stability"), ("data_quality_status", "data quality"),
             ("calibration_status", "calibration"), ("discrimination_status", "discrimination"))
-STATUS_MARKERS = {"ok": "o", "watch": "^", "alert": "s"}  # the shapes of page.STATUS_LOOKS, in matplotlib
 WATERFALL_BARS = 8  # characteristics drawn one by one; the rest share one bar
 
 
@@ -159,17 +158,6 @@ def _psi_limits(report: MonitorReport, key: str) -> tuple[float, float]:
     return float(limits.get("watch", 0.10)), float(limits.get("alert", 0.25))
 
 
-def _status_markers(ax, xs: Sequence[int], ys: Sequence[float | None], statuses: Sequence[str | None],
-                    colour: str) -> None:
-    """Markers whose shape tells the status (○ ok, △ watch, ■ alert), as in the tables."""
-    for status, marker in STATUS_MARKERS.items():
-        points = [(x, y) for x, y, s in zip(xs, ys, statuses) if s == status and y is not None]
-        if points:
-            ax.scatter([p[0] for p in points], [p[1] for p in points], marker=marker, s=30 if status != "ok" else 18,
-                       facecolor=palette.PAPER if status == "ok" else colour, edgecolor=colour, linewidth=1.1,
-                       zorder=4, label=f"status {status}")
-
-
 def _score_psi(report: MonitorReport) -> Section:
     months = _months(report)
     values = [m.score_psi for m in report.months]
@@ -182,17 +170,10 @@ def _score_psi(report: MonitorReport) -> Section:
         xs = list(range(len(months)))
         ax.plot(xs, [v if v is not None else float("nan") for v in values], color=palette.REFERENCE.colour,
                 label="score PSI")
-        _status_markers(ax, xs, values, [m.score_psi_status for m in report.months], palette.REFERENCE.colour)
+        charts.status_points(ax, xs, values, [m.score_psi_status for m in report.months], palette.REFERENCE.colour)
         ax.step(xs, [c if c is not None else float("nan") for c in critical], where="mid",
                 color=palette.CRITICAL_LINE, linestyle=":", linewidth=1.0, label="critical value (sampling alone)")
-        charts.threshold(ax, watch, f"watch {watch:g}", palette.WATCH_LINE, "--")
-        if alert <= top:
-            charts.threshold(ax, alert, f"alert {alert:g}", palette.ALERT_LINE, "-")
-        else:
-            ax.annotate(f"alert at {alert:g}, above the chart", xy=(1.0, 1.0), xycoords="axes fraction",
-                        xytext=(-3, -2), textcoords="offset points", ha="right", va="top",
-                        fontsize=charts.FONT_SIZE - 1, color=palette.ALERT_LINE)
-        ax.set_ylim(0, top)
+        charts.psi_bands(ax, watch, alert, top)
         charts.month_axis(ax, months)
         ax.set_ylabel("PSI of the score bands")
         fig.legend(loc="outside upper center", ncols=4)
@@ -384,7 +365,7 @@ def _calibration_by_month(report: MonitorReport) -> Markup:
         rates = [c.event_rate if c else None for c in cal]
         ax.plot(xs, [r if r is not None else nan for r in rates], color=palette.COMPARED.colour,
                 linestyle=palette.COMPARED.line, label="realised event rate")
-        _status_markers(ax, xs, rates, [c.status if c else None for c in cal], palette.COMPARED.colour)
+        charts.status_points(ax, xs, rates, [c.status if c else None for c in cal], palette.COMPARED.colour)
         charts.shade_immature(ax, _immature(report))
         charts.month_axis(ax, months)
         charts.percent_axis(ax, "y", 1)
@@ -433,7 +414,7 @@ def _discrimination(report: MonitorReport) -> Section:
                         color=palette.BAND, linewidth=0, label="95 % DeLong interval")
         aucs = [d.auc if d else None for d in found]
         ax.plot(xs, [a if a is not None else nan for a in aucs], color=palette.REFERENCE.colour, label="AUC")
-        _status_markers(ax, xs, aucs, [d.status if d else None for d in found], palette.REFERENCE.colour)
+        charts.status_points(ax, xs, aucs, [d.status if d else None for d in found], palette.REFERENCE.colour)
         if baseline is not None:
             charts.threshold(ax, baseline, f"baseline {baseline:.3f}", palette.MUTED, "-")
             if "watch" in drop:
@@ -540,7 +521,7 @@ def _rates(report: MonitorReport) -> Markup:
                     continue
                 ax.plot(xs, [v if v is not None else float("nan") for v in values], color=style.colour,
                         linestyle=style.line, linewidth=1.3, label=words)
-                for status, marker in STATUS_MARKERS.items():
+                for status, marker in palette.STATUS_MARKERS.items():
                     if status == "ok":
                         continue
                     points = [(x, v) for x, v, s in zip(xs, values, statuses[f][key]) if s == status and v is not None]
@@ -560,7 +541,7 @@ def _rates(report: MonitorReport) -> Markup:
                 ax.tick_params(labelbottom=False)
         handles = [Line2D([], [], color=s.colour, linestyle=s.line, label=w) for _, w, s in RATES]
         handles += [Line2D([], [], color=palette.INK, marker=m, linestyle="none", label=f"status {s}")
-                    for s, m in STATUS_MARKERS.items() if s != "ok"]
+                    for s, m in palette.STATUS_MARKERS.items() if s != "ok"]
         fig.legend(handles=handles, loc="outside upper center", ncols=len(handles))
 
     svg = charts.chart("rates", "Missing, unseen and catch-all rates by month, per characteristic",

@@ -28,8 +28,6 @@ from .page import (
     table,
 )
 
-STATUS_MARKERS = {"ok": "o", "watch": "^", "alert": "s"}
-
 
 def pack_html(history: History, engine: str, made_at: str | None = None) -> str:
     """The self-contained HTML history pack of ``history``; ``engine`` is the dialect it was read from."""
@@ -119,16 +117,9 @@ def _psi(history: History, months, by_version) -> Section:
             ax.plot(xs, [v if v is not None else float("nan") for v in values], color=style.colour,
                     linestyle=style.line, label=_version_words(version))
             found = by_version[version]
-            for status, marker in STATUS_MARKERS.items():
-                points = [(x, v) for x, v, m in zip(xs, values, months)
-                          if v is not None and _status(found.get(m, (None, None))[1], "stability", "score_psi") == status]
-                if points:
-                    ax.scatter(*zip(*points), marker=marker, s=18 if status == "ok" else 30, zorder=4,
-                               facecolor=palette.PAPER if status == "ok" else style.colour, edgecolor=style.colour)
-        charts.threshold(ax, watch, f"watch {watch:g}", palette.WATCH_LINE, "--")
-        if alert <= top:
-            charts.threshold(ax, alert, f"alert {alert:g}", palette.ALERT_LINE, "-")
-        ax.set_ylim(0, top)
+            statuses = [_status(found.get(m, (None, None))[1], "stability", "score_psi") for m in months]
+            charts.status_points(ax, xs, values, statuses, style.colour, label=False)
+        charts.psi_bands(ax, watch, alert, top)
         charts.month_axis(ax, months)
         ax.set_ylabel("PSI of the score bands")
         fig.legend(loc="outside upper center", ncols=min(4, len(lines)))

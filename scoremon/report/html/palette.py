@@ -78,6 +78,8 @@ STATUS_LOOKS = {
     "alert": StatusLook("alert", "■", "#7a3d00", "#ffffff"),  # L* 33
 }
 NO_STATUS = StatusLook("no figure", "–", PAPER, MUTED)
+# The same shapes as matplotlib markers, for charts: circle, triangle, square.
+STATUS_MARKERS = {"ok": "o", "watch": "^", "alert": "s"}
 
 # Threshold lines on PSI and AUC charts; each is also labelled in words on the chart.
 WATCH_LINE = "#c47a00"
