@@ -42,7 +42,8 @@ WATERFALL_BARS = 8  # characteristics drawn one by one; the rest share one bar
 def monitor_html(report: MonitorReport, engine: str) -> str:
     """The self-contained HTML report of ``report``; ``engine`` is the dialect it ran on.
 
-    >>> # html = monitor_html(api.monitor(spec, engine, "book", "month", as_of), engine.dialect)
+    ``scoremon monitor … --html FILE`` calls it with the run's report and writes the text with
+    :func:`scoremon.report.html.files.write_text_file`.
     """
     stamp = Stamp(
         title="Monitoring report",

@@ -215,7 +215,8 @@ def _stamp(stamp: Stamp) -> Markup:
         version, fp = stamp.versions[0]
         pairs += [("version", version), ("fingerprint", tag("code", fp))]
     else:
-        pairs.append(("versions", join(join([f"{v} ", tag("code", fp), "; " if i < len(stamp.versions) - 1 else ""])
+        pairs.append(("versions", join(join([f"{v} (fingerprint ", tag("code", fp), ")",
+                                             "; " if i < len(stamp.versions) - 1 else ""])
                                        for i, (v, fp) in enumerate(stamp.versions))))
     rows = "" if stamp.rows is None else f", {stamp.rows:,} rows"
     pairs.append(("population", f"{stamp.population} on {stamp.engine}{rows}"))
