@@ -294,7 +294,13 @@ def _waterfall(report: MonitorReport) -> Section:
 
 # ---------------------------------------------------------------- 6 calibration
 
+NO_OUTCOMES = ("No month has outcomes to test: no outcome column was given, or no month is mature yet "
+               "as of {as_of}.")
+
+
 def _calibration(report: MonitorReport) -> Section:
+    if all(m.calibration is None for m in report.months):
+        return Section("Calibration", (paragraph(NO_OUTCOMES.format(as_of=report.as_of)),), key="calibration")
     blocks = []
     latest = report.latest_mature_month
     if latest is None:
@@ -401,6 +407,8 @@ def _month_list(months: Sequence[str]) -> str:
 # ---------------------------------------------------------------- 7 discrimination
 
 def _discrimination(report: MonitorReport) -> Section:
+    if all(m.discrimination is None for m in report.months):
+        return Section("Discrimination", (paragraph(NO_OUTCOMES.format(as_of=report.as_of)),), key="discrimination")
     months = _months(report)
     found = [m.discrimination for m in report.months]
     baseline = next((d.auc - d.auc_change for d in found if d and d.auc is not None and d.auc_change is not None),

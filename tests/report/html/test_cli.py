@@ -48,6 +48,16 @@ def test_monitor_writes_html_and_will_not_overwrite_it(book, tmp_path, capsys):
     assert report.read_text(encoding="utf-8") != first  # a new run id and time
 
 
+def test_monitor_without_outcomes_says_so_instead_of_empty_charts(book, tmp_path, capsys):
+    spec = baseline_spec(book, tmp_path, capsys)
+    report = tmp_path / "monitor.html"
+    assert main(["monitor", spec, "--db", str(book), "--table", "book", "--month-column", "application_month",
+                 "--as-of", "2024-12-31", "--no-history", "--html", str(report)]) in (0, 1)
+    text = report.read_text(encoding="utf-8")
+    assert text.count("No month has outcomes to test: no outcome column was given") == 2
+    assert 'id="calibration-' not in text and 'id="auc-' not in text
+
+
 def test_diff_writes_html_without_a_population(tmp_path, capsys):
     report = tmp_path / "diff.html"
     assert main(["diff", str(SPEC_PATH), str(SPEC_PATH), "--html", str(report)]) == 0
