@@ -73,14 +73,18 @@ _OUTSIDE = re.compile(r'href="(?!#)|url\((?!#)|https?:|//[a-z0-9]', re.I)
 
 
 @contextmanager
-def drawing(height: float, width: float = WIDTH, rows: int = 1, columns: int = 1,
+def drawing(height: float, width: float = WIDTH, rows: int = 1, columns: int = 1, fixed_layout: bool = False,
             **grid) -> Iterator[tuple["Figure", "Axes | Sequence[Axes]"]]:
-    """A figure in the reports' style with ``rows`` × ``columns`` axes (one Axes when 1 × 1)."""
+    """A figure in the reports' style with ``rows`` × ``columns`` axes (one Axes when 1 × 1).
+
+    Axes are placed by matplotlib's constrained layout, which makes room for every label;
+    ``fixed_layout`` leaves the placing to ``paint`` (``subplots_adjust``): for small multiples,
+    where measuring every panel's labels twice would cost more than the rest of a report."""
     import matplotlib
     from matplotlib.figure import Figure
 
     with matplotlib.rc_context(STYLE):
-        figure = Figure(figsize=(width, height), layout="constrained")
+        figure = Figure(figsize=(width, height), layout=None if fixed_layout else "constrained")
         axes = figure.subplots(rows, columns, squeeze=True, **grid)
         yield figure, axes
 
@@ -119,9 +123,9 @@ def _attribute(text: str) -> str:
 
 
 def chart(key: str, label: str, height: float, paint: Callable[["Figure", object], None], width: float = WIDTH,
-          rows: int = 1, columns: int = 1, **grid) -> Markup:
+          rows: int = 1, columns: int = 1, fixed_layout: bool = False, **grid) -> Markup:
     """Draw with ``paint(figure, axes)`` and return the SVG: the one call a report makes per chart."""
-    with drawing(height, width, rows, columns, **grid) as (figure, axes):
+    with drawing(height, width, rows, columns, fixed_layout, **grid) as (figure, axes):
         paint(figure, axes)
         return svg_markup(figure, key, label)
 

@@ -551,10 +551,14 @@ def _rates(report: MonitorReport) -> Markup:
         handles = [Line2D([], [], color=s.colour, linestyle=s.line, label=w) for _, w, s in RATES]
         handles += [Line2D([], [], color=palette.INK, marker=m, linestyle="none", label=f"status {s}")
                     for s, m in palette.STATUS_MARKERS.items() if s != "ok"]
-        fig.legend(handles=handles, loc="outside upper center", ncols=len(handles))
+        height = fig.get_figheight()
+        fig.legend(handles=handles, loc="upper center", ncols=len(handles), bbox_to_anchor=(0.5, 1.0))
+        # fixed margins, in inches turned into fractions: legend on top, month labels below
+        fig.subplots_adjust(left=0.055, right=0.99, top=1 - 0.42 / height, bottom=0.62 / height,
+                            wspace=0.32, hspace=0.42 * rows / max(height - 1.0, 1.0))
 
     svg = charts.chart("rates", "Missing, unseen and catch-all rates by month, per characteristic",
-                       1.55 * rows + 0.6, paint, rows=rows, columns=columns)
+                       1.55 * rows + 0.9, paint, rows=rows, columns=columns, fixed_layout=True)
     flagged = sorted({q.feature for m in report.months for q in m.quality
                       if any(getattr(q, f"{k}_status") in ("watch", "alert") for k, _, _ in RATES)})
     caption = ("Look for a line that jumps: " + (", ".join(flagged) + " are flagged in some month."
