@@ -3,7 +3,10 @@ palette's colour-blind rule, and the file writer."""
 from __future__ import annotations
 
 import re
+import subprocess
+import sys
 from itertools import combinations
+from pathlib import Path
 
 import pytest
 
@@ -138,3 +141,12 @@ def test_writer_refuses_an_existing_file_unless_asked(tmp_path):
 def test_writer_names_a_missing_folder(tmp_path):
     with pytest.raises(InputError, match=r"folder .*missing does not exist"):
         check_target(tmp_path / "missing" / "report.html", replace=True)
+
+
+def test_the_command_line_starts_without_matplotlib():
+    # matplotlib loads on the first chart only, so `scoremon --help` and every run without a
+    # report start as fast as before
+    code = "import sys, scoremon.cli; print('matplotlib' in sys.modules)"
+    result = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
+                            cwd=Path(__file__).resolve().parents[3])
+    assert result.stdout.strip() == "False"
