@@ -244,7 +244,7 @@ def _waterfall(report: MonitorReport) -> Section:
         steps.append(("not from bin shares", unexplained))
 
     def paint(fig, ax):
-        labels = [f"baseline mean"] + [name for name, _ in steps] + [f"{latest.month} mean"]
+        labels = ["baseline mean"] + [name for name, _ in steps] + [f"{latest.month} mean"]
         running = start
         lows, highs = [start, end], [start, end]
         bars = []
