@@ -174,7 +174,7 @@ def threshold(ax: "Axes", value: float, words: str, colour: str, style: str = "-
                                     "alpha": 0.8})
 
 
-def label_bars(ax: "Axes", bars, texts: Sequence[str], inside_dark: bool = False) -> None:
+def label_bars(ax: "Axes", bars, texts: Sequence[str]) -> None:
     """Write each bar's value at its end."""
     ax.bar_label(bars, labels=list(texts), padding=2, fontsize=FONT_SIZE - 1, color=palette.INK)
 

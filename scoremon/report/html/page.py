@@ -184,6 +184,7 @@ td.status .value {{ display:block; font-variant-numeric:tabular-nums; }}
 td.status .word {{ display:block; font-size:11px; }}
 table.grid td, table.grid th {{ padding:2px 5px; font-size:12px; }}
 table.grid th.month {{ white-space:nowrap; }}
+table.grid thead th {{ text-align:center; vertical-align:bottom; }}
 span.badge {{ display:inline-block; padding:0 6px; margin:0 2px; border:1px solid var(--rule); border-radius:3px; white-space:nowrap; }}
 p.legend {{ font-size:13px; color:var(--muted); }}
 p.note {{ font-size:13px; color:var(--muted); }}
