@@ -115,6 +115,8 @@ def _overview(report: MonitorReport) -> Section:
 def _bands(report: MonitorReport) -> Section:
     latest = report.months[-1]
     bands = latest.score_bands
+    if not bands:
+        return Section("Score bands", (paragraph("The baseline has no score bands."),), key="bands")
     labels = [b.label for b in bands]
     expected = [b.expected or 0.0 for b in bands]
     actual = [b.actual or 0.0 for b in bands]
@@ -314,7 +316,9 @@ def _calibration(report: MonitorReport) -> Section:
 
 
 def _grade_chart(month: MonthResult) -> Markup:
-    grades = [g for g in month.calibration.grades]
+    grades = [g for g in month.calibration.grades if g.rows > 0]
+    if not grades:
+        return paragraph(f"No grade of {month.month} has rows with a known outcome.")
     intervals = [jeffreys_interval(g.rows, g.events) for g in grades]
 
     def paint(fig, ax):
@@ -505,6 +509,8 @@ RATES = (("missing_rate", "missing", palette.SERIES[0]), ("unseen_rate", "unseen
 def _rates(report: MonitorReport) -> Markup:
     months = _months(report)
     features = [q.feature for q in report.months[0].quality]
+    if not features:
+        return paragraph("No characteristic has data-quality figures.")
     columns = 4
     rows = -(-len(features) // columns)
     series = {f: {key: [] for key, _, _ in RATES} for f in features}

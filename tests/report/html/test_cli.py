@@ -1,14 +1,20 @@
-"""`--html` on `monitor` and `diff`, and `scoremon pack`, run in-process: files, exit codes, messages."""
+"""`--html` on `monitor` and `diff`, and `scoremon pack`, run in-process: files, exit codes, messages;
+and the monitoring report of small runs."""
 from __future__ import annotations
 
 import re
+from datetime import date
 
 import duckdb
 import pytest
 
+from scoremon import api
 from scoremon.cli import main
+from scoremon.engines import DuckDBEngine
 from scoremon.monitor.history import RUNS_TABLE
-from tests.monitor.book import SPEC_PATH
+from scoremon.monitor.months import Month
+from scoremon.report.html.monitor import monitor_html
+from tests.monitor.book import SPEC_PATH, load_book, make_book
 from tests.monitor.test_cli import baseline_spec, make_database, monitor
 
 
@@ -103,3 +109,20 @@ def test_pack_of_an_unknown_model_or_a_database_without_history(book, tmp_path, 
     capsys.readouterr()
     assert main(["pack", "no_such_model", "--db", str(book), "--html", str(pack)]) == 2
     assert "the monitoring history holds no run of model 'no_such_model'" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("months, as_of", [(1, "2024-01-31"), (3, "2025-12-31"), (12, "2024-12-31")])
+def test_monitoring_report_of_small_runs(tmp_path, months, as_of):
+    # one month, every month mature, some immature: the report is whole each time (same parts,
+    # the cautions at the end) and every chart it draws is labelled
+    engine = DuckDBEngine(":memory:")
+    try:
+        load_book(engine, "book", make_book(months=months, rows_per_month=150, seed=9))
+        report = api.monitor(api.load_spec(SPEC_PATH), engine, "book", "application_month",
+                             date.fromisoformat(as_of), "bad", baseline_months=(Month(2024, 1), Month(2024, 1)),
+                             record_history=False)
+    finally:
+        engine.close()
+    text = monitor_html(report, "duckdb")
+    assert text.rstrip().endswith("</html>") and text.rindex('class="cautions"') > text.rindex("<section")
+    assert text.count("<svg") == text.count('role="img"') == text.count("</figcaption>") - 1  # + the grid's caption
