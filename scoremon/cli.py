@@ -1,239 +1,23 @@
-"""The command line: arguments, calls into :mod:`scoremon.api`, printing, exit codes.
+"""The command line: arguments, exit codes, one line per problem.
 
 Exit codes: 0 success; 1 the run found what it looks for (an alert, a difference);
 2 invalid input (a spec, a table, a column, an option), with one line per problem.
+
+What each command does lives in :mod:`scoremon.commands`, imported once the arguments are read:
+``scoremon --help`` and ``scoremon --version`` start without loading it (nor pydantic, rich or any
+engine driver).
 """
 from __future__ import annotations
 
 import argparse
 import sys
-import time
-from datetime import datetime, timezone
-from pathlib import Path
 
-from . import api
-from .bench import BenchSettings, run_bench
-from .bench.engines import EngineBenchSettings, run_engine_bench
+from . import __version__
 from .dialects import DIALECTS, dialects_help
 from .engines import ENGINE_URLS
 from .errors import InputError, ScoremonError, SpecError
-from .report import terminal
-from .report.html.diff import diff_html
-from .report.html.files import check_target, write_text_file
-from .report.html.monitor import monitor_html
-from .report.html.pack import pack_html
-from .report.json import to_json
-from .report.markdown import diff_markdown
-from .report.terminal import bench as bench_view
-from .report.terminal import diff as diff_view
-from .report.terminal import monitor as monitor_view
-from .report.terminal import score as score_view
-from .spec import fingerprint
-from .spec.schema import schema_text
 
 EXIT_OK, EXIT_FOUND, EXIT_INVALID = 0, 1, 2
-
-
-def _check(args) -> int:
-    spec = api.load_spec(args.spec)
-    terminal.print_check_ok(args.spec, spec, fingerprint(spec))
-    return EXIT_OK
-
-
-def _compile(args) -> int:
-    spec = api.load_spec(args.spec)
-    sql = api.compile_sql(spec, args.dialect, args.table, args.key or ())
-    if args.out:
-        Path(args.out).write_text(sql + ";\n", encoding="utf-8")
-        terminal.print_text(f"wrote {args.out}")
-    else:
-        terminal.print_text(sql + ";")
-    return EXIT_OK
-
-
-def _score(args) -> int:
-    spec = api.load_spec(args.spec)
-    if (args.out_table is None) == (args.out is None):
-        raise InputError("give --out-table NAME (a table in --db) or --out FILE.parquet, one of the two")
-    engine = api.open_engine(args.db, threads=args.threads)
-    try:
-        source = api.source_relation(table=args.table, file=args.input)
-        with terminal.progress_bar("scoring") as progress:
-            result = api.score(spec, engine, source, args.key or (), args.out_table, args.out, progress)
-    finally:
-        engine.close()
-    score_view.print_score_result(result)
-    terminal.print_cautions()
-    return EXIT_OK
-
-
-def _schema(args) -> int:
-    if args.out:
-        Path(args.out).write_text(schema_text(), encoding="utf-8")
-        terminal.print_text(f"wrote {args.out}")
-    else:
-        terminal.print_text(schema_text())
-    return EXIT_OK
-
-
-def _load_both(old_path: str, new_path: str):
-    """Both specs, or one SpecError listing the problems of both files."""
-    specs, problems = [], []
-    for path in (old_path, new_path):
-        try:
-            specs.append(api.load_spec(path))
-        except SpecError as error:
-            problems += error.problems
-    if problems:
-        raise SpecError(problems)
-    return specs
-
-
-def _writable(path: str | None) -> Path | None:
-    if path is None:
-        return None
-    target = Path(path)
-    if not target.parent.exists():
-        raise InputError(f"{target}: folder {target.parent} does not exist; create it or choose another path")
-    return target
-
-
-def _diff(args) -> int:
-    population = args.table is not None or args.input is not None
-    if not population:
-        given = [name for name, value in (("--db", args.db), ("--outcome", args.outcome), ("--cutoff", args.cutoff),
-                                          ("--new-cutoff", args.new_cutoff)) if value is not None]
-        if given:
-            raise InputError(f"{', '.join(given)} describe the population; also give --table (with --db) or --input")
-    if args.table is not None and args.db is None:
-        raise InputError("--table names a table in a database; give the database with --db (or use --input FILE)")
-    json_file, markdown_file = _writable(args.json), _writable(args.markdown)
-    html_file = check_target(args.html, args.replace) if args.html else None
-    old, new = _load_both(args.old, args.new)
-    diff = api.diff_models(old, new, args.old, args.new)
-    impact = None
-    dialect = None
-    if population:
-        engine = api.open_engine(args.db)
-        dialect = engine.dialect
-        try:
-            source = api.source_relation(table=args.table, file=args.input)
-            where = f"table {args.table} in {args.db}" if args.table is not None else f"file {args.input}"
-            with terminal.progress_bar("scoring both versions") as progress:
-                impact = api.measure_impact(old, new, engine, source, where, args.outcome, args.cutoff,
-                                            args.new_cutoff, progress)
-        finally:
-            engine.close()
-    report = api.DiffReport(diff, impact, datetime.now(timezone.utc).isoformat(timespec="seconds"))
-    diff_view.print_diff(report)
-    for target, text in ((json_file, lambda: to_json(report)), (markdown_file, lambda: diff_markdown(report))):
-        if target is not None:
-            target.write_text(text() + "\n", encoding="utf-8")
-            terminal.print_text(f"wrote {target}")
-    if html_file is not None:
-        _write_html(html_file, lambda: diff_html(report, old, new, dialect), args.replace)
-    return EXIT_OK if diff.is_equivalent else EXIT_FOUND
-
-
-def _write_html(target: Path, build, replace: bool) -> None:
-    started = time.perf_counter()
-    written = write_text_file(target, build(), replace)
-    terminal.print_text(f"wrote {written} ({time.perf_counter() - started:.1f} s)")
-
-
-def _bench(args) -> int:
-    if args.engines is not None:
-        engine_settings = EngineBenchSettings(tuple(args.engines), args.engine_rows, args.repeat, args.threads)
-        report = run_engine_bench(engine_settings, bench_view.TerminalObserver())
-        bench_view.print_bench_report(report)
-        return EXIT_OK
-    settings = BenchSettings(rows=args.rows, repeat=args.repeat, threads=args.threads, memory_rows=args.memory_rows,
-                             skip_memory=args.skip_memory, memory_limit=args.memory_limit, folder=args.folder)
-    report = run_bench(settings, bench_view.TerminalObserver())
-    bench_view.print_bench_report(report)
-    return EXIT_FOUND if any(line.goal_met is False for line in report.lines) else EXIT_OK
-
-
-def _baseline(args) -> int:
-    spec = api.load_spec(args.spec)
-    out = Path(args.out)
-    if out.exists() and out.resolve() == Path(args.spec).resolve():
-        raise InputError(f"--out {out} is the spec itself; a spec is never overwritten in place, give a new file name")
-    engine = api.open_engine(args.db)
-    try:
-        source = api.source_relation(table=args.table)
-        baseline = api.measure_development(spec, engine, source, args.outcome, args.month_column,
-                                           computed_from=f"table {args.table}")
-    finally:
-        engine.close()
-    written = api.write_spec_with_baseline(args.spec, baseline, out)
-    monitor_view.print_baseline_written(str(written), baseline, fingerprint(spec))
-    return EXIT_OK
-
-
-def _monitor(args) -> int:
-    spec = api.load_spec(args.spec)
-    thresholds = api.load_thresholds(args.thresholds)
-    as_of = _date(args.as_of, "--as-of") if args.as_of else datetime.now(timezone.utc).date()
-    months = None
-    if args.baseline_months:
-        first, _, last = args.baseline_months.partition(":")
-        months = (api.parse_month(first, "--baseline-months start"), api.parse_month(last or first, "--baseline-months end"))
-        if months[1] < months[0]:
-            raise InputError(f"--baseline-months {args.baseline_months}: the end comes before the start")
-    json_file = _writable(args.json)
-    html_file = check_target(args.html, args.replace) if args.html else None
-    engine = api.open_engine(args.db)
-    dialect = engine.dialect
-    try:
-        report = api.monitor(spec, engine, args.table, args.month_column, as_of, args.outcome, thresholds,
-                             args.baseline_table, months, record_history=not args.no_history)
-    finally:
-        engine.close()
-    monitor_view.print_monitor_report(report, history_written=not args.no_history)
-    if json_file is not None:
-        json_file.write_text(to_json(report) + "\n", encoding="utf-8")
-        terminal.print_text(f"wrote {json_file}")
-    if html_file is not None:
-        _write_html(html_file, lambda: monitor_html(report, dialect), args.replace)
-    return EXIT_FOUND if report.has_alert else EXIT_OK
-
-
-def _pack(args) -> int:
-    if args.runs and (args.first or args.last):
-        raise InputError("give --runs, or a range of months with --from and --to, not both")
-    first = str(api.parse_month(args.first, "--from")) if args.first else None
-    last = str(api.parse_month(args.last, "--to")) if args.last else None
-    if first and last and last < first:
-        raise InputError(f"--from {first} --to {last}: the end comes before the start")
-    html_file = check_target(args.html, args.replace)
-    if "://" not in args.db and args.db != ":memory:" and not Path(args.db).exists():
-        # DuckDB would create an empty database there; a pack only reads
-        raise InputError(f"--db {args.db}: no such database file; give the database `scoremon monitor` wrote to")
-    model = api.model_name_of(args.model)
-    engine = api.open_engine(args.db)
-    try:
-        history = api.read_history(engine, model, tuple(args.runs or ()), first, last)
-    finally:
-        engine.close()
-    if not any(history.figures.values()):
-        raise InputError(f"the runs of {model} measured no month in {first or 'the first month'} to "
-                         f"{last or 'the last month'}; widen the range")
-    _write_html(html_file, lambda: pack_html(history, engine.dialect), args.replace)
-    return EXIT_OK
-
-
-def _date(text: str, option: str):
-    try:
-        return datetime.strptime(text, "%Y-%m-%d").date()
-    except ValueError:
-        raise InputError(f"{option} {text!r} is not a date; write it as YYYY-MM-DD, e.g. 2026-11-30") from None
-
-
-def _demo(args) -> int:
-    from demo_warehouse.run import run_demo
-
-    return run_demo(args)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -242,11 +26,12 @@ def build_parser() -> argparse.ArgumentParser:
         description="Keep a logistic-regression scoring model as a YAML spec, score with SQL, monitor it.",
         epilog="exit codes: 0 ok; 1 something found (alert, difference); 2 invalid input",
     )
+    parser.add_argument("--version", action="version", version=f"scoremon {__version__}")
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
     check = commands.add_parser("check", help="validate a spec; every problem with file:line:column")
     check.add_argument("spec", help="the spec file (YAML)")
-    check.set_defaults(run=_check)
+    check.set_defaults(run="check")
 
     compile_ = commands.add_parser("compile", help="print the scoring SQL for a spec")
     compile_.add_argument("spec")
@@ -255,7 +40,7 @@ def build_parser() -> argparse.ArgumentParser:
     compile_.add_argument("--table", default="input", help="table the SQL reads (default: input)")
     compile_.add_argument("--key", action="append", help="a column passed through to the output (repeatable)")
     compile_.add_argument("--out", help="write the SQL to this file instead of printing it")
-    compile_.set_defaults(run=_compile)
+    compile_.set_defaults(run="compile_")
 
     score = commands.add_parser("score", help="score a table (DuckDB, PostgreSQL or Spark) or a Parquet/CSV file (DuckDB)")
     score.add_argument("spec")
@@ -268,11 +53,11 @@ def build_parser() -> argparse.ArgumentParser:
     score.add_argument("--out", help="write the scores to this Parquet file (replaced whole)")
     score.add_argument("--threads", type=int, default=None,
                        help="DuckDB threads, or the cores of a spark://local session (default: all cores for DuckDB)")
-    score.set_defaults(run=_score)
+    score.set_defaults(run="score")
 
     schema = commands.add_parser("schema", help="print the spec's JSON Schema (for editors)")
     schema.add_argument("--out", help="write it to this file")
-    schema.set_defaults(run=_schema)
+    schema.set_defaults(run="schema")
 
     diff = commands.add_parser(
         "diff", help="what changed between two versions of a model, and whom it affects",
@@ -298,7 +83,7 @@ def build_parser() -> argparse.ArgumentParser:
     diff.add_argument("--html", metavar="FILE", help="also write a report with charts, one self-contained HTML "
                                                      "file, to FILE")
     diff.add_argument("--replace", action="store_true", help="overwrite the --html file if it exists")
-    diff.set_defaults(run=_diff)
+    diff.set_defaults(run="diff")
 
     bench = commands.add_parser(
         "bench", help="measure scoring speed and memory as ratios against baselines, side by side",
@@ -321,7 +106,7 @@ def build_parser() -> argparse.ArgumentParser:
                             "given (postgresql://…, spark://local[N], …); the rows are loaded into each engine")
     bench.add_argument("--engine-rows", type=int, default=1_000_000,
                        help="rows for --engines (default 1,000,000)")
-    bench.set_defaults(run=_bench)
+    bench.set_defaults(run="bench")
 
     baseline = commands.add_parser(
         "baseline", help="measure a development table and write a new spec file with its baseline",
@@ -337,7 +122,7 @@ def build_parser() -> argparse.ArgumentParser:
     baseline.add_argument("--outcome", help="0/1 outcome column (NULL: not known), for event rate, AUC and KS")
     baseline.add_argument("--month-column", help="month column, for the development rows per month")
     baseline.add_argument("--out", required=True, metavar="NEW_SPEC", help="the new spec file to write")
-    baseline.set_defaults(run=_baseline)
+    baseline.set_defaults(run="baseline")
 
     monitor = commands.add_parser(
         "monitor", help="stability, data quality, calibration and discrimination by month, with history",
@@ -372,7 +157,7 @@ def build_parser() -> argparse.ArgumentParser:
     monitor.add_argument("--no-history", action="store_true",
                          help="do not append this run to the history tables (e.g. a trial run, or an engine "
                               "without transactions)")
-    monitor.set_defaults(run=_monitor)
+    monitor.set_defaults(run="monitor")
 
     pack = commands.add_parser(
         "pack", help="a history pack: one model's monitoring over many runs or months, as one HTML file",
@@ -389,20 +174,24 @@ def build_parser() -> argparse.ArgumentParser:
                                                                "instead of --from/--to")
     pack.add_argument("--html", required=True, metavar="FILE", help="the HTML file to write")
     pack.add_argument("--replace", action="store_true", help="overwrite FILE if it exists")
-    pack.set_defaults(run=_pack)
+    pack.set_defaults(run="pack")
 
     demo = commands.add_parser("demo", help="build the demo warehouse and run the whole job on it")
     demo.add_argument("--rows", type=int, default=None, help="applications in the demo book (default: about 400,000)")
     demo.add_argument("--folder", default=None, help="where the demo warehouse is written (default: a temporary folder)")
-    demo.set_defaults(run=_demo)
+    demo.set_defaults(run="demo")
     return parser
 
 
 def main(argv: list[str] | None = None) -> int:
     """Run one command; return its exit code (see the module docstring)."""
     args = build_parser().parse_args(argv)
+    # the commands (and the printing) are imported only once a command runs: see the module docstring
+    from . import commands
+    from .report import terminal
+
     try:
-        return args.run(args)
+        return getattr(commands, args.run)(args)
     except SpecError as error:
         terminal.print_problems([str(p) for p in error.problems])
         return EXIT_INVALID

@@ -9,10 +9,9 @@ import os
 import threading
 import uuid
 from pathlib import Path
-from typing import Any, Sequence
+from typing import TYPE_CHECKING, Any, Sequence
 
 import duckdb
-import pandas as pd
 from sqlglot import exp
 
 from ..dialects import render_table
@@ -21,6 +20,9 @@ from ..trees import INTERNAL, table_path
 from .columns import column_of
 from .protocol import Column, ColumnSpec, Engine, Progress, Query, Row, first_line, named_rows
 from .rows import arrow_table
+
+if TYPE_CHECKING:  # pandas is imported where a frame is made
+    import pandas as pd
 
 
 class DuckDBEngine(Engine):

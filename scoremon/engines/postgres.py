@@ -11,15 +11,17 @@ from __future__ import annotations
 import re
 import uuid
 from decimal import Decimal
-from typing import Any, Sequence
+from typing import TYPE_CHECKING, Any, Sequence
 
-import pandas as pd
 
 from ..dialects import render_name, render_table, render_type
 from ..errors import EngineError, InputError
 from ..trees import INTERNAL
 from .columns import column_of
 from .protocol import Column, ColumnSpec, Engine, Progress, Query, Row, first_line, named_rows
+
+if TYPE_CHECKING:  # pandas is imported where a frame is made
+    import pandas as pd
 _PASSWORD_IN_URL = re.compile(r"(://[^:/@]+:)[^@]*(@)")
 _PASSWORD_PARAMETER = re.compile(r"(password=)[^&\s]*", re.I)
 
@@ -73,6 +75,8 @@ class PostgresEngine(Engine):
         return named_rows(names, rows)
 
     def query_frame(self, tree: Query, purpose: str) -> pd.DataFrame:
+        import pandas as pd
+
         rows, names = self._run(lambda: self._query(self._sql(tree)), purpose)
         return pd.DataFrame.from_records(rows, columns=names)
 

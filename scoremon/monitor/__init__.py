@@ -18,8 +18,8 @@ Only aggregate tables reach Python; the engine is reached through the
 :class:`~scoremon.engines.Engine` protocol only. The package's face is the run
 (:func:`monitor_table`, :func:`measure_development`) and what its callers hand it or get back.
 """
-from .baseline import spec_text_with_baseline
-from .history import History, read_history
+from .baseline import spec_text_with_baseline, write_spec_with_baseline
+from .history import History, model_name_of, read_history
 from .months import Month, parse_month
 from .records import MonitorReport, MonthResult
 from .run import measure_development, monitor_table
@@ -34,8 +34,10 @@ __all__ = [
     "Thresholds",
     "load_thresholds",
     "measure_development",
+    "model_name_of",
     "monitor_table",
     "parse_month",
     "read_history",
     "spec_text_with_baseline",
+    "write_spec_with_baseline",
 ]

@@ -13,15 +13,20 @@ with at least 10 %, 20 %, …, 90 % of development rows strictly below them; rep
 from __future__ import annotations
 
 import math
+import os
 import re
+import uuid
 from dataclasses import dataclass
 from datetime import datetime, timezone
+from pathlib import Path
 from typing import Sequence
 
 import yaml
 from sqlglot import exp
 
 from ..errors import InputError
+from ..spec.canonical import fingerprint
+from ..spec.loading import parse_spec
 from ..spec.model import LINEAR_LABELS, Baseline, BaselineBand, LinearFeature, Spec
 from ..spec.terms import feature_terms
 from . import queries
@@ -175,3 +180,31 @@ def spec_text_with_baseline(spec_text: str, baseline: Baseline) -> str:
     if after:
         section += "\n"
     return before + section + after
+
+
+def write_spec_with_baseline(spec_path: str | Path, baseline: Baseline, out_path: str | Path) -> Path:
+    """Write a copy of the spec at ``spec_path`` with ``baseline`` as its baseline section to ``out_path``.
+
+    Every other line is kept as written. The file appears whole or not at all. Raises
+    :class:`InputError` when ``out_path`` is the spec itself (a spec is never overwritten in
+    place) or its folder does not exist.
+    """
+    spec_path, out_path = Path(spec_path), Path(out_path)
+    if out_path.exists() and out_path.resolve() == spec_path.resolve():
+        raise InputError(f"--out {out_path} is the spec itself; a spec is never overwritten in place, "
+                         "give a new file name (e.g. one with the version in it)")
+    if not out_path.parent.exists():
+        raise InputError(f"{out_path}: folder {out_path.parent} does not exist; create it or choose another path")
+    original = spec_path.read_text(encoding="utf-8")
+    text = spec_text_with_baseline(original, baseline)
+    written = parse_spec(text, file=str(out_path))
+    if fingerprint(written) != fingerprint(parse_spec(original, file=str(spec_path))):
+        raise RuntimeError("writing the baseline changed the model's fingerprint")  # a bug, never an input error
+    temporary = out_path.with_name(f".{out_path.name}.{uuid.uuid4().hex}.partial")
+    try:
+        temporary.write_text(text, encoding="utf-8")
+        os.replace(temporary, out_path)
+    finally:
+        if temporary.exists():
+            temporary.unlink()
+    return out_path

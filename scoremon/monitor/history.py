@@ -22,6 +22,7 @@ import json
 import math
 from dataclasses import dataclass
 from datetime import datetime
+from pathlib import Path
 from typing import Iterator, Sequence
 
 from sqlglot import exp
@@ -29,6 +30,7 @@ from sqlglot import exp
 from ..dialects import render_sql
 from ..engines import Engine
 from ..errors import EngineError, InputError
+from ..spec import load_spec
 from ..trees import column, identifier, integer, number, text
 from .records import MATURE, MonitorReport
 
@@ -315,6 +317,16 @@ def _history_queries(model_name: str, run_ids: Sequence[str], first: str | None,
 def _iso(value) -> str:
     return value.isoformat(sep=" ") if isinstance(value, datetime) else (
         value.isoformat() if hasattr(value, "isoformat") else str(value))
+
+
+def model_name_of(spec_or_model: str) -> str:
+    """The model a history pack is for: the ``model.name`` of a spec file, or the text as a
+    model name when it is not a file. Raises :class:`~scoremon.errors.SpecError` for a spec
+    file that does not load."""
+    path = Path(spec_or_model)
+    if path.suffix.lower() in (".yaml", ".yml") or path.is_file():
+        return load_spec(path).model.name
+    return spec_or_model
 
 
 def _thresholds(value) -> dict:

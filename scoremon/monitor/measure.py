@@ -36,7 +36,6 @@ from datetime import date, datetime, timezone
 from statistics import median
 from typing import Any, Iterator, Sequence
 
-from scipy.stats import norm
 from sqlglot import exp
 
 from ..errors import InputError
@@ -73,6 +72,7 @@ from .statistics import (
     rate_change_critical_value,
     shares_with_empty_bin_rule,
     spiegelhalter,
+    z_value,
 )
 from .thresholds import ALERT, OK, STATUS_ORDER, WATCH, Limit, Thresholds, worst
 
@@ -464,7 +464,7 @@ def _discrimination(sums: HistogramSums | None, baseline: Baseline, thresholds: 
     status = None
     if change is not None:
         critical = [None if found.auc_standard_error is None else
-                    float(norm.ppf(0.5 + level / 2.0)) * found.auc_standard_error
+                    z_value(level) * found.auc_standard_error
                     for level in (thresholds.psi_confidence.watch, thresholds.psi_confidence.alert)]
         status = _material_and_real(-change, thresholds.auc_drop, *critical)
     return Discrimination(int(sums.events), int(sums.non_events), found.auc, found.auc_lower, found.auc_upper,

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import math
+import os
 
 import numpy as np
 import pytest
@@ -117,7 +118,7 @@ def test_no_partial_file_is_left_when_writing_fails(engine, development, tmp_pat
     def refuse(*args):
         raise OSError("disk full")
 
-    monkeypatch.setattr(api.os, "replace", refuse)
+    monkeypatch.setattr(os, "replace", refuse)
     with pytest.raises(OSError):
         api.write_spec_with_baseline(SPEC_PATH, baseline, tmp_path / "out.yaml")
     assert list(tmp_path.iterdir()) == []

@@ -1,0 +1,238 @@
+"""What each command does: calls into :mod:`scoremon.api` and prints through :mod:`scoremon.report`.
+
+:mod:`scoremon.cli` reads the arguments and imports this module only once a command runs, so
+``scoremon --help`` and ``scoremon --version`` load none of what the commands need. Each function
+takes the parsed arguments and returns the exit code (see :mod:`scoremon.cli`).
+"""
+from __future__ import annotations
+
+import time
+from datetime import datetime, timezone
+from pathlib import Path
+
+from . import api
+from .errors import InputError, SpecError
+from .report import terminal
+from .report.html.files import check_target, write_text_file
+from .report.json import to_json
+from .report.markdown import diff_markdown
+from .report.terminal import bench as bench_view
+from .report.terminal import diff as diff_view
+from .report.terminal import monitor as monitor_view
+from .report.terminal import score as score_view
+from .spec import fingerprint
+from .spec.schema import schema_text
+
+EXIT_OK, EXIT_FOUND = 0, 1
+
+
+def check(args) -> int:
+    spec = api.load_spec(args.spec)
+    terminal.print_check_ok(args.spec, spec, fingerprint(spec))
+    return EXIT_OK
+
+
+def compile_(args) -> int:
+    spec = api.load_spec(args.spec)
+    sql = api.compile_sql(spec, args.dialect, args.table, args.key or ())
+    if args.out:
+        Path(args.out).write_text(sql + ";\n", encoding="utf-8")
+        terminal.print_text(f"wrote {args.out}")
+    else:
+        terminal.print_text(sql + ";")
+    return EXIT_OK
+
+
+def score(args) -> int:
+    spec = api.load_spec(args.spec)
+    if (args.out_table is None) == (args.out is None):
+        raise InputError("give --out-table NAME (a table in --db) or --out FILE.parquet, one of the two")
+    engine = api.open_engine(args.db, threads=args.threads)
+    try:
+        source = api.source_relation(table=args.table, file=args.input)
+        with terminal.progress_bar("scoring") as progress:
+            result = api.score(spec, engine, source, args.key or (), args.out_table, args.out, progress)
+    finally:
+        engine.close()
+    score_view.print_score_result(result)
+    terminal.print_cautions()
+    return EXIT_OK
+
+
+def schema(args) -> int:
+    if args.out:
+        Path(args.out).write_text(schema_text(), encoding="utf-8")
+        terminal.print_text(f"wrote {args.out}")
+    else:
+        terminal.print_text(schema_text())
+    return EXIT_OK
+
+
+def _load_both(old_path: str, new_path: str):
+    """Both specs, or one SpecError listing the problems of both files."""
+    specs, problems = [], []
+    for path in (old_path, new_path):
+        try:
+            specs.append(api.load_spec(path))
+        except SpecError as error:
+            problems += error.problems
+    if problems:
+        raise SpecError(problems)
+    return specs
+
+
+def _writable(path: str | None) -> Path | None:
+    if path is None:
+        return None
+    target = Path(path)
+    if not target.parent.exists():
+        raise InputError(f"{target}: folder {target.parent} does not exist; create it or choose another path")
+    return target
+
+
+def diff(args) -> int:
+    population = args.table is not None or args.input is not None
+    if not population:
+        given = [name for name, value in (("--db", args.db), ("--outcome", args.outcome), ("--cutoff", args.cutoff),
+                                          ("--new-cutoff", args.new_cutoff)) if value is not None]
+        if given:
+            raise InputError(f"{', '.join(given)} describe the population; also give --table (with --db) or --input")
+    if args.table is not None and args.db is None:
+        raise InputError("--table names a table in a database; give the database with --db (or use --input FILE)")
+    json_file, markdown_file = _writable(args.json), _writable(args.markdown)
+    html_file = check_target(args.html, args.replace) if args.html else None
+    old, new = _load_both(args.old, args.new)
+    diff = api.diff_models(old, new, args.old, args.new)
+    impact = None
+    dialect = None
+    if population:
+        engine = api.open_engine(args.db)
+        dialect = engine.dialect
+        try:
+            source = api.source_relation(table=args.table, file=args.input)
+            where = f"table {args.table} in {args.db}" if args.table is not None else f"file {args.input}"
+            with terminal.progress_bar("scoring both versions") as progress:
+                impact = api.measure_impact(old, new, engine, source, where, args.outcome, args.cutoff,
+                                            args.new_cutoff, progress)
+        finally:
+            engine.close()
+    report = api.DiffReport(diff, impact, datetime.now(timezone.utc).isoformat(timespec="seconds"))
+    diff_view.print_diff(report)
+    for target, text in ((json_file, lambda: to_json(report)), (markdown_file, lambda: diff_markdown(report))):
+        if target is not None:
+            target.write_text(text() + "\n", encoding="utf-8")
+            terminal.print_text(f"wrote {target}")
+    if html_file is not None:
+        from .report.html.diff import diff_html  # the report modules: loaded only when a report is asked for
+
+        _write_html(html_file, lambda: diff_html(report, old, new, dialect), args.replace)
+    return EXIT_OK if diff.is_equivalent else EXIT_FOUND
+
+
+def _write_html(target: Path, build, replace: bool) -> None:
+    started = time.perf_counter()
+    written = write_text_file(target, build(), replace)
+    terminal.print_text(f"wrote {written} ({time.perf_counter() - started:.1f} s)")
+
+
+def bench(args) -> int:
+    # the benchmark's modules bring numpy, pandas and DuckDB: imported when it runs, not at start-up
+    from .bench import BenchSettings, run_bench
+    from .bench.engines import EngineBenchSettings, run_engine_bench
+
+    if args.engines is not None:
+        engine_settings = EngineBenchSettings(tuple(args.engines), args.engine_rows, args.repeat, args.threads)
+        report = run_engine_bench(engine_settings, bench_view.TerminalObserver())
+        bench_view.print_bench_report(report)
+        return EXIT_OK
+    settings = BenchSettings(rows=args.rows, repeat=args.repeat, threads=args.threads, memory_rows=args.memory_rows,
+                             skip_memory=args.skip_memory, memory_limit=args.memory_limit, folder=args.folder)
+    report = run_bench(settings, bench_view.TerminalObserver())
+    bench_view.print_bench_report(report)
+    return EXIT_FOUND if any(line.goal_met is False for line in report.lines) else EXIT_OK
+
+
+def baseline(args) -> int:
+    spec = api.load_spec(args.spec)
+    out = Path(args.out)
+    if out.exists() and out.resolve() == Path(args.spec).resolve():
+        raise InputError(f"--out {out} is the spec itself; a spec is never overwritten in place, give a new file name")
+    engine = api.open_engine(args.db)
+    try:
+        source = api.source_relation(table=args.table)
+        baseline = api.measure_development(spec, engine, source, args.outcome, args.month_column,
+                                           computed_from=f"table {args.table}")
+    finally:
+        engine.close()
+    written = api.write_spec_with_baseline(args.spec, baseline, out)
+    monitor_view.print_baseline_written(str(written), baseline, fingerprint(spec))
+    return EXIT_OK
+
+
+def monitor(args) -> int:
+    spec = api.load_spec(args.spec)
+    thresholds = api.load_thresholds(args.thresholds)
+    as_of = _date(args.as_of, "--as-of") if args.as_of else datetime.now(timezone.utc).date()
+    months = None
+    if args.baseline_months:
+        first, _, last = args.baseline_months.partition(":")
+        months = (api.parse_month(first, "--baseline-months start"), api.parse_month(last or first, "--baseline-months end"))
+        if months[1] < months[0]:
+            raise InputError(f"--baseline-months {args.baseline_months}: the end comes before the start")
+    json_file = _writable(args.json)
+    html_file = check_target(args.html, args.replace) if args.html else None
+    engine = api.open_engine(args.db)
+    dialect = engine.dialect
+    try:
+        report = api.monitor(spec, engine, args.table, args.month_column, as_of, args.outcome, thresholds,
+                             args.baseline_table, months, record_history=not args.no_history)
+    finally:
+        engine.close()
+    monitor_view.print_monitor_report(report, history_written=not args.no_history)
+    if json_file is not None:
+        json_file.write_text(to_json(report) + "\n", encoding="utf-8")
+        terminal.print_text(f"wrote {json_file}")
+    if html_file is not None:
+        from .report.html.monitor import monitor_html  # the report modules: loaded only when a report is asked for
+
+        _write_html(html_file, lambda: monitor_html(report, dialect), args.replace)
+    return EXIT_FOUND if report.has_alert else EXIT_OK
+
+
+def pack(args) -> int:
+    if args.runs and (args.first or args.last):
+        raise InputError("give --runs, or a range of months with --from and --to, not both")
+    first = str(api.parse_month(args.first, "--from")) if args.first else None
+    last = str(api.parse_month(args.last, "--to")) if args.last else None
+    if first and last and last < first:
+        raise InputError(f"--from {first} --to {last}: the end comes before the start")
+    html_file = check_target(args.html, args.replace)
+    if "://" not in args.db and args.db != ":memory:" and not Path(args.db).exists():
+        # DuckDB would create an empty database there; a pack only reads
+        raise InputError(f"--db {args.db}: no such database file; give the database `scoremon monitor` wrote to")
+    model = api.model_name_of(args.model)
+    engine = api.open_engine(args.db)
+    try:
+        history = api.read_history(engine, model, tuple(args.runs or ()), first, last)
+    finally:
+        engine.close()
+    if not any(history.figures.values()):
+        raise InputError(f"the runs of {model} measured no month in {first or 'the first month'} to "
+                         f"{last or 'the last month'}; widen the range")
+    from .report.html.pack import pack_html  # the report modules: loaded only when a report is asked for
+
+    _write_html(html_file, lambda: pack_html(history, engine.dialect), args.replace)
+    return EXIT_OK
+
+
+def _date(text: str, option: str):
+    try:
+        return datetime.strptime(text, "%Y-%m-%d").date()
+    except ValueError:
+        raise InputError(f"{option} {text!r} is not a date; write it as YYYY-MM-DD, e.g. 2026-11-30") from None
+
+
+def demo(args) -> int:
+    from demo_warehouse.run import run_demo
+
+    return run_demo(args)
