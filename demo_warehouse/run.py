@@ -19,13 +19,12 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Callable
 
-from scoremon import api
+from scoremon import api, files
 from scoremon.api import ScoreResult
 from scoremon.errors import InputError
 from scoremon.monitor.history import METRICS_TABLE, RUNS_TABLE
 from scoremon.report import terminal
 from scoremon.report.html.diff import diff_html
-from scoremon.report.html.files import write_text_file
 from scoremon.report.html.monitor import monitor_html
 from scoremon.report.html.pack import pack_html
 from scoremon.report.json import to_json
@@ -110,7 +109,7 @@ def score_book(run: DemoRun) -> StepOutcome:
     try:
         with terminal.progress_bar("scoring the book") as progress:
             run.scored = api.score(run.spec, engine, api.source_relation(table=generate.APPLICATIONS),
-                                   keys=SCORED_KEYS, out_table=SCORED, progress=progress)
+                                   keys=SCORED_KEYS, out_table=SCORED, progress=progress, replace=True)
     finally:
         engine.close()
     run.tables.append(SCORED)
@@ -129,16 +128,17 @@ def monitor_book(run: DemoRun) -> StepOutcome:
         baseline = api.measure_development(run.spec, engine, api.source_relation(table=generate.DEVELOPMENT),
                                            generate.OUTCOME_COLUMN, generate.MONTH_COLUMN,
                                            f"table {generate.DEVELOPMENT}")
-        spec_path = api.write_spec_with_baseline(run.spec_path, baseline, run.folder / BASELINE_SPEC_FILE)
+        spec_path = api.write_spec_with_baseline(run.spec_path, baseline, run.folder / BASELINE_SPEC_FILE,
+                                                replace=True)
         report = api.monitor(api.load_spec(spec_path), engine, generate.APPLICATIONS, generate.MONTH_COLUMN,
                              generate.AS_OF, generate.OUTCOME_COLUMN)
         dialect = engine.dialect
     finally:
         engine.close()
     figures = run.folder / MONITOR_JSON_FILE
-    figures.write_text(to_json(report) + "\n", encoding="utf-8")
+    files.write_text(figures, to_json(report) + "\n")
     # the demo's folder is its own: a second run replaces the reports of the first
-    charts = write_text_file(run.folder / MONITOR_HTML_FILE, monitor_html(report, dialect), replace=True)
+    charts = files.write_text(run.folder / MONITOR_HTML_FILE, monitor_html(report, dialect))
     run.tables += [RUNS_TABLE, METRICS_TABLE]
     mature = sum(1 for m in report.months if m.maturity == "mature")
     flagged = "; ".join(f"{words} {_month_ranges(report, family)}" for words, family in (
@@ -182,8 +182,8 @@ def diff_versions(run: DemoRun) -> StepOutcome:
         engine.close()
     report = api.DiffReport(diff, impact, datetime.now(timezone.utc).isoformat(timespec="seconds"))
     audit = run.folder / DIFF_AUDIT_FILE
-    audit.write_text(diff_markdown(report) + "\n", encoding="utf-8")
-    charts = write_text_file(run.folder / DIFF_HTML_FILE, diff_html(report, run.spec, new, dialect), replace=True)
+    files.write_text(audit, diff_markdown(report) + "\n")
+    charts = files.write_text(run.folder / DIFF_HTML_FILE, diff_html(report, run.spec, new, dialect))
     cells = {cell.name: cell for cell in impact.swap_set.cells}
     return StepOutcome((
         f"version {diff.old.version} → {diff.new.version}: {len(diff.changes)} changes, class "
@@ -201,7 +201,7 @@ def pack_history(run: DemoRun) -> StepOutcome:
         dialect = engine.dialect
     finally:
         engine.close()
-    pack = write_text_file(run.folder / PACK_HTML_FILE, pack_html(history, dialect), replace=True)
+    pack = files.write_text(run.folder / PACK_HTML_FILE, pack_html(history, dialect))
     return StepOutcome((f"{len(history.runs)} monitoring run{'s' if len(history.runs) != 1 else ''} of "
                         f"{history.model_name} read back from the history tables into {pack}",))
 

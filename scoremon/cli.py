@@ -1,7 +1,9 @@
 """The command line: arguments, exit codes, one line per problem.
 
 Exit codes: 0 success; 1 the run found what it looks for (an alert, a difference);
-2 invalid input (a spec, a table, a column, an option), with one line per problem.
+2 invalid input (a spec, a table, a column, an option), with one line per problem;
+3 an internal error (a bug in scoremon: one line, the full trace written to a file);
+130 interrupted (Ctrl-C), nothing written.
 
 What each command does lives in :mod:`scoremon.commands`, imported once the arguments are read:
 ``scoremon --help`` and ``scoremon --version`` start without loading it (nor pydantic, rich or any
@@ -11,20 +13,23 @@ from __future__ import annotations
 
 import argparse
 import sys
+import tempfile
+import traceback
 
 from . import __version__
 from .dialects import DIALECTS, dialects_help
 from .engines import ENGINE_URLS
-from .errors import InputError, ScoremonError, SpecError
+from .errors import InputError, ScoremonError, SpecError, cut
 
-EXIT_OK, EXIT_FOUND, EXIT_INVALID = 0, 1, 2
+EXIT_OK, EXIT_FOUND, EXIT_INVALID, EXIT_INTERNAL, EXIT_INTERRUPTED = 0, 1, 2, 3, 130
 
 
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="scoremon",
         description="Keep a logistic-regression scoring model as a YAML spec, score with SQL, monitor it.",
-        epilog="exit codes: 0 ok; 1 something found (alert, difference); 2 invalid input",
+        epilog="exit codes: 0 ok; 1 something found (alert, difference); 2 invalid input; "
+               "3 internal error (a bug; the trace goes to a file); 130 interrupted",
     )
     parser.add_argument("--version", action="version", version=f"scoremon {__version__}")
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
@@ -40,6 +45,7 @@ def build_parser() -> argparse.ArgumentParser:
     compile_.add_argument("--table", default="input", help="table the SQL reads (default: input)")
     compile_.add_argument("--key", action="append", help="a column passed through to the output (repeatable)")
     compile_.add_argument("--out", help="write the SQL to this file instead of printing it")
+    compile_.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
     compile_.set_defaults(run="compile_")
 
     score = commands.add_parser("score", help="score a table (DuckDB, PostgreSQL or Spark) or a Parquet/CSV file (DuckDB)")
@@ -49,14 +55,18 @@ def build_parser() -> argparse.ArgumentParser:
     source.add_argument("--table", help="table in --db to score (NAME or SCHEMA.NAME)")
     source.add_argument("--input", help="Parquet or CSV file to score")
     score.add_argument("--key", action="append", help="a column passed through to the output (repeatable)")
-    score.add_argument("--out-table", help="write the scores to this table in --db (replaced whole)")
-    score.add_argument("--out", help="write the scores to this Parquet file (replaced whole)")
+    score.add_argument("--out-table", help="write the scores to this table in --db (written whole, atomically)")
+    score.add_argument("--out", help="write the scores to this file: FILE.parquet (Parquet) or FILE.csv (CSV)")
+    score.add_argument("--replace", action="store_true", help="replace --out-table or --out when it exists (without it, an existing output is an error)")
+    score.add_argument("--allow-empty", action="store_true",
+                       help="write the output even when the input holds no rows (refused without it)")
     score.add_argument("--threads", type=int, default=None,
                        help="DuckDB threads, or the cores of a spark://local session (default: all cores for DuckDB)")
     score.set_defaults(run="score")
 
     schema = commands.add_parser("schema", help="print the spec's JSON Schema (for editors)")
     schema.add_argument("--out", help="write it to this file")
+    schema.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
     schema.set_defaults(run="schema")
 
     diff = commands.add_parser(
@@ -66,7 +76,8 @@ def build_parser() -> argparse.ArgumentParser:
                     "under both versions in one query and show the score and PD change, the grade migration, "
                     "the swap set at a cut-off and how often the first reason changes.",
         epilog="exit codes: 0 the specs are the same model (equal fingerprints); 1 they differ; "
-               "2 invalid input (a spec, a table, a column, an option), one line per problem",
+               "2 invalid input (a spec, a table, a column, an option), one line per problem; 3 internal error "
+               "(a bug in scoremon, never a difference); 130 interrupted",
     )
     diff.add_argument("old", help="the old version's spec file (YAML)")
     diff.add_argument("new", help="the new version's spec file (YAML)")
@@ -82,7 +93,8 @@ def build_parser() -> argparse.ArgumentParser:
     diff.add_argument("--markdown", metavar="FILE", help="also write an audit document (Markdown) to FILE")
     diff.add_argument("--html", metavar="FILE", help="also write a report with charts, one self-contained HTML "
                                                      "file, to FILE")
-    diff.add_argument("--replace", action="store_true", help="overwrite the --html file if it exists")
+    diff.add_argument("--replace", action="store_true", help="replace --json, --markdown and --html files when they "
+                                                             "exist (without it, an existing output is an error)")
     diff.set_defaults(run="diff")
 
     bench = commands.add_parser(
@@ -90,7 +102,7 @@ def build_parser() -> argparse.ArgumentParser:
         description="Generate synthetic rows for a scorecard of realistic shape in DuckDB, then time compiled "
                     "scoring against a bare scan, a hand-written CASE chain, an export to numpy and a Parquet "
                     "copy, in alternating rounds of one run, and measure a fresh process's peak memory.",
-        epilog="exit codes: 0 every goal met; 1 a goal missed; 2 invalid input",
+        epilog="exit codes: 0 every goal met; 1 a goal missed; 2 invalid input; 3 internal error; 130 interrupted",
     )
     bench.add_argument("--rows", type=int, default=10_000_000, help="rows to score (default 10,000,000)")
     bench.add_argument("--repeat", type=int, default=5, help="timed rounds per comparison (default 5)")
@@ -114,7 +126,7 @@ def build_parser() -> argparse.ArgumentParser:
                     "development score's deciles) and per feature bin, volume, mean score and points, "
                     "unseen-category rates, and with an outcome the event rate, AUC and KS. Writes a copy of "
                     "the spec with the baseline section filled; the spec itself is never overwritten.",
-        epilog="exit codes: 0 written; 2 invalid input, one line per problem",
+        epilog="exit codes: 0 written; 2 invalid input, one line per problem; 3 internal error; 130 interrupted",
     )
     baseline.add_argument("spec", help="the spec file (YAML)")
     baseline.add_argument("--db", required=True, help="engine URL holding --table: a DuckDB file, postgresql://… or spark://…")
@@ -122,6 +134,7 @@ def build_parser() -> argparse.ArgumentParser:
     baseline.add_argument("--outcome", help="0/1 outcome column (NULL: not known), for event rate, AUC and KS")
     baseline.add_argument("--month-column", help="month column, for the development rows per month")
     baseline.add_argument("--out", required=True, metavar="NEW_SPEC", help="the new spec file to write")
+    baseline.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
     baseline.set_defaults(run="baseline")
 
     monitor = commands.add_parser(
@@ -131,7 +144,8 @@ def build_parser() -> argparse.ArgumentParser:
                     "on mature months calibration (Jeffreys, binomial, grade chi-square, Spiegelhalter, Brier) "
                     "and discrimination (AUC, Gini, KS). The table may be scored already or raw (scored on the "
                     "fly). Every run is appended to the history tables in the same database.",
-        epilog="exit codes: 0 nothing on alert; 1 something on alert; 2 invalid input, one line per problem",
+        epilog="exit codes: 0 nothing on alert; 1 something on alert; 2 invalid input, one line per problem; "
+               "3 internal error (a bug in scoremon, never an alert); 130 interrupted, nothing written",
     )
     monitor.add_argument("spec", help="the spec file (YAML) with a baseline section, unless one is given below")
     monitor.add_argument("--db", required=True, help="engine URL holding --table (the history goes there): a DuckDB file, "
@@ -153,7 +167,8 @@ def build_parser() -> argparse.ArgumentParser:
     monitor.add_argument("--json", metavar="FILE", help="also write every figure as JSON to FILE")
     monitor.add_argument("--html", metavar="FILE", help="also write a report with charts, one self-contained HTML "
                                                         "file, to FILE")
-    monitor.add_argument("--replace", action="store_true", help="overwrite the --html file if it exists")
+    monitor.add_argument("--replace", action="store_true", help="replace --json and --html files when they exist "
+                                                                "(without it, an existing output is an error)")
     monitor.add_argument("--no-history", action="store_true",
                          help="do not append this run to the history tables (e.g. a trial run, or an engine "
                               "without transactions)")
@@ -173,7 +188,7 @@ def build_parser() -> argparse.ArgumentParser:
     pack.add_argument("--runs", nargs="+", metavar="RUN", help="only these runs (ids from the runs table), "
                                                                "instead of --from/--to")
     pack.add_argument("--html", required=True, metavar="FILE", help="the HTML file to write")
-    pack.add_argument("--replace", action="store_true", help="overwrite FILE if it exists")
+    pack.add_argument("--replace", action="store_true", help="replace FILE when it exists")
     pack.set_defaults(run="pack")
 
     demo = commands.add_parser("demo", help="build the demo warehouse and run the whole job on it")
@@ -203,7 +218,21 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_INVALID
     except KeyboardInterrupt:
         terminal.print_problems(["interrupted; nothing was written"])
-        return 130
+        return EXIT_INTERRUPTED
+    except Exception as error:  # noqa: BLE001 - a bug: one line for the user, the trace for the report
+        trace = _write_trace()
+        terminal.print_problems([f"internal error (a bug in scoremon): {type(error).__name__}: "
+                                 f"{cut(str(error).splitlines()[0] if str(error) else '')}; full trace in {trace}; "
+                                 "please report it with that file"])
+        return EXIT_INTERNAL
+
+
+def _write_trace() -> str:
+    """Write the exception being handled, with its trace, to a new file; return the file's path."""
+    with tempfile.NamedTemporaryFile("w", prefix="scoremon-trace-", suffix=".txt", delete=False,
+                                     encoding="utf-8") as handle:
+        handle.write(traceback.format_exc())
+        return handle.name
 
 
 if __name__ == "__main__":

@@ -7,13 +7,13 @@ takes the parsed arguments and returns the exit code (see :mod:`scoremon.cli`).
 from __future__ import annotations
 
 import time
-from datetime import datetime, timezone
+from datetime import date, datetime, timezone
 from pathlib import Path
 
-from . import api
+from . import api, files, outputs
+from .engines.urls import redact
 from .errors import InputError, SpecError
 from .report import terminal
-from .report.html.files import check_target, write_text_file
 from .report.json import to_json
 from .report.markdown import diff_markdown
 from .report.terminal import bench as bench_view
@@ -33,10 +33,11 @@ def check(args) -> int:
 
 
 def compile_(args) -> int:
+    out = _file_output(args.out, "--out", args.replace, [("the spec", args.spec)])
     spec = api.load_spec(args.spec)
     sql = api.compile_sql(spec, args.dialect, args.table, args.key or ())
-    if args.out:
-        Path(args.out).write_text(sql + ";\n", encoding="utf-8")
+    if out:
+        files.write_text(out, sql + ";\n")
         terminal.print_text(f"wrote {args.out}")
     else:
         terminal.print_text(sql + ";")
@@ -44,14 +45,21 @@ def compile_(args) -> int:
 
 
 def score(args) -> int:
-    spec = api.load_spec(args.spec)
     if (args.out_table is None) == (args.out is None):
-        raise InputError("give --out-table NAME (a table in --db) or --out FILE.parquet, one of the two")
+        raise InputError("give --out-table NAME (a table in --db) or --out FILE.parquet (or .csv), one of the two")
+    if args.out is not None:
+        outputs.file_format(args.out)
+        _file_output(args.out, "--out", args.replace, [("the spec", args.spec), ("the input file", args.input),
+                                                         *outputs.kept_database(args.db)])
+    spec = api.load_spec(args.spec)
+    source = api.source_relation(table=args.table, file=args.input)
+    if args.input is None or args.out_table is None:  # only writing a table may start a new database
+        outputs.require_database_file(args.db)
     engine = api.open_engine(args.db, threads=args.threads)
     try:
-        source = api.source_relation(table=args.table, file=args.input)
         with terminal.progress_bar("scoring") as progress:
-            result = api.score(spec, engine, source, args.key or (), args.out_table, args.out, progress)
+            result = api.score(spec, engine, source, args.key or (), args.out_table, args.out, progress,
+                               replace=args.replace, allow_empty=args.allow_empty)
     finally:
         engine.close()
     score_view.print_score_result(result)
@@ -60,8 +68,9 @@ def score(args) -> int:
 
 
 def schema(args) -> int:
-    if args.out:
-        Path(args.out).write_text(schema_text(), encoding="utf-8")
+    out = _file_output(args.out, "--out", args.replace, [])
+    if out:
+        files.write_text(out, schema_text())
         terminal.print_text(f"wrote {args.out}")
     else:
         terminal.print_text(schema_text())
@@ -81,13 +90,12 @@ def _load_both(old_path: str, new_path: str):
     return specs
 
 
-def _writable(path: str | None) -> Path | None:
+def _file_output(path: str | None, option: str, replace: bool, kept) -> Path | None:
+    """``path`` once it is known that writing there destroys nothing (see :mod:`scoremon.outputs`)."""
     if path is None:
         return None
-    target = Path(path)
-    if not target.parent.exists():
-        raise InputError(f"{target}: folder {target.parent} does not exist; create it or choose another path")
-    return target
+    outputs.refuse_file(path, option, kept)
+    return files.check_output(path, option, replace)
 
 
 def diff(args) -> int:
@@ -99,18 +107,22 @@ def diff(args) -> int:
             raise InputError(f"{', '.join(given)} describe the population; also give --table (with --db) or --input")
     if args.table is not None and args.db is None:
         raise InputError("--table names a table in a database; give the database with --db (or use --input FILE)")
-    json_file, markdown_file = _writable(args.json), _writable(args.markdown)
-    html_file = check_target(args.html, args.replace) if args.html else None
+    kept = [("the old spec", args.old), ("the new spec", args.new), ("the input file", args.input),
+            *outputs.kept_database(args.db)]
+    json_file = _file_output(args.json, "--json", args.replace, kept)
+    markdown_file = _file_output(args.markdown, "--markdown", args.replace, kept)
+    html_file = _file_output(args.html, "--html", args.replace, kept)
     old, new = _load_both(args.old, args.new)
     diff = api.diff_models(old, new, args.old, args.new)
     impact = None
     dialect = None
     if population:
+        outputs.require_database_file(args.db)
         engine = api.open_engine(args.db)
         dialect = engine.dialect
         try:
             source = api.source_relation(table=args.table, file=args.input)
-            where = f"table {args.table} in {args.db}" if args.table is not None else f"file {args.input}"
+            where = f"table {args.table} in {redact(args.db)}" if args.table is not None else f"file {args.input}"
             with terminal.progress_bar("scoring both versions") as progress:
                 impact = api.measure_impact(old, new, engine, source, where, args.outcome, args.cutoff,
                                             args.new_cutoff, progress)
@@ -120,19 +132,20 @@ def diff(args) -> int:
     diff_view.print_diff(report)
     for target, text in ((json_file, lambda: to_json(report)), (markdown_file, lambda: diff_markdown(report))):
         if target is not None:
-            target.write_text(text() + "\n", encoding="utf-8")
+            files.write_text(target, text() + "\n")
             terminal.print_text(f"wrote {target}")
     if html_file is not None:
         from .report.html.diff import diff_html  # the report modules: loaded only when a report is asked for
 
-        _write_html(html_file, lambda: diff_html(report, old, new, dialect), args.replace)
+        _write_html(html_file, lambda: diff_html(report, old, new, dialect))
     return EXIT_OK if diff.is_equivalent else EXIT_FOUND
 
 
-def _write_html(target: Path, build, replace: bool) -> None:
+def _write_html(target: Path, build) -> None:
+    """Build a report and write it whole (the target was checked before the run); say how long it took."""
     started = time.perf_counter()
-    written = write_text_file(target, build(), replace)
-    terminal.print_text(f"wrote {written} ({time.perf_counter() - started:.1f} s)")
+    files.write_text(target, build())
+    terminal.print_text(f"wrote {target} ({time.perf_counter() - started:.1f} s)")
 
 
 def bench(args) -> int:
@@ -153,10 +166,17 @@ def bench(args) -> int:
 
 
 def baseline(args) -> int:
+    # the monitor's modules load sqlglot and the engines: imported when a command needs them, so
+    # that `scoremon check` starts without them
+    from .monitor.baseline import small_baseline_warning
+    from .monitor.months import out_of_range_note
+
+    if files.is_same_file(args.out, args.spec):
+        raise InputError(f"--out {args.out} is the spec itself; a spec is never overwritten in place, give a new "
+                         "file name")
+    out = _file_output(args.out, "--out", args.replace, outputs.kept_database(args.db))
     spec = api.load_spec(args.spec)
-    out = Path(args.out)
-    if out.exists() and out.resolve() == Path(args.spec).resolve():
-        raise InputError(f"--out {out} is the spec itself; a spec is never overwritten in place, give a new file name")
+    outputs.require_database_file(args.db)
     engine = api.open_engine(args.db)
     try:
         source = api.source_relation(table=args.table)
@@ -164,8 +184,13 @@ def baseline(args) -> int:
                                            computed_from=f"table {args.table}")
     finally:
         engine.close()
-    written = api.write_spec_with_baseline(args.spec, baseline, out)
+    written = api.write_spec_with_baseline(args.spec, baseline, out, replace=args.replace)
     monitor_view.print_baseline_written(str(written), baseline, fingerprint(spec))
+    warning = small_baseline_warning(baseline.rows)
+    if warning:
+        terminal.print_problems([warning])
+    if baseline.rows_out_of_range:
+        terminal.print_problems([f"note: {out_of_range_note(baseline.rows_out_of_range, date.today())}"])
     return EXIT_OK
 
 
@@ -179,8 +204,10 @@ def monitor(args) -> int:
         months = (api.parse_month(first, "--baseline-months start"), api.parse_month(last or first, "--baseline-months end"))
         if months[1] < months[0]:
             raise InputError(f"--baseline-months {args.baseline_months}: the end comes before the start")
-    json_file = _writable(args.json)
-    html_file = check_target(args.html, args.replace) if args.html else None
+    kept = [("the spec", args.spec), ("the thresholds file", args.thresholds), *outputs.kept_database(args.db)]
+    json_file = _file_output(args.json, "--json", args.replace, kept)
+    html_file = _file_output(args.html, "--html", args.replace, kept)
+    outputs.require_database_file(args.db)
     engine = api.open_engine(args.db)
     dialect = engine.dialect
     try:
@@ -190,12 +217,12 @@ def monitor(args) -> int:
         engine.close()
     monitor_view.print_monitor_report(report, history_written=not args.no_history)
     if json_file is not None:
-        json_file.write_text(to_json(report) + "\n", encoding="utf-8")
+        files.write_text(json_file, to_json(report) + "\n")
         terminal.print_text(f"wrote {json_file}")
     if html_file is not None:
         from .report.html.monitor import monitor_html  # the report modules: loaded only when a report is asked for
 
-        _write_html(html_file, lambda: monitor_html(report, dialect), args.replace)
+        _write_html(html_file, lambda: monitor_html(report, dialect))
     return EXIT_FOUND if report.has_alert else EXIT_OK
 
 
@@ -206,10 +233,9 @@ def pack(args) -> int:
     last = str(api.parse_month(args.last, "--to")) if args.last else None
     if first and last and last < first:
         raise InputError(f"--from {first} --to {last}: the end comes before the start")
-    html_file = check_target(args.html, args.replace)
-    if "://" not in args.db and args.db != ":memory:" and not Path(args.db).exists():
-        # DuckDB would create an empty database there; a pack only reads
-        raise InputError(f"--db {args.db}: no such database file; give the database `scoremon monitor` wrote to")
+    html_file = _file_output(args.html, "--html", args.replace, [("the spec", args.model),
+                                                                 *outputs.kept_database(args.db)])
+    outputs.require_database_file(args.db)  # a pack only reads: no database file is made for it
     model = api.model_name_of(args.model)
     engine = api.open_engine(args.db)
     try:
@@ -221,7 +247,7 @@ def pack(args) -> int:
                          f"{last or 'the last month'}; widen the range")
     from .report.html.pack import pack_html  # the report modules: loaded only when a report is asked for
 
-    _write_html(html_file, lambda: pack_html(history, engine.dialect), args.replace)
+    _write_html(html_file, lambda: pack_html(history, engine.dialect))
     return EXIT_OK
 
 

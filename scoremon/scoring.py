@@ -17,10 +17,11 @@ from typing import Sequence
 
 from sqlglot import exp
 
+from . import files, outputs
 from .compiler import compile_model, output_columns
 from .dialects import render_sql
 from .engines import Engine, Progress
-from .errors import InputError
+from .errors import EngineError, InputError
 from .sources import check_columns, describe_source, float_columns, source_relation, table_name
 from .spec.canonical import fingerprint
 from .spec.model import Spec
@@ -55,23 +56,45 @@ def score(
     out_table: str | None = None,
     out_file: str | Path | None = None,
     progress: Progress | None = None,
+    replace: bool = False,
+    allow_empty: bool = False,
 ) -> ScoreResult:
     """Score every row of ``source`` inside ``engine`` and write the result atomically.
 
     Exactly one of ``out_table`` (a table in the engine's database, replaced whole) and
-    ``out_file`` (a Parquet file, replaced whole) is given. The input's columns are checked
-    against the spec before any work starts; :class:`InputError` lists every misfit.
+    ``out_file`` (a ``.parquet`` or ``.csv`` file, replaced whole) is given. Before any work
+    starts, :class:`InputError` refuses: an output that exists unless ``replace``, an output
+    that is the input or a monitoring history table (:mod:`scoremon.outputs`), an input
+    without rows unless ``allow_empty``, and input columns that do not fit the spec (every
+    misfit listed).
     """
     if (out_table is None) == (out_file is None):
         raise InputError("give either an output table or an output file, not both and not neither")
     if not isinstance(source, exp.Table) and not engine.reads_files:
         raise InputError(f"reading a Parquet or CSV file needs the DuckDB engine, not {engine.dialect}; "
                          "load the file into a table in that engine and score the table")
+    if out_file is not None:
+        if not engine.writes_parquet:
+            raise InputError("writing a Parquet or CSV file needs the DuckDB engine; write a table instead")
+        file_format = outputs.file_format(out_file)
+        outputs.refuse_file(out_file, "--out", [("the input file", _source_file(source))])
+        files.check_output(out_file, "--out", replace)
+    else:
+        input_table = None
+        if isinstance(source, exp.Table):
+            input_table = ".".join(part.name for part in (source.args.get("db"), source.this) if part)
+        outputs.refuse_table(out_table, "--out-table", engine.dialect, input_table)
+        if not replace and _table_exists(engine, out_table):
+            raise InputError(f"--out-table {out_table} exists; give --replace to replace it, or choose another name")
     columns = describe_source(engine, source)
     problems = check_columns(spec, columns, keys)
     if problems:
         raise InputError("the input does not fit the spec", problems)
     output_columns(spec, keys)  # a key colliding with an output column is an input error, found now
+    first_row = exp.select(alias(exp.Literal.number(1), "one")).from_(source.copy()).limit(1)
+    if not allow_empty and not engine.query(first_row, "looking for a first input row"):
+        raise InputError("the input holds no rows; scoring it would write an empty output (replacing any "
+                         "previous one); give --allow-empty to write it anyway")
     scoring = compile_model(spec, source, keys, float_columns(columns))
     started = time.perf_counter()
     if out_table is not None:
@@ -80,15 +103,31 @@ def score(
         written = table_path(parts)
         target = out_table
     else:
-        if not engine.writes_parquet:
-            raise InputError("writing a Parquet file needs the DuckDB engine; write a table instead")
-        engine.write_parquet(scoring, out_file, "writing the scored Parquet file", progress)
+        engine.write_file(scoring, out_file,
+                          f"writing the scored {'Parquet' if file_format == 'parquet' else 'CSV'} file",
+                          progress, file_format)
         written = source_relation(file=out_file)
         target = str(out_file)
     seconds = time.perf_counter() - started
     counts = grade_counts(engine, written)
     return ScoreResult(sum(counts.values()), seconds, target, spec.model.name, spec.model.version,
                        fingerprint(spec), counts)
+
+
+def _source_file(source: exp.Expression) -> str | None:
+    """The file a :func:`~scoremon.sources.source_relation` over a file reads, or None for a table."""
+    if isinstance(source, exp.Anonymous) and source.expressions and isinstance(source.expressions[0], exp.Literal):
+        return source.expressions[0].this
+    return None
+
+
+def _table_exists(engine: Engine, name: str) -> bool:
+    # describing a missing table is the one portable question every engine answers (with an error)
+    try:
+        describe_source(engine, source_relation(table=name))
+    except EngineError:
+        return False
+    return True
 
 
 def grade_counts(engine: Engine, scored: exp.Expression) -> dict[str, int]:

@@ -47,8 +47,7 @@ def test_help_and_version_load_no_library_beyond_the_standard_one():
 
 
 def test_check_loads_the_spec_and_the_printer_only():
-    code = ("from scoremon import api\nfrom scoremon.report import terminal\n"
-            "api.load_spec('tests/fixtures/small.yaml')")
+    code = "from scoremon import api, commands\napi.load_spec('tests/fixtures/small.yaml')"
     assert _imported_after(code) == ["pydantic", "rich"]
 
 

@@ -163,7 +163,11 @@ class SparkEngine(Engine):
         return "\n".join(str(row[0]) for row in rows)
 
     def write_parquet(self, tree: Query, path, purpose: str, progress: Progress | None = None) -> None:
-        raise InputError("writing a Parquet file needs the DuckDB engine; write a table instead")
+        self.write_file(tree, path, purpose, progress)
+
+    def write_file(self, tree: Query, path, purpose: str, progress: Progress | None = None,
+                   file_format: str = "parquet") -> None:
+        raise InputError("writing a Parquet or CSV file needs the DuckDB engine; write a table instead")
 
     def write_table(self, tree: Query, table: Sequence[str], purpose: str, progress: Progress | None = None) -> None:
         """Replace ``table`` with the result of a query, best-effort atomic (see the module docstring)."""

@@ -16,8 +16,8 @@ gains ``--html FILE``.
 
 Shared pieces: :mod:`.page` (the page, stamp, sections, tables, status cells, cautions),
 :mod:`.charts` (matplotlib to inline SVG, imported lazily), :mod:`.palette` (colours and
-status marks, and why), :mod:`.files` (writing the file whole, never over an existing one
-unless asked).
+status marks, and why). The command line writes the text through :mod:`scoremon.files`, like
+every other output.
 
 This package imports no heavy library at import time: matplotlib loads on the first chart.
 """

@@ -43,7 +43,7 @@ def monitor_html(report: MonitorReport, engine: str) -> str:
     """The self-contained HTML report of ``report``; ``engine`` is the dialect it ran on.
 
     ``scoremon monitor … --html FILE`` calls it with the run's report and writes the text with
-    :func:`scoremon.report.html.files.write_text_file`.
+    :func:`scoremon.files.write_text`.
     """
     stamp = Stamp(
         title="Monitoring report",

@@ -22,8 +22,7 @@ from demo_warehouse.run import (
     SPEC_V2,
     run_demo,
 )
-from scoremon import api
-from scoremon.report.html.files import write_text_file
+from scoremon import api, files
 from scoremon.report.html.pack import pack_html
 from tests.conftest import in_ci
 
@@ -65,7 +64,7 @@ def demo_reports(tmp_path_factory) -> DemoReports:
         history = api.read_history(engine, v2.model.name)
     finally:
         engine.close()
-    two = write_text_file(folder / "history_pack_two_versions.html", pack_html(history, "duckdb"), replace=False)
+    two = files.write_text(folder / "history_pack_two_versions.html", pack_html(history, "duckdb"))
     return DemoReports(folder, database, folder / MONITOR_HTML_FILE, folder / DIFF_HTML_FILE, folder / PACK_HTML_FILE,
                        two)
 

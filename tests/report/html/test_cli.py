@@ -46,7 +46,7 @@ def test_monitor_writes_html_and_will_not_overwrite_it(book, tmp_path, capsys):
     # refused before any work: the history gains no run
     assert monitor(book, spec, "--html", str(report)) == 2
     out = capsys.readouterr().err
-    assert f"--html {report} exists; give another name, or add --replace to overwrite it" in out
+    assert f"--html {report} exists; give --replace to replace it, or choose another name" in out
     assert runs_in(book) == runs and report.read_text(encoding="utf-8") == first
 
     assert monitor(book, spec, "--html", str(report), "--replace") in (0, 1)

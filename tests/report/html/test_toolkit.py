@@ -1,5 +1,5 @@
 """The shared toolkit: SVG made fit for a page, the page's escaping and status cells, the
-palette's colour-blind rule, and the file writer."""
+palette's colour-blind rule; and a start-up without matplotlib."""
 from __future__ import annotations
 
 import re
@@ -10,9 +10,7 @@ from pathlib import Path
 
 import pytest
 
-from scoremon.errors import InputError
 from scoremon.report.html import charts, palette
-from scoremon.report.html.files import check_target, write_text_file
 from scoremon.report.html.page import Section, Stamp, render_page, status_cell, table
 
 
@@ -123,24 +121,6 @@ def test_text_on_status_fills_has_contrast():
 def test_series_differ_in_line_and_marker_too():
     assert len({s.line for s in palette.SERIES}) == len(palette.SERIES)
     assert len({(palette.series(i).colour, palette.series(i).marker) for i in range(12)}) == 12
-
-
-# ---------------------------------------------------------------- files
-
-def test_writer_refuses_an_existing_file_unless_asked(tmp_path):
-    target = tmp_path / "report.html"
-    write_text_file(target, "first", replace=False)
-    with pytest.raises(InputError, match=r"report\.html exists; give another name, or add --replace"):
-        write_text_file(target, "second", replace=False)
-    assert target.read_text() == "first"
-    write_text_file(target, "third", replace=True)
-    assert target.read_text() == "third"
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["report.html"]  # no temporary file left
-
-
-def test_writer_names_a_missing_folder(tmp_path):
-    with pytest.raises(InputError, match=r"folder .*missing does not exist"):
-        check_target(tmp_path / "missing" / "report.html", replace=True)
 
 
 def test_the_command_line_starts_without_matplotlib():
