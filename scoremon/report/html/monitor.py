@@ -270,7 +270,8 @@ def _waterfall(report: MonitorReport) -> Section:
             down = value < 0
             ax.barh(row, value, left=base, height=0.6, color=palette.COMPARED.colour if down else palette.REFERENCE.colour,
                     hatch="///" if down else None, edgecolor=palette.PAPER, linewidth=0)
-            ax.text(max(base, base + value), row, f" {value:+.2f}", va="center", ha="left",
+            # + 0.0 after rounding: a shift that rounds to zero reads +0.00, not -0.00
+            ax.text(max(base, base + value), row, f" {round(value, 2) + 0.0:+.2f}", va="center", ha="left",
                     fontsize=charts.FONT_SIZE - 0.5)
         ax.set_yticks(y, labels)
         ax.set_xlim(left, right + span * 0.1)

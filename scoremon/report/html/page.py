@@ -263,12 +263,14 @@ def percent(share: float | None, digits: int = 1, signed: bool = False) -> str:
     """``0.0512`` → ``5.1%``; None → a dash."""
     if share is None:
         return DASH
+    share = round(share, digits + 2) + 0.0  # a share that rounds to zero is never written -0.0%
     return f"{share:+.{digits}%}" if signed else f"{share:.{digits}%}"
 
 
 def number(value: float | None, digits: int = 3, signed: bool = False) -> str:
     if value is None:
         return DASH
+    value = round(value, digits) + 0.0  # a value that rounds to zero is never written -0.000
     return f"{value:+,.{digits}f}" if signed else f"{value:,.{digits}f}"
 
 

@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 
 from scoremon.report.html import charts, palette
-from scoremon.report.html.page import Section, Stamp, render_page, status_cell, table
+from scoremon.report.html.page import Section, Stamp, number, percent, render_page, status_cell, table
 
 
 def line_chart(key: str):
@@ -130,3 +130,9 @@ def test_the_command_line_starts_without_matplotlib():
     result = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
                             cwd=Path(__file__).resolve().parents[3])
     assert result.stdout.strip() == "False"
+
+
+def test_numbers_that_round_to_zero_carry_no_minus_sign():
+    assert number(-0.0004, 3) == "0.000" and number(-0.0004, 3, signed=True) == "+0.000"
+    assert percent(-0.00001, 1, signed=True) == "+0.0%" and percent(-0.0123, 1, signed=True) == "-1.2%"
+    assert number(None) == "–" and number(1234.5, 1) == "1,234.5"
