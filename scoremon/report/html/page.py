@@ -4,7 +4,8 @@ captions and numbers, tables, status cells, and the cautions at the foot.
 A page is one self-contained HTML file: the style sheet is inline, charts are inline SVG, and
 nothing is fetched from anywhere — no font, script, style sheet or image — so the file reads
 the same offline, in an archive, or attached to an e-mail. No JavaScript is used. Printing
-(A4) starts each section on a new page and keeps a figure with its caption on one page.
+(A4) starts each section on a new page, never splits a chart and keeps its caption with it;
+the numbers beneath a chart may run on to the next page.
 
 Every text that comes from a spec, a table or a run is escaped here, once: callers hand in
 plain text, or :class:`Markup` for HTML they built with these functions.
@@ -168,7 +169,8 @@ section {{ padding:18px 0 6px; border-bottom:1px solid var(--rule); }}
 section h2 {{ margin:0 0 6px; font-size:20px; }}
 section h2 .number {{ color:var(--muted); margin-right:8px; }}
 section > p.intro {{ margin:0 0 10px; color:var(--muted); }}
-figure {{ margin:14px 0 18px; break-inside:avoid; page-break-inside:avoid; }}
+figure {{ margin:14px 0 18px; }}
+figure .chart {{ break-inside:avoid; page-break-inside:avoid; }}
 figure .chart svg {{ display:block; width:100%; height:auto; }}
 figcaption {{ margin:4px 0 2px; font-weight:bold; font-size:14px; }}
 details {{ margin:2px 0 0; font-size:13px; }}
@@ -198,6 +200,8 @@ footer.cautions h2 {{ margin:0 0 4px; font-size:15px; }}
   section {{ break-before:page; page-break-before:always; border-bottom:0; }}
   section:first-of-type {{ break-before:auto; page-break-before:auto; }}
   section h2 {{ break-after:avoid; }}
+  /* a chart never splits, and its caption stays with it; the numbers beneath may run on */
+  figcaption {{ break-before:avoid; page-break-before:avoid; }}
   details::details-content {{ content-visibility:visible; display:block; }}
   details summary {{ color:var(--ink); }}
   div.scroll {{ overflow:visible; }}
