@@ -69,3 +69,19 @@ def test_a_read_sees_what_the_log_holds(logged, tmp_path, capsys):
     out = tmp_path / "scores.csv"
     assert main(["score", str(SPEC), "--db", str(logged), "--table", "apps", "--out", str(out)]) == 0
     assert len(out.read_text().splitlines()) == 1 + 2
+
+
+def test_a_pack_never_changes_the_database_file(tmp_path, capsys):
+    database = tmp_path / "book.duckdb"
+    make_database(database)
+    # a monitoring run writes the history the pack reads back; then a writer leaves a log
+    assert main(["monitor", str(MONITOR_SPEC), "--db", str(database), "--table", "book", "--month-column",
+                 "application_month", "--outcome", "bad", "--baseline-table", "development", "--as-of",
+                 "2024-12-31"]) in (0, 1)
+    subprocess.run([sys.executable, "-c", _DIE_BEFORE_CHECKPOINT, str(database)], check=True)
+    before = files_of(database)
+    assert database.name + ".wal" in before
+    capsys.readouterr()
+    code = main(["pack", str(MONITOR_SPEC), "--db", str(database), "--html", str(tmp_path / "pack.html")])
+    assert code == 0, capsys.readouterr().err
+    assert files_of(database) == before
