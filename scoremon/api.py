@@ -10,7 +10,6 @@ True
 from __future__ import annotations
 
 import os
-import re
 import time
 import uuid
 from dataclasses import dataclass, field
@@ -20,11 +19,13 @@ from typing import Sequence
 
 from sqlglot import exp
 
-from .compiler import compile_model, identifier, output_columns
+from .compiler import compile_model, output_columns
+from .trees import identifier
 from .dialects import render_sql
 from .diff import DiffReport, Impact, ModelDiff, diff_models, impact_query, summarise_impact
 from .diff.impact import check_outcome_type
-from .engines import DuckDBEngine, Engine, Progress, open_engine
+from .engines import Column, DuckDBEngine, Engine, Progress, open_engine
+from .engines.protocol import INTEGER, TEXT
 from .errors import InputError
 from .monitor import (
     DEFAULT_THRESHOLDS,
@@ -52,17 +53,6 @@ __all__ = ["DiffReport", "Impact", "ModelDiff", "MonitorReport", "ScoreResult", 
            "describe_source", "diff_models", "load_spec", "load_thresholds", "measure_development", "measure_impact",
            "monitor", "open_engine", "parse_month", "score", "source_relation", "write_spec_with_baseline"]
 
-# Column types as each engine's describe() spells them: DuckDB (DOUBLE, VARCHAR, …), PostgreSQL
-# (FLOAT8, INT4, NUMERIC, VARCHAR, BPCHAR, …) and Spark (DOUBLE, INT, STRING, DECIMAL(p,s), …).
-NUMBER_TYPE = re.compile(r"^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|UTINYINT|USMALLINT|UINTEGER|UBIGINT|UHUGEINT|"
-                         r"FLOAT\d?|DOUBLE|REAL|DECIMAL(\(.*\))?|NUMERIC(\(.*\))?|INT\d?|SMALLINT|DOUBLE PRECISION)$", re.I)
-INTEGER_TYPE = re.compile(r"^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|UTINYINT|USMALLINT|UINTEGER|UBIGINT|UHUGEINT|INT\d?)$", re.I)
-# Types that can hold NaN or ±infinity: the floats, and PostgreSQL's NUMERIC (NaN, and ±Infinity
-# since PostgreSQL 14); DuckDB's and Spark's DECIMAL cannot.
-FLOAT_TYPE = re.compile(r"^(FLOAT|DOUBLE|REAL|DOUBLE PRECISION|FLOAT\d|NUMERIC(\(.*\))?)$", re.I)
-TEXT_TYPE = re.compile(r"^(VARCHAR|TEXT|STRING|CHAR|BPCHAR|CHARACTER|CHARACTER VARYING)(\(.*\))?$", re.I)
-
-
 def table_name(name: str) -> list[str]:
     """``"schema.table"`` → ``["schema", "table"]``; each part is quoted when rendered."""
     parts = name.split(".")
@@ -88,13 +78,18 @@ def source_relation(table: str | None = None, file: str | Path | None = None) ->
     return exp.Anonymous(this=reader, expressions=[exp.Literal.string(str(path))])
 
 
-def describe_source(engine: Engine, source: exp.Expression) -> dict[str, str]:
-    """Column name → SQL type of a source."""
+def describe_source(engine: Engine, source: exp.Expression) -> dict[str, Column]:
+    """Column name → :class:`~scoremon.engines.Column` (portable kind, engine's type name) of a source."""
     query = exp.select(exp.Star()).from_(source.copy())
-    return dict(engine.describe(render_sql(query, engine.dialect, pretty=False), "reading the input's columns"))
+    return {column.name: column for column in engine.describe(query, "reading the input's columns")}
 
 
-def check_columns(spec: Spec, columns: dict[str, str], keys: Sequence[str]) -> list[str]:
+def float_columns(columns: dict[str, Column]) -> list[str]:
+    """The columns that can hold NaN or ±infinity, which the scoring SQL then tests for."""
+    return [name for name, column in columns.items() if column.can_hold_nan]
+
+
+def check_columns(spec: Spec, columns: dict[str, Column], keys: Sequence[str]) -> list[str]:
     """Every way the input's columns do not fit the spec, one message each (empty: all fit)."""
     problems = []
     for key in keys:
@@ -102,21 +97,21 @@ def check_columns(spec: Spec, columns: dict[str, str], keys: Sequence[str]) -> l
             problems.append(f"key column {key!r} is not in the input{suggest(key, list(columns))}")
     for feature in spec.features:
         name = feature.column or feature.name
-        kind = columns.get(name)
-        if kind is None:
+        found = columns.get(name)
+        if found is None:
             problems.append(f"column {name!r} (feature {feature.name!r}) is not in the input{suggest(name, list(columns))}")
             continue
         if isinstance(feature, CategoricalFeature):
             values = [v for g in feature.groups for v in g.values] + list(feature.other.values)
             wants_text = any(isinstance(v, str) for v in values)
-            if wants_text and not TEXT_TYPE.match(kind):
-                problems.append(f"column {name!r} (feature {feature.name!r}) is {kind} but the spec lists text "
-                                "categories; convert the column to text or list the categories as whole numbers")
-            elif not wants_text and not INTEGER_TYPE.match(kind):
-                problems.append(f"column {name!r} (feature {feature.name!r}) is {kind} but the spec lists whole-number "
-                                "categories; quote the categories in the spec to compare as text")
-        elif not NUMBER_TYPE.match(kind):
-            problems.append(f"column {name!r} (feature {feature.name!r}) is {kind}, not a number; "
+            if wants_text and found.kind != TEXT:
+                problems.append(f"column {name!r} (feature {feature.name!r}) is {found.type_name} but the spec lists "
+                                "text categories; convert the column to text or list the categories as whole numbers")
+            elif not wants_text and found.kind != INTEGER:
+                problems.append(f"column {name!r} (feature {feature.name!r}) is {found.type_name} but the spec lists "
+                                "whole-number categories; quote the categories in the spec to compare as text")
+        elif not found.is_number:
+            problems.append(f"column {name!r} (feature {feature.name!r}) is {found.type_name}, not a number; "
                             f"a {feature.type} feature needs a numeric column")
     return problems
 
@@ -166,8 +161,7 @@ def score(
     if problems:
         raise InputError("the input does not fit the spec:\n" + "\n".join(f"  - {p}" for p in problems))
     output_columns(spec, keys)  # a key colliding with an output column is an input error, found now
-    floats = [name for name, kind in columns.items() if FLOAT_TYPE.match(kind)]
-    scoring = compile_model(spec, source, keys, floats)
+    scoring = compile_model(spec, source, keys, float_columns(columns))
     started = time.perf_counter()
     if out_table is not None:
         sql = render_sql(scoring, engine.dialect, pretty=False)
@@ -235,8 +229,7 @@ def measure_impact(
     if problems:
         raise InputError("the input does not fit the specs:\n" + "\n".join(f"  - {p}" for p in problems))
     cutoffs = None if cutoff is None else (float(cutoff), float(cutoff if new_cutoff is None else new_cutoff))
-    floats = [name for name, kind in columns.items() if FLOAT_TYPE.match(kind)]
-    query = impact_query(old, new, source, floats, outcome, outcome_is_boolean, cutoffs)
+    query = impact_query(old, new, source, float_columns(columns), outcome, outcome_is_boolean, cutoffs)
     rows = engine.fetch(render_sql(query.tree, engine.dialect, pretty=False),
                         "scoring the population under both versions", progress)
     return summarise_impact(query.columns, rows, old, new, population, outcome, cutoffs)
@@ -268,8 +261,7 @@ def _monitored(spec: Spec, engine: Engine, source: exp.Expression, month_column:
             raise InputError("the table is neither scored by this spec nor has the columns to score it:\n"
                              + "\n".join(f"  - {p}" for p in problems))
         notes.append("the table is scored on the fly by the compiled scoring SQL")
-    floats = [name for name, kind in columns.items() if FLOAT_TYPE.match(kind)]
-    return monitored_rows(spec, source, columns, month_column, outcome, floats), notes
+    return monitored_rows(spec, source, columns, month_column, outcome, float_columns(columns)), notes
 
 
 def measure_development(spec: Spec, engine: Engine, source: exp.Expression, outcome: str | None = None,

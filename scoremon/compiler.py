@@ -62,69 +62,14 @@ from .spec.terms import (
     numeric_bins_in_order,
     special_routes,
 )
+from .trees import INTERNAL, by_bin, case, category_literal, column, double_constant, identifier, integer, number, text, total
 
 ETA_CLAMP = 700.0  # e^700 is finite in double precision; e^710 is not
-INTERNAL = "__scoremon_"
 LINEAR_LOW, LINEAR_IN, LINEAR_HIGH, LINEAR_MISSING = 0, 1, 2, 3
 LOG_ODDS, POINTS = "log_odds", "points"  # see _one_number
 
 
-# ---------------------------------------------------------------- small tree builders
-
-def identifier(name: str) -> exp.Identifier:
-    return exp.to_identifier(name, quoted=True)
-
-
-def column(name: str, table: str | None = None) -> exp.Column:
-    return exp.Column(this=identifier(name), table=identifier(table) if table else None)
-
-
-def number(value: float) -> exp.Expression:
-    """A double literal: ``CAST(<repr> AS DOUBLE)`` (see the module docstring)."""
-    value = float(value)
-    text = repr(value)
-    literal = exp.Literal.number(text.lstrip("-"))
-    if text.startswith("-"):
-        literal = exp.Neg(this=literal)
-    return exp.Cast(this=literal, to=exp.DataType.build("DOUBLE"))
-
-
-def double_constant(name: str) -> exp.Expression:
-    """``CAST('NaN' AS DOUBLE)`` and friends."""
-    return exp.Cast(this=exp.Literal.string(name), to=exp.DataType.build("DOUBLE"))
-
-
-def integer(value: int) -> exp.Literal:
-    return exp.Literal.number(str(int(value)))
-
-
-def text(value: str) -> exp.Literal:
-    return exp.Literal.string(value)
-
-
-def category_literal(value) -> exp.Expression:
-    return integer(value) if isinstance(value, int) else text(value)
-
-
-def case(branches: Iterable[tuple[exp.Expression, exp.Expression]], default: exp.Expression | None = None) -> exp.Expression:
-    ifs = [exp.If(this=cond, true=value) for cond, value in branches]
-    if not ifs and default is not None:
-        return default  # a CASE needs at least one WHEN: `CASE ELSE x END` is a syntax error (e.g. a single grade)
-    return exp.Case(ifs=ifs, default=default)
-
-
-def by_bin(bin_column: exp.Expression, values: Sequence[exp.Expression]) -> exp.Case:
-    """``CASE bin WHEN 0 THEN v0 WHEN 1 THEN v1 … END`` as a searched CASE (portable everywhere)."""
-    return case(((exp.EQ(this=bin_column.copy(), expression=integer(i)), v) for i, v in enumerate(values[:-1])), values[-1])
-
-
-def total(terms: Sequence[exp.Expression]) -> exp.Expression:
-    """a + b + c, evaluated left to right (the order fixes the floating-point result)."""
-    result = terms[0]
-    for term in terms[1:]:
-        result = exp.Add(this=result, expression=term)
-    return result
-
+# ---------------------------------------------------------------- rounding
 
 def round_half_away_sql(value: exp.Expression) -> exp.Expression:
     """:func:`scoremon.spec.terms.round_half_away` in double arithmetic, the same on every engine.

@@ -47,6 +47,7 @@ from sqlglot import exp
 from sqlglot.errors import ErrorLevel
 
 from .errors import InputError
+from .trees import table_path
 
 # dialect name → whether the test suite runs the rendered SQL on a real engine
 DIALECTS: dict[str, bool] = {
@@ -83,14 +84,6 @@ def render_sql(tree: exp.Expression, dialect: str = "duckdb", pretty: bool = Tru
     if adjust is not None:
         tree = tree.copy().transform(adjust, copy=False)
     return tree.sql(dialect=dialect, identify=True, pretty=pretty, unsupported_level=ErrorLevel.RAISE)
-
-
-def table_path(parts: Sequence[str]) -> exp.Table:
-    """``["schema", "table"]`` or ``["table"]`` as a table node with quoted names."""
-    if not 1 <= len(parts) <= 2:
-        raise InputError(f"table name {'.'.join(parts)!r} is not 'table' or 'schema.table'")
-    return exp.Table(this=exp.to_identifier(parts[-1], quoted=True),
-                     db=exp.to_identifier(parts[0], quoted=True) if len(parts) == 2 else None)
 
 
 def render_table(parts: Sequence[str], dialect: str) -> str:

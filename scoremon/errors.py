@@ -51,9 +51,12 @@ class InputError(ScoremonError):
 
 
 class EngineError(ScoremonError):
-    """The database refused a query. The driver's error is kept as ``__cause__``."""
+    """The database refused a query: ``purpose`` (what scoremon was doing), ``engine`` (which
+    one) and ``detail`` (the first line of the driver's message). The driver's error is kept as
+    ``__cause__``."""
 
     def __init__(self, purpose: str, engine: str, detail: str):
         self.purpose = purpose
         self.engine = engine
+        self.detail = detail
         super().__init__(f"{engine}: {purpose} failed: {detail}")

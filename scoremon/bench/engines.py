@@ -23,17 +23,19 @@ from typing import Sequence
 
 from sqlglot import exp
 
-from ..compiler import compile_model, identifier, output_columns
-from ..dialects import render_sql, table_path
+from ..compiler import compile_model, output_columns
+from ..dialects import render_sql
+from ..trees import identifier, table_path
 from ..engines import DuckDBEngine, Engine, open_engine
+from ..engines.protocol import INTEGER, NUMERIC, TEXT
 from ..errors import InputError
 from . import queries, workload
 from .run import BenchLine, BenchObserver, BenchReport
 from .timing import time_pair
 
 TABLE = "scoremon_bench_input"
-# what DuckDB calls the generated columns' types → the portable kinds write_rows takes
-_KINDS = {"INTEGER": "BIGINT", "BIGINT": "BIGINT", "DOUBLE": "DOUBLE", "VARCHAR": "VARCHAR"}
+# the generated columns' kinds → the column kinds write_rows creates
+_CREATED = {INTEGER: "BIGINT", NUMERIC: "DOUBLE", TEXT: "VARCHAR"}
 
 
 @dataclass(frozen=True)
@@ -101,8 +103,8 @@ class _Quiet:
 def _columns(engine: Engine) -> list[tuple[str, str]]:
     names = workload.input_columns()
     query = exp.select(*[exp.column(identifier(n)) for n in names]).from_(table_path([TABLE]))
-    kinds = dict(engine.describe(render_sql(query, engine.dialect, pretty=False), "reading the bench columns"))
-    return [(name, _KINDS[kinds[name].upper()]) for name in names]
+    kinds = {column.name: column.kind for column in engine.describe(query, "reading the bench columns")}
+    return [(name, _CREATED[kinds[name]]) for name in names]
 
 
 def _select_all(columns: Sequence[tuple[str, str]], dialect: str) -> str:
@@ -113,9 +115,8 @@ def _select_all(columns: Sequence[tuple[str, str]], dialect: str) -> str:
 def _measure(engine: Engine, spec, repeat: int, observer: BenchObserver, notes: list[str]) -> list[BenchLine]:
     dialect = engine.dialect
     relation = table_path([TABLE])
-    kinds = dict(engine.describe(render_sql(exp.select(exp.Star()).from_(relation), dialect, pretty=False),
-                                 "reading the bench columns"))
-    floats = [name for name, kind in kinds.items() if re.match(r"^(DOUBLE|FLOAT\d?|DOUBLE PRECISION)$", kind, re.I)]
+    described = engine.describe(exp.select(exp.Star()).from_(relation), "reading the bench columns")
+    floats = [column.name for column in described if column.can_hold_nan]
     scoring = compile_model(spec, relation, (), floats)
     numeric = [name for name in workload.input_columns() if name not in workload.text_columns()]
     bare = render_sql(queries.bare_scan(TABLE, numeric, workload.text_columns()), dialect, pretty=False)

@@ -18,7 +18,7 @@ from typing import Sequence
 
 from sqlglot import exp
 
-from ..compiler import INTERNAL, case, column, identifier, text
+from ..trees import INTERNAL, case, column, identifier, text
 from ..spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
 from ..spec.terms import feature_terms, numeric_bins_in_order
 

@@ -31,11 +31,12 @@ from typing import Protocol
 from sqlglot import exp
 
 from .. import api
-from ..compiler import case, column, compile_model, integer, output_columns
+from ..compiler import compile_model, output_columns
 from ..dialects import render_sql
 from ..engines import DuckDBEngine, Progress
 from ..errors import InputError
 from ..spec.model import Spec
+from ..trees import case, column, integer
 from . import queries, workload
 from .memory import measure_peak_memory
 from .numpy_scorer import GradeSummary, score_with_numpy
@@ -168,7 +169,7 @@ class _Bench:
             self.engine.write_table(self.sql(workload.generate_rows(self.settings.rows)), [TABLE],
                                     "generating the bench rows", progress)
         columns = api.describe_source(self.engine, queries.relation(TABLE))
-        self.floats = [name for name, kind in columns.items() if api.FLOAT_TYPE.match(kind)]
+        self.floats = api.float_columns(columns)
         self.scoring = compile_model(self.spec, queries.relation(TABLE), (), self.floats)
         self.binning_sql = self.sql(queries.binning_only(self.scoring))  # lines (a0) and (d1)
 
@@ -250,8 +251,8 @@ class _Bench:
         with self.observer.stage("giving the bench rows months and outcomes") as progress:
             self.engine.write_table(self.sql(_book(TABLE)), [BOOK], "adding months and outcomes", progress)
         columns = api.describe_source(self.engine, queries.relation(BOOK))
-        floats = [name for name, kind in columns.items() if api.FLOAT_TYPE.match(kind)]
-        scoring = self.sql(compile_model(self.spec, queries.relation(BOOK), ("month", "outcome"), floats))
+        scoring = self.sql(compile_model(self.spec, queries.relation(BOOK), ("month", "outcome"),
+                                         api.float_columns(columns)))
 
         def score():
             self.engine.write_table(scoring, [SCORED_BOOK], "scoring the bench book")

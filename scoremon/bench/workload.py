@@ -18,7 +18,7 @@ from datetime import date
 import yaml
 from sqlglot import exp
 
-from ..compiler import case, column, identifier, integer, number, text
+from ..trees import case, column, identifier, integer, number, text
 from ..spec import parse_spec
 from ..spec.model import Spec
 

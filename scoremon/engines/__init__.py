@@ -1,7 +1,9 @@
 """The only package that talks to a database.
 
-A small connection protocol (:class:`Engine`, in ``protocol``): run a statement, fetch rows,
-describe a query's columns, write a query's result or a batch of rows atomically to a table.
+A small connection protocol (:class:`Engine`, in ``protocol``) over sqlglot trees, which each
+engine renders itself: run a statement, read named rows or a frame, describe a query's columns
+in portable kinds (``columns``), write a query's result or a batch of rows atomically to a table;
+capabilities declared on the engine.
 Each engine implements it in its own module — ``duckdb_engine``, ``postgres`` (psycopg 3) and
 ``spark`` (pyspark) — and :func:`open_engine` picks one from a URL.
 """
@@ -10,10 +12,11 @@ from __future__ import annotations
 from ..errors import InputError
 from .duckdb_engine import DuckDBEngine
 from .postgres import PostgresEngine
-from .protocol import ColumnSpec, Engine, Progress
+from .protocol import KINDS, Column, ColumnSpec, Engine, Progress, Query, Row, Statement
 from .spark import SparkEngine, spark_master
 
-__all__ = ["ColumnSpec", "DuckDBEngine", "Engine", "PostgresEngine", "Progress", "SparkEngine", "open_engine"]
+__all__ = ["KINDS", "Column", "ColumnSpec", "DuckDBEngine", "Engine", "PostgresEngine", "Progress", "Query", "Row",
+           "SparkEngine", "Statement", "open_engine"]
 
 ENGINE_URLS = (
     "a DuckDB file or :memory: (the default), "

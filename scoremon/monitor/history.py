@@ -23,7 +23,7 @@ from typing import Iterator, Sequence
 
 from sqlglot import exp
 
-from ..compiler import identifier, integer, number, text
+from ..trees import identifier, integer, number, text
 from ..dialects import render_sql
 from ..errors import InputError
 from .records import MATURE, MonitorReport

@@ -30,26 +30,21 @@ SUM with a ROWS frame, IN lists of literals. Division never happens in SQL.
 """
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 from datetime import date, datetime
 from difflib import get_close_matches
-from typing import Mapping, Sequence
+from typing import Any, Mapping, Sequence
 
 from sqlglot import exp
 
-from ..compiler import case, column, compile_model, identifier, integer, number, text
+from ..compiler import compile_model
+from ..engines.protocol import BOOLEAN, DATE, INTEGER, TEXT, Column
 from ..errors import InputError
 from ..spec.model import CategoricalFeature, Reasons, Spec
+from ..trees import case, column, identifier, integer, number, text
 
 MONTH, OUTCOME, SCORE, PD, GRADE, SCORE_BAND, ROWS = "month", "outcome", "score", "pd", "grade", "score_band", "rows"
 SCORED_COLUMNS = (SCORE, PD, GRADE)
-DATE_TYPE = re.compile(r"^(DATE|TIMESTAMP.*|DATETIME)$", re.I)
-WHOLE_TYPE = re.compile(r"^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|INT\d?|UINTEGER|UBIGINT|USMALLINT)$", re.I)
-TEXT_TYPE = re.compile(r"^(VARCHAR|TEXT|STRING|CHAR|BPCHAR|CHARACTER VARYING)(\(.*\))?$", re.I)
-BOOLEAN_TYPE = re.compile(r"^(BOOLEAN|BOOL)$", re.I)
-NUMBER_TYPE = re.compile(r"^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|INT\d?|UINTEGER|UBIGINT|USMALLINT|UTINYINT|"
-                         r"FLOAT\d?|DOUBLE|REAL|DOUBLE PRECISION|DECIMAL(\(.*\))?|NUMERIC(\(.*\))?)$", re.I)
 
 
 def bin_column(feature) -> str:
@@ -64,7 +59,7 @@ def unseen_column(feature) -> str:
     return f"{feature.name}_unseen"
 
 
-def is_scored(spec: Spec, columns: Mapping[str, str]) -> bool:
+def is_scored(spec: Spec, columns: Mapping[str, Any]) -> bool:
     """True when ``columns`` hold the scored output of ``spec`` (score, pd, grade, bins and points)."""
     wanted = list(SCORED_COLUMNS) + [name for f in spec.features for name in (bin_column(f), points_column(f))]
     return all(name in columns for name in wanted)
@@ -84,14 +79,14 @@ class MonitoredRows:
 def monitored_rows(
     spec: Spec,
     source: exp.Expression,
-    columns: Mapping[str, str],
+    columns: Mapping[str, Column],
     month_column: str | None,
     outcome_column: str | None,
     float_columns: Sequence[str] | None = None,
 ) -> MonitoredRows:
     """The monitored rows over ``source`` (see the module docstring).
 
-    ``columns`` maps the source's column names to their SQL types. Raises :class:`InputError`
+    ``columns`` maps the source's column names to their described columns (kinds). Raises :class:`InputError`
     when the month or outcome column is missing or of a type that cannot be read.
     """
     month_kind = _month_kind(month_column, columns) if month_column else None
@@ -128,27 +123,27 @@ def monitored_rows(
                          tuple(f.name for f in readable))
 
 
-def _month_kind(name: str, columns: Mapping[str, str]) -> str:
-    kind = columns.get(name)
-    if kind is None:
+def _month_kind(name: str, columns: Mapping[str, Column]) -> str:
+    found = columns.get(name)
+    if found is None:
         raise InputError(f"month column {name!r} is not in the input{_nearest(name, columns)}")
-    if DATE_TYPE.match(kind):
+    if found.kind == DATE:
         return "date"
-    if TEXT_TYPE.match(kind) or WHOLE_TYPE.match(kind):
+    if found.kind in (TEXT, INTEGER):
         return "as_is"
-    raise InputError(f"month column {name!r} is {kind}; give a DATE or TIMESTAMP column, text YYYY-MM or "
+    raise InputError(f"month column {name!r} is {found.type_name}; give a DATE or TIMESTAMP column, text YYYY-MM or "
                      "whole numbers YYYYMM")
 
 
-def _outcome_kind(name: str, columns: Mapping[str, str]) -> str:
-    kind = columns.get(name)
-    if kind is None:
+def _outcome_kind(name: str, columns: Mapping[str, Column]) -> str:
+    found = columns.get(name)
+    if found is None:
         raise InputError(f"outcome column {name!r} is not in the input{_nearest(name, columns)}")
-    if BOOLEAN_TYPE.match(kind):
+    if found.kind == BOOLEAN:
         return "boolean"
-    if NUMBER_TYPE.match(kind):
+    if found.is_number:
         return "number"
-    raise InputError(f"outcome column {name!r} is {kind}; it must hold 1 (event) and 0 (no event), or "
+    raise InputError(f"outcome column {name!r} is {found.type_name}; it must hold 1 (event) and 0 (no event), or "
                      "true/false, with NULL where the outcome is not known yet")
 
 

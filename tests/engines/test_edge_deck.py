@@ -40,7 +40,7 @@ def score_deck(engine, spec) -> tuple[list[str], list[tuple]]:
     api.score(spec, engine, api.source_relation(table="edge_deck"), keys=[KEY], out_table="edge_scores")
     query = (exp.select(exp.Star()).from_(table_path(["edge_scores"]))
              .order_by(exp.column(exp.to_identifier(KEY, quoted=True))))
-    names = [name for name, _ in engine.describe(render_sql(query, engine.dialect, pretty=False), "reading columns")]
+    names = [column.name for column in engine.describe(query, "reading columns")]
     return names, engine.fetch(render_sql(query, engine.dialect, pretty=False), "reading the edge scores")
 
 

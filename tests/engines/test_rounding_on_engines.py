@@ -10,7 +10,8 @@ import random
 
 from sqlglot import exp
 
-from scoremon.compiler import column, round_half_away_sql
+from scoremon.compiler import round_half_away_sql
+from scoremon.trees import column
 from scoremon.dialects import render_sql, table_path
 from scoremon.spec.terms import round_half_away
 

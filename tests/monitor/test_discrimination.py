@@ -17,7 +17,7 @@ from scipy import stats
 from sklearn.metrics import roc_auc_score
 from sqlglot import exp
 
-from scoremon.compiler import identifier
+from scoremon.trees import identifier
 from scoremon.dialects import render_sql
 from scoremon.monitor import queries
 from scoremon.monitor.statistics import HistogramSums, discrimination

@@ -13,7 +13,7 @@ from sklearn.metrics import brier_score_loss, roc_auc_score
 from sqlglot import exp
 
 from scoremon import api
-from scoremon.compiler import identifier, integer
+from scoremon.trees import identifier, integer
 from scoremon.errors import EngineError, InputError
 from scoremon.monitor import history
 from scoremon.monitor.months import Month
