@@ -20,6 +20,8 @@ from typing import Sequence
 from sqlglot import exp
 
 from .compiler import compile_model, output_columns
+from .develop.binning import BinReport, bin_table, recount_table
+from .develop.binning_file import Binning, Settings, read_binning, write_binning
 from .trees import identifier
 from .dialects import render_sql
 from .diff import DiffReport, Impact, ModelDiff, diff_models, impact_query, summarise_impact
@@ -49,9 +51,10 @@ from .spec import fingerprint, load_spec, parse_spec
 from .spec.checks import suggest
 from .spec.model import Baseline, CategoricalFeature, Spec
 
-__all__ = ["DiffReport", "Impact", "ModelDiff", "MonitorReport", "ScoreResult", "Thresholds", "compile_sql",
-           "describe_source", "diff_models", "load_spec", "load_thresholds", "measure_development", "measure_impact",
-           "monitor", "open_engine", "parse_month", "score", "source_relation", "write_spec_with_baseline"]
+__all__ = ["BinReport", "Binning", "DiffReport", "Impact", "ModelDiff", "MonitorReport", "ScoreResult", "Settings",
+           "Thresholds", "bin_development", "compile_sql", "describe_source", "diff_models", "load_spec",
+           "load_thresholds", "measure_development", "measure_impact", "monitor", "open_engine", "parse_month",
+           "read_binning", "recount_binning", "score", "source_relation", "write_binning", "write_spec_with_baseline"]
 
 def table_name(name: str) -> list[str]:
     """``"schema.table"`` → ``["schema", "table"]``; each part is quoted when rendered."""
@@ -357,3 +360,21 @@ def monitor(
     if record_history:
         write_history(engine, report)
     return report
+
+
+def bin_development(engine: Engine, table: str, outcome: str, key: str | None = None, month_column: str | None = None,
+                    features: Sequence[str] | None = None, exclude: Sequence[str] = (),
+                    settings: Settings | None = None, progress: Progress | None = None) -> BinReport:
+    """Fine and coarse classes of every characteristic of a development table (``scoremon bin``);
+    see :mod:`scoremon.develop.binning`. Write the result with :func:`write_binning`."""
+    return bin_table(engine, source_relation(table=table), table, outcome, key, month_column, features, exclude,
+                     settings or Settings(), progress)
+
+
+def recount_binning(engine: Engine, binning: Binning, table: str | None = None, outcome: str | None = None,
+                    key: str | None = None, month_column: str | None = None,
+                    progress: Progress | None = None) -> BinReport:
+    """The bins of a (hand-edited) binning file counted again exactly as written (``scoremon bin
+    --recount``); table, outcome, key and month default to the file's."""
+    table = table or binning.table
+    return recount_table(engine, source_relation(table=table), table, binning, outcome, key, month_column, progress)

@@ -20,6 +20,7 @@ from .report import terminal
 from .report.json import to_json
 from .report.markdown import diff_markdown
 from .report.terminal import bench as bench_view
+from .report.terminal import binning as binning_view
 from .report.terminal import diff as diff_view
 from .report.terminal import monitor as monitor_view
 from .report.terminal import score as score_view
@@ -152,6 +153,42 @@ def _baseline(args) -> int:
         engine.close()
     written = api.write_spec_with_baseline(args.spec, baseline, out)
     monitor_view.print_baseline_written(str(written), baseline, fingerprint(spec))
+    return EXIT_OK
+
+
+def _bin(args) -> int:
+    out = Path(args.out)
+    if not out.parent.exists():
+        raise InputError(f"--out {out}: folder {out.parent} does not exist; create it or choose another path")
+    if out.exists() and not args.replace:
+        raise InputError(f"--out {out} exists; give another file name, or --replace to replace it")
+    edited = None
+    if args.recount:
+        edited = api.read_binning(args.recount, counted=False)
+        given = [name for name, value in (("--features", args.features), ("--exclude", args.exclude))
+                 if value]
+        if given:
+            raise InputError(f"{', '.join(given)}: a recount counts the features of {args.recount} as written; "
+                             "remove them from the file instead")
+    else:
+        missing = [name for name, value in (("--table", args.table), ("--outcome", args.outcome)) if value is None]
+        if missing:
+            raise InputError(f"give {' and '.join(missing)} (or --recount FILE to recount a binning file)")
+        settings = api.Settings(fine_classes=args.fine_classes, min_share=args.min_share, min_events=args.min_events,
+                                trend=args.trend, max_bins=args.max_bins)
+    engine = api.open_engine(args.db)
+    try:
+        with terminal.progress_bar("recounting" if edited else "binning") as progress:
+            if edited is not None:
+                report = api.recount_binning(engine, edited, args.table, args.outcome, args.key, args.month_column,
+                                             progress)
+            else:
+                report = api.bin_development(engine, args.table, args.outcome, args.key, args.month_column,
+                                             args.features, args.exclude or (), settings, progress)
+    finally:
+        engine.close()
+    written = api.write_binning(report.binning, out, replace=args.replace)
+    binning_view.print_bin_report(report, str(written))
     return EXIT_OK
 
 
@@ -291,6 +328,43 @@ def build_parser() -> argparse.ArgumentParser:
     baseline.add_argument("--month-column", help="month column, for the development rows per month")
     baseline.add_argument("--out", required=True, metavar="NEW_SPEC", help="the new spec file to write")
     baseline.set_defaults(run=_baseline)
+
+    bin_ = commands.add_parser(
+        "bin", help="bin every characteristic of a development table (WoE, IV) into a binning file",
+        description="Count fine classes of every characteristic inside the database (quantiles of numbers, "
+                    "values of text; NULL, NaN and ±inf apart), merge them into the bins with the largest IV "
+                    "where every bin holds a minimum share of rows and of events (WoE in one direction when "
+                    "asked), and write a binning file in the spec's own bin syntax. Edit that file by hand and "
+                    "recount it with --recount.",
+        epilog="exit codes: 0 written; 2 invalid input, one line per problem",
+    )
+    bin_.add_argument("--db", required=True, help=f"engine URL holding --table: {ENGINE_URLS}")
+    bin_.add_argument("--table", help="the development table (NAME or SCHEMA.NAME); with --recount, default: the file's")
+    bin_.add_argument("--outcome", help="the 0/1 (or true/false) outcome column, 1 = event; with --recount, "
+                                        "default: the file's")
+    bin_.add_argument("--key", help="a column that identifies each row; checked to be unique")
+    bin_.add_argument("--month-column", help="the month of each row, recorded as the months covered")
+    chosen = bin_.add_mutually_exclusive_group()
+    chosen.add_argument("--features", nargs="+", metavar="COLUMN", help="bin only these columns (default: every "
+                                                                          "number and text column but the outcome, key and month)")
+    chosen.add_argument("--exclude", nargs="+", metavar="COLUMN", help="bin every column but these")
+    bin_.add_argument("--out", required=True, metavar="BINS.yaml", help="the binning file to write")
+    bin_.add_argument("--replace", action="store_true", help="replace --out if it exists")
+    bin_.add_argument("--recount", metavar="BINS.yaml", help="count the bins of this (hand-edited) binning file "
+                                                             "again exactly as written, instead of binning anew")
+    defaults = api.Settings()
+    bin_.add_argument("--fine-classes", type=int, default=defaults.fine_classes,
+                      help=f"quantile classes per numeric characteristic, 2 to 100 (default {defaults.fine_classes})")
+    bin_.add_argument("--min-share", type=float, default=defaults.min_share,
+                      help=f"least share of the table's rows in a bin (default {defaults.min_share})")
+    bin_.add_argument("--min-events", type=int, default=defaults.min_events,
+                      help=f"least number of events in a bin (default {defaults.min_events})")
+    bin_.add_argument("--trend", choices=("increasing", "decreasing", "auto", "none"), default=defaults.trend,
+                      help="WoE across a numeric characteristic's bins: increasing, decreasing, auto (the one "
+                           f"with the larger IV) or none (default {defaults.trend})")
+    bin_.add_argument("--max-bins", type=int, default=defaults.max_bins,
+                      help=f"most bins per characteristic, missing and catch-all aside (default {defaults.max_bins})")
+    bin_.set_defaults(run=_bin)
 
     monitor = commands.add_parser(
         "monitor", help="stability, data quality, calibration and discrimination by month, with history",

@@ -36,6 +36,8 @@ from .woe import bin_evidence, event_rate
 
 TRENDS = ("increasing", "decreasing", "auto", "none")
 STATISTICS = ("rows", "events", "event_rate", "iv")  # woe is statistic and spec value at once
+# the dynamic programme's work grows with the cube of the fine classes (see coarse.py)
+MAX_FINE_CLASSES = 100
 DECIMALS = 6  # woe, iv and event rates are written rounded to this many decimals
 BinnedSpecFeature = Union[NumericFeature, CategoricalFeature]
 
@@ -58,8 +60,8 @@ class Settings:
     max_bins: int = 8          # bins per characteristic, missing and catch-all not counted
 
     def __post_init__(self):
-        if not 2 <= self.fine_classes <= 1000:
-            raise InputError(f"fine classes {self.fine_classes}: give a whole number from 2 to 1000")
+        if not 2 <= self.fine_classes <= MAX_FINE_CLASSES:
+            raise InputError(f"fine classes {self.fine_classes}: give a whole number from 2 to {MAX_FINE_CLASSES}")
         if not 0 <= self.min_share < 1:
             raise InputError(f"minimum share {self.min_share}: give a share from 0 to below 1, e.g. 0.05")
         if self.min_events < 0:

@@ -22,9 +22,8 @@ from typing import Callable, Sequence
 
 from sqlglot import exp
 
-from ..compiler import case, column, double_constant, identifier, integer
-from ..dialects import render_sql
 from ..engines import Engine
+from ..trees import case, column, double_constant, identifier, integer
 
 SPECIAL = ("missing", "nan", "positive_infinity", "negative_infinity")
 Count = tuple[int, int]  # (rows, events)
@@ -57,10 +56,6 @@ class CategoricalClasses:
     name: str
     values: tuple[tuple[str, int, int], ...]  # (value, rows, events), sorted by value
     missing: Count
-
-
-def _fetch(engine: Engine, tree: exp.Expression, purpose: str) -> list[tuple]:
-    return engine.fetch(render_sql(tree, engine.dialect, pretty=False), purpose)
 
 
 def _double(x: exp.Expression) -> exp.Expression:
@@ -143,8 +138,8 @@ def special_query(source: exp.Expression, names: Sequence[str], event: exp.Expre
 
 
 def category_query(source: exp.Expression, name: str, event: exp.Expression) -> exp.Select:
-    """Per value (NULL included): value, rows, events."""
-    return (exp.select(column(name), exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True),
+    """Per value of column ``name`` (NULL included): value, rows, events."""
+    return (exp.select(exp.alias_(column(name), "value", quoted=True), exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True),
                        exp.alias_(_sum(event.copy()), "events", quoted=True))
             .from_(source.copy()).group_by(column(name)))
 
@@ -152,13 +147,13 @@ def category_query(source: exp.Expression, name: str, event: exp.Expression) -> 
 def numeric_classes(engine: Engine, source: exp.Expression, name: str, event: exp.Expression, classes: int,
                     special: dict[str, Count]) -> NumericClasses:
     """The fine classes of numeric column ``name`` (``special`` from :func:`count_special`)."""
-    row = _fetch(engine, quantile_query(source, name, event, classes), f"finding the quantiles of {name!r}")[0]
-    rows_total, events_total, minimum, maximum = row[-4:]
+    row = engine.query(quantile_query(source, name, event, classes), f"finding the quantiles of {name!r}")[0]
+    rows_total, events_total, minimum, maximum = (row[n] for n in ("rows_total", "events_total", "minimum", "maximum"))
     edges: list[float] = []
     upto: list[Count] = []
     if rows_total is not None:
-        for k in range(classes - 1):
-            edge, rows_to, events_to = float(row[3 * k]), int(row[3 * k + 1]), int(row[3 * k + 2])
+        for k in range(1, classes):
+            edge, rows_to, events_to = float(row[f"edge_{k}"]), int(row[f"rows_{k}"]), int(row[f"events_{k}"])
             if edge == float(maximum) or (edges and edge == edges[-1]):
                 continue  # a tied quantile, or an edge that would leave the top class empty
             edges.append(edge)
@@ -179,23 +174,24 @@ def count_special(engine: Engine, source: exp.Expression, names: Sequence[str],
     """Per numeric column: rows and events of NULL, NaN, +inf and −inf."""
     if not names:
         return {}
-    row = _fetch(engine, special_query(source, names, event), "counting NULL, NaN and infinite values")[0]
+    row = engine.query(special_query(source, names, event), "counting NULL, NaN and infinite values")[0]
     result: dict[str, dict[str, Count]] = {}
     position = 0
     for name in names:
         result[name] = {}
         for kind in SPECIAL:
-            result[name][kind] = (int(row[position] or 0), int(row[position + 1] or 0))
+            result[name][kind] = (int(row[f"c{position}"] or 0), int(row[f"c{position + 1}"] or 0))
             position += 2
     return result
 
 
 def categorical_classes(engine: Engine, source: exp.Expression, name: str, event: exp.Expression) -> CategoricalClasses:
     """The rows and events of every value of text column ``name``."""
-    rows = _fetch(engine, category_query(source, name, event), f"counting the values of {name!r}")
+    rows = engine.query(category_query(source, name, event), f"counting the values of {name!r}")
     missing = (0, 0)
     values = []
-    for value, count, events in rows:
+    for row in rows:
+        value, count, events = row["value"], row["rows"], row["events"]
         if value is None:
             missing = (int(count), int(events))
         else:
