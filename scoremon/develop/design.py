@@ -34,7 +34,6 @@ import numpy as np
 from sqlglot import exp
 
 from ..compiler import bin_case, case, column, integer, number
-from ..dialects import render_sql
 from ..monitor.queries import MONTH, OUTCOME, SCORE, discrimination_pass
 from ..monitor.statistics import HistogramSums
 from ..spec.model import Grade, Identity, Scaling, Spec
@@ -48,8 +47,9 @@ ETA_CLAMP = 700.0
 
 
 def fetch_rows(engine, tree: exp.Expression, purpose: str) -> list[tuple]:
-    """Run one query tree on ``engine``: the only place fitting talks to an engine."""
-    return engine.fetch(render_sql(tree, engine.dialect), purpose)
+    """Run one query tree on ``engine`` and return its rows as tuples: the only place fitting
+    talks to an engine."""
+    return [tuple(row[name] for name in row) for row in engine.query(tree, purpose)]
 
 
 def x_column(j: int) -> str:

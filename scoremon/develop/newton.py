@@ -50,6 +50,14 @@ INNER_SWEEPS = 10_000
 CONVERGED, SEPARATION, NO_CONVERGENCE = "converged", "separation", "no_convergence"
 
 
+class SingularDesignError(InputError):
+    """The Newton system is singular; ``columns`` are the design columns involved (0 = intercept)."""
+
+    def __init__(self, message: str, columns: list[int]):
+        super().__init__(message)
+        self.columns = columns
+
+
 @dataclass(frozen=True)
 class FoldSums:
     """One model's sums over the rows of each fold, at its current coefficients.
@@ -268,15 +276,16 @@ def _solve(a: np.ndarray, g: np.ndarray) -> np.ndarray:
     scale = np.sqrt(np.maximum(np.diag(a), 0.0))
     flat = [j for j in range(len(a)) if scale[j] == 0.0]
     if flat:
-        raise InputError(f"design column(s) {flat} are zero on every training row (a constant characteristic "
-                         "with WoE 0); drop them or use an L2 or elastic-net penalty")
+        raise SingularDesignError(f"design column(s) {flat} are zero on every training row (a constant "
+                                  "characteristic with WoE 0); drop them or use an L2 or elastic-net penalty", flat)
     scaled = a / np.outer(scale, scale)
     eigenvalues = np.linalg.eigvalsh(scaled)
     if eigenvalues[0] <= 1e-12 * eigenvalues[-1]:
         _, vectors = np.linalg.eigh(scaled)
         involved = [int(j) for j in np.flatnonzero(np.abs(vectors[:, 0]) > 0.1)]
-        raise InputError(f"design columns {involved} are collinear on the training rows (one is a combination of "
-                         "the others, or constant); drop one of them or use an L2 or elastic-net penalty")
+        raise SingularDesignError(f"design columns {involved} are collinear on the training rows (one is a "
+                                  "combination of the others, or constant); drop one of them or use an L2 or "
+                                  "elastic-net penalty", involved)
     return np.linalg.solve(a, g)
 
 

@@ -145,7 +145,8 @@ def fit_path(passes: Passes, columns: int, fold_count: int, alpha: float, lambda
     if metric == AUC and histograms is None:
         raise ValueError("the AUC measure needs a histograms pass")
     counts = counts or fold_counts(passes, columns, fold_count)
-    models = list(range(fold_count + 1))
+    # with one fold there is nothing to hold out: only the all-rows model is fitted
+    models = list(range(fold_count + 1)) if fold_count > 1 else [fold_count]
     starts = intercept_only(counts, columns, models)
     largest = lambda_max(passes, starts[fold_count], fold_count, alpha)
     grid = lambda_grid(largest, count, ratio) if lambdas is None else np.asarray(lambdas, dtype=float)
@@ -153,12 +154,14 @@ def fit_path(passes: Passes, columns: int, fold_count: int, alpha: float, lambda
     for lam in grid:
         fits = fit_models(passes, starts, Penalty(float(lam), alpha))
         starts = {m: f.coefficients for m, f in fits.items()}
-        folds = tuple(fits[m] for m in range(fold_count))
-        if metric == DEVIANCE:
+        folds = tuple(fits[m] for m in models[:-1])
+        if not folds:
+            cv: tuple[float, ...] = ()
+        elif metric == DEVIANCE:
             cv = tuple(2.0 * f.heldout_loss / f.heldout_rows for f in folds)
         else:
-            sums = histograms({m: fits[m].coefficients for m in range(fold_count)})
-            cv = tuple(_auc(sums[m]) for m in range(fold_count))
+            sums = histograms({m: fits[m].coefficients for m in models[:-1]})
+            cv = tuple(_auc(sums[m]) for m in models[:-1])
         points.append(PathPoint(float(lam), fits[fold_count], folds, cv))
     best, chosen = choose(points, metric, one_se)
     return PathResult(tuple(points), largest, metric, best, chosen, one_se)
@@ -168,6 +171,8 @@ def choose(points: Sequence[PathPoint], metric: str, one_se: bool) -> tuple[int,
     """(index of the best mean, index chosen); the path runs from the largest λ down."""
     sign = 1.0 if metric == DEVIANCE else -1.0
     means = [sign * p.cv_mean for p in points]
+    if not all(math.isfinite(m) for m in means):
+        return len(points) - 1, len(points) - 1  # no cross-validation: the last (smallest) λ
     best = int(np.nanargmin(means))
     if not one_se:
         return best, best
