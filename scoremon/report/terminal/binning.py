@@ -1,6 +1,8 @@
 """The terminal view of `scoremon bin`: one line per characteristic, sorted by IV, in 80 columns."""
 from __future__ import annotations
 
+import textwrap
+
 from rich.markup import escape
 from rich.table import Table
 
@@ -22,17 +24,23 @@ def _short(text: str, width: int) -> str:
     return text if len(text) <= width else text[: width - 1] + "…"
 
 
+def _say(text: str) -> None:
+    # wrapped here rather than by rich, which pads wrapped lines with trailing blanks
+    for line in textwrap.wrap(text, width=max(40, min(out.width, 100)), subsequent_indent="  ",
+                              break_on_hyphens=False):
+        out.print(escape(line), soft_wrap=True)
+
+
 def print_bin_report(report, written: str) -> None:
     """The summary of a :class:`~scoremon.develop.binning.BinReport` written to ``written``."""
     b = report.binning
     s = b.settings
     verb = f"recounted {report.recounted_from}" if report.recounted_from else "binned"
-    out.print(escape(f"{verb}: table {b.table} on {b.engine}, {b.rows:,} rows, {b.events:,} events "
-                     f"({b.events / b.rows:.2%})" + (f", months {b.months[0]} to {b.months[1]}" if b.months else "")),
-              soft_wrap=True)
+    _say(f"{verb}: table {b.table} on {b.engine}, {b.rows:,} rows, {b.events:,} events ({b.events / b.rows:.2%})"
+         + (f", months {b.months[0]} to {b.months[1]}" if b.months else ""))
     if not report.recounted_from:
-        out.print(escape(f"settings: {s.fine_classes} fine classes, bins of at least {s.min_share:.0%} of rows and "
-                         f"{s.min_events} events, at most {s.max_bins} bins, WoE trend {s.trend}"), soft_wrap=True)
+        _say(f"settings: {s.fine_classes} fine classes, bins of at least {s.min_share:.0%} of rows and "
+             f"{s.min_events} events, at most {s.max_bins} bins, WoE trend {s.trend}")
     out.print()
     table = Table(show_edge=False, pad_edge=False, box=None, header_style="bold", padding=(0, 1))
     table.add_column("characteristic", max_width=NAME_WIDTH, no_wrap=True)
@@ -53,6 +61,6 @@ def print_bin_report(report, written: str) -> None:
         table.add_row(escape(_short(name, NAME_WIDTH)), "", "", "", escape(f"not binned: {why}"))
     out.print(table)
     out.print()
-    out.print(escape(f"wrote {written} (fingerprint {b.fingerprint}); edit it, then recount with "
-                     f"scoremon bin --recount {written} --db … --out NEW.yaml"), soft_wrap=True)
+    _say(f"wrote {written} (fingerprint {b.fingerprint})")
+    _say(f"edit it by hand, then recount it: scoremon bin --recount {written} --db … --out NEW.yaml")
     print_cautions()
