@@ -47,6 +47,15 @@ def test_outcome_other_than_zero_and_one(tmp_path, values, message):
                                  "leave those rows out of the development table")
 
 
+def test_nan_outcome_is_another_value_not_null(tmp_path):
+    with open_engine(str(tmp_path / "nan.duckdb")) as engine:
+        # write_rows keeps NaN apart from NULL (a pandas frame would turn NaN into NULL)
+        engine.write_rows(["development"], [("score", "DOUBLE"), ("bad", "DOUBLE")],
+                          [(1.0, 0.0), (2.0, 1.0), (3.0, float("nan")), (4.0, 1.0)], "loading rows")
+        with pytest.raises(InputError, match=r"of 4 rows 1 holds other values \(nan\);"):
+            api.bin_development(engine, "development", "bad")
+
+
 def test_text_outcome_and_one_sided_outcome(tmp_path):
     frame = pd.DataFrame({"score": [1.0, 2.0], "bad": ["0", "1"], "never": [0, 0]})
     with open_engine(database(tmp_path, frame)) as engine:

@@ -138,3 +138,21 @@ def test_recount_counts_edited_bins_as_written(each_engine):
 
 def _shown(value: float) -> str:
     return str(int(value)) if float(value).is_integer() else repr(float(value))
+
+
+def test_small_table_worked_by_hand(each_engine):
+    # Worked by hand (the same three bins as tests/develop/test_woe.py): renting 10 rows / 2 events,
+    # owner 10 / 5, family 5 / 0; totals 25 rows, 7 events, 18 non-events. With no minimum share
+    # or events every value keeps its own group (splitting never lowers IV), ordered by WoE:
+    # owner ln(7/18) = −0.944462, renting ln(14/9) = 0.441833, family (0.5 added to both counts)
+    # ln(77/18) = 1.453434; IV = 0.412265 + 0.070132 + 0.340288 = 0.822685.
+    values = ["renting"] * 10 + ["owner"] * 10 + ["family"] * 5
+    bad = [1, 1] + [0] * 8 + [1] * 5 + [0] * 5 + [0] * 5
+    each_engine.write_rows(["tiny"], [("housing", "VARCHAR"), ("bad", "BIGINT")], list(zip(values, bad)),
+                           "loading the hand-worked table")
+    report = api.bin_development(each_engine, "tiny", "bad", settings=Settings(min_share=0.0, min_events=0))
+    housing = report.binning.feature("housing")
+    assert [(c.label, c.rows, c.events, c.woe) for c in housing.counts] == [
+        ("owner", 10, 5, -0.944462), ("renting", 10, 2, 0.441833), ("family", 5, 0, 1.453434),
+        ("other", 0, 0, 0.0), ("missing", 0, 0, 0.0)]
+    assert housing.iv == pytest.approx(0.822685, abs=2e-6)
