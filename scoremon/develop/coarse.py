@@ -28,6 +28,9 @@ from .fine import CategoricalClasses, NumericClasses
 from .woe import bin_evidence
 
 LABEL_LENGTH = 40
+# Rare values are listed in the catch-all's values (so a modeller can move one to a group) up to
+# this many; beyond that (a text column close to an identifier) the catch-all takes them unlisted.
+RARE_LISTED = 50
 
 
 @dataclass(frozen=True)
@@ -186,12 +189,14 @@ def categorical_groups(fine: CategoricalClasses, total_rows: int, total_events: 
     labels = _group_labels(runs)
     groups = [CategoryGroup(label=label, values=run, woe=0.0) for label, run in zip(labels, runs)]
     feature = CategoricalFeature(name=fine.name, type="categorical", groups=groups,
-                                 other=OtherGroup(values=sorted(v[0] for v in rare), woe=0.0),
+                                 other=OtherGroup(values=sorted(v[0] for v in rare) if len(rare) <= RARE_LISTED
+                                                  else [], woe=0.0),
                                  missing=MissingBin(woe=0.0))
     counts = [(sum(v[1] for v in common[j:i]), sum(v[2] for v in common[j:i])) for j, i in partition.bins]
     counts += [(sum(v[1] for v in rare), sum(v[2] for v in rare)), fine.missing]
     if rare:
-        notes.append(f"{len(rare)} rare value{'s' if len(rare) != 1 else ''} in other")
+        listed = "" if len(rare) <= RARE_LISTED else " (not listed)"
+        notes.append(f"{len(rare)} rare value{'s' if len(rare) != 1 else ''} in other{listed}")
     return Coarse(with_counts(feature, counts, total_rows, total_events), tuple(notes))
 
 

@@ -115,3 +115,11 @@ def test_categories_rare_to_other_and_groups_in_woe_order():
     assert [g.values for g in feature.groups] == [["b"], ["a"], ["d"]]  # WoE rising: b riskiest, d safest
     woe = [g.woe for g in feature.groups]
     assert woe == sorted(woe)
+
+
+def test_many_rare_values_go_to_other_unlisted():
+    values = tuple((f"v{i:03d}", 2, 1) for i in range(60)) + (("big", 880, 40),)
+    coarse = categorical_groups(CategoricalClasses("c", values, (0, 0)), 1000, 100, Settings(min_events=0))
+    assert coarse.binned.feature.other.values == []
+    assert (coarse.binned.counts[-2].rows, coarse.binned.counts[-2].events) == (120, 60)
+    assert coarse.notes == ("60 rare values in other (not listed)",)
