@@ -9,10 +9,12 @@ True
 """
 from __future__ import annotations
 
+import math
 import os
 import time
 import uuid
 from dataclasses import dataclass, field
+from dataclasses import replace as replace_field
 from datetime import date
 from pathlib import Path
 from typing import Sequence
@@ -22,6 +24,9 @@ from sqlglot import exp
 from .compiler import compile_model, output_columns
 from .develop.binning import BinReport, bin_table, recount_table
 from .develop.binning_file import Binning, Settings, read_binning, write_binning
+from .develop.fitting import fit_binning, penalty_alpha
+from .develop.records import FitReport, FitSettings
+from .develop.spec_writer import Naming, build_spec, grades_from_deciles, grades_from_pd, parse_grades, write_spec
 from .trees import identifier
 from .dialects import render_sql
 from .diff import DiffReport, Impact, ModelDiff, diff_models, impact_query, summarise_impact
@@ -49,12 +54,13 @@ from .monitor.queries import fingerprints_pass, is_scored, months_in
 
 from .spec import fingerprint, load_spec, parse_spec
 from .spec.checks import suggest
-from .spec.model import Baseline, CategoricalFeature, Spec
+from .spec.model import Baseline, CategoricalFeature, Grade, Scaling, Spec
 
 __all__ = ["BinReport", "Binning", "DiffReport", "Impact", "ModelDiff", "MonitorReport", "ScoreResult", "Settings",
            "Thresholds", "bin_development", "compile_sql", "describe_source", "diff_models", "load_spec",
            "load_thresholds", "measure_development", "measure_impact", "monitor", "open_engine", "parse_month",
            "read_binning", "recount_binning", "score", "source_relation", "write_binning", "write_spec_with_baseline"]
+__all__ = sorted(__all__ + ["FitReport", "FitSettings", "Naming", "fit_development", "penalty_alpha"])
 
 def table_name(name: str) -> list[str]:
     """``"schema.table"`` → ``["schema", "table"]``; each part is quoted when rendered."""
@@ -378,3 +384,33 @@ def recount_binning(engine: Engine, binning: Binning, table: str | None = None, 
     --recount``); table, outcome, key and month default to the file's."""
     table = table or binning.table
     return recount_table(engine, source_relation(table=table), table, binning, outcome, key, month_column, progress)
+
+
+def fit_development(engine: Engine, binning: Binning, settings: FitSettings, naming: Naming, out: str | Path,
+                    table: str | None = None, outcome: str | None = None, month_column: str | None = None,
+                    replace: bool = False) -> FitReport:
+    """Fit a model on the characteristics of ``binning`` and write it as a new spec (``scoremon fit``).
+
+    The fit (:mod:`scoremon.develop.fitting`), then the spec with the baseline measured on the
+    same table in the same run, and the grades (by score deciles or PD bands) — see
+    :mod:`scoremon.develop.spec_writer`. Raises :class:`InputError` before any work when ``out``
+    exists and ``replace`` is not given.
+    """
+    out = Path(out)
+    if out.exists() and not replace:
+        raise InputError(f"--out {out} exists; give a new file name, or --replace to write over it")
+    kind, values = parse_grades(settings.grades)
+    table = table or binning.table
+    source = source_relation(table=table)
+    fitted = fit_binning(engine, source, table, binning, settings, outcome, month_column)
+    scaling = Scaling(base_score=settings.base_score, base_odds=settings.base_odds, pdo=settings.pdo,
+                      rounding=settings.rounding)
+    whole_line = [Grade(name="all", lower=-math.inf, upper=math.inf)]
+    grades = grades_from_pd(values, scaling) if kind == "pd" else whole_line
+    baseline = measure_development(build_spec(fitted, naming, scaling, grades), engine, source,
+                                   outcome or binning.outcome, month_column or binning.month_column, table)
+    if kind == "quantiles":
+        grades = grades_from_deciles(baseline, int(values[0]))
+    spec = build_spec(fitted, naming, scaling, grades, baseline)
+    written = write_spec(spec, out, replace, binning.file or "")
+    return replace_field(fitted.report, spec_file=str(written), spec_fingerprint=fingerprint(spec))

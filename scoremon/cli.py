@@ -21,6 +21,7 @@ from .report.json import to_json
 from .report.markdown import diff_markdown
 from .report.terminal import bench as bench_view
 from .report.terminal import binning as binning_view
+from .report.terminal import fit as fit_view
 from .report.terminal import diff as diff_view
 from .report.terminal import monitor as monitor_view
 from .report.terminal import score as score_view
@@ -189,6 +190,35 @@ def _bin(args) -> int:
         engine.close()
     written = api.write_binning(report.binning, out, replace=args.replace)
     binning_view.print_bin_report(report, str(written))
+    return EXIT_OK
+
+
+def _fit(args) -> int:
+    out = Path(args.out)
+    if not out.parent.exists():
+        raise InputError(f"--out {out}: folder {out.parent} does not exist; create it or choose another path")
+    if out.exists() and not args.replace:
+        raise InputError(f"--out {out} exists; give another file name, or --replace to replace it")
+    binning = api.read_binning(args.binning)
+    alpha = api.penalty_alpha(args.penalty, args.alpha)
+    settings = api.FitSettings(
+        penalty=args.penalty, alpha=alpha, folds=args.folds, lambdas=args.lambdas, lambda_ratio=args.lambda_ratio,
+        cv_metric=args.cv_metric, one_se=args.one_se, min_iv=args.min_iv, max_correlation=args.max_correlation,
+        keep=tuple(args.keep or ()), drop=tuple(args.drop or ()), key=args.key if args.key else binning.key,
+        base_score=args.base_score, base_odds=args.base_odds, pdo=args.pdo, rounding=args.rounding,
+        grades=args.grades)
+    naming = api.Naming(name=args.name or (args.table or binning.table), version=args.model_version,
+                        owner=args.owner, event=args.event or "",
+                        performance_window_months=args.performance_window)
+    engine = api.open_engine(args.db)
+    try:
+        report = api.fit_development(engine, binning, settings, naming, out, args.table, args.outcome,
+                                     args.month_column, args.replace)
+    finally:
+        engine.close()
+    if args.json:
+        Path(args.json).write_text(to_json(report) + "\n", encoding="utf-8")
+    fit_view.print_fit_report(report)
     return EXIT_OK
 
 
@@ -365,6 +395,52 @@ def build_parser() -> argparse.ArgumentParser:
     bin_.add_argument("--max-bins", type=int, default=defaults.max_bins,
                       help=f"most bins per characteristic, missing and catch-all aside (default {defaults.max_bins})")
     bin_.set_defaults(run=_bin)
+
+    fit = commands.add_parser(
+        "fit", help="fit a logistic model on a binning file's characteristics and write a new spec",
+        description="Transform each characteristic to its WoE inside the database, select characteristics "
+                    "(minimum IV, a cap on WoE correlation, --keep/--drop), fit by Newton-Raphson with an optional "
+                    "L2, L1 or elastic-net penalty whose weight λ is chosen by K-fold cross-validation over a path "
+                    "from λ_max down, and write a new spec with scaling, grades, one reason per characteristic, "
+                    "the baseline and a development record. Only sums leave the database.",
+        epilog="exit codes: 0 written; 2 invalid input, one line per problem",
+    )
+    fit.add_argument("binning", metavar="BINS.yaml", help="the binning file (from scoremon bin)")
+    fit.add_argument("--db", required=True, help=f"engine URL holding --table: {ENGINE_URLS}")
+    fit.add_argument("--table", help="the development table (default: the binning file's)")
+    fit.add_argument("--outcome", help="the 0/1 outcome column (default: the binning file's)")
+    fit.add_argument("--key", help="the unique key the folds come from (default: the binning file's)")
+    fit.add_argument("--month-column", help="the month column, for the baseline volume (default: the file's)")
+    fit.add_argument("--penalty", choices=("none", "l2", "l1", "elastic"), default="none",
+                     help="none (default), l2 (ridge), l1 (lasso) or elastic (net, with --alpha)")
+    fit.add_argument("--alpha", type=float, default=None, help="elastic net: the L1 share α in (0, 1) (default 0.5)")
+    fit.add_argument("--folds", type=int, default=5, help="cross-validation folds (default 5; 1: none)")
+    fit.add_argument("--lambdas", type=int, default=20, help="λ values on the path (default 20)")
+    fit.add_argument("--lambda-ratio", type=float, default=1e-3, help="smallest λ ÷ λ_max (default 0.001)")
+    fit.add_argument("--one-se", action="store_true", help="choose the largest λ within one standard error of the best")
+    fit.add_argument("--cv-metric", choices=("deviance", "auc"), default="deviance",
+                     help="held-out measure that chooses λ (default deviance)")
+    fit.add_argument("--min-iv", type=float, default=0.02, help="leave out characteristics under this IV (default 0.02)")
+    fit.add_argument("--max-correlation", type=float, default=0.7,
+                     help="leave out a characteristic whose WoE correlates beyond this with a stronger one (default 0.7)")
+    fit.add_argument("--keep", nargs="+", metavar="NAME", help="characteristics to fit whatever the rules say")
+    fit.add_argument("--drop", nargs="+", metavar="NAME", help="characteristics to leave out")
+    fit.add_argument("--base-score", type=float, default=600.0, help="score at --base-odds (default 600)")
+    fit.add_argument("--base-odds", type=float, default=50.0, help="good:bad odds at --base-score (default 50)")
+    fit.add_argument("--pdo", type=float, default=20.0, help="points to double the odds (default 20)")
+    fit.add_argument("--rounding", choices=("none", "per_bin", "total"), default="none",
+                     help="rounding of points (default none)")
+    fit.add_argument("--grades", default="quantiles:10",
+                     help="quantiles:N (score deciles, N ≤ 10; default quantiles:10) or pd:P1,P2,… (PD bands)")
+    fit.add_argument("--name", help="the model's name (default: the table's)")
+    fit.add_argument("--model-version", default="1", help="the model's version (default 1)")
+    fit.add_argument("--owner", default="model development", help="the model's owner")
+    fit.add_argument("--event", help="what y = 1 means, in words")
+    fit.add_argument("--performance-window", type=int, default=12, help="outcome window in months (default 12)")
+    fit.add_argument("--out", required=True, metavar="SPEC.yaml", help="the new spec file")
+    fit.add_argument("--replace", action="store_true", help="replace --out if it exists")
+    fit.add_argument("--json", metavar="FILE", help="write the fit report as JSON")
+    fit.set_defaults(run=_fit)
 
     monitor = commands.add_parser(
         "monitor", help="stability, data quality, calibration and discrimination by month, with history",

@@ -79,13 +79,14 @@ def woe_values(features: Sequence) -> list[list[float]]:
 class Design:
     """The WoE design of a development table.
 
-    ``source`` stands in FROM; ``features`` are spec features with a WoE per bin; ``outcome``
-    names the 0/1 column; ``key`` the key the folds come from (needed when ``fold_count`` > 1).
+    ``source`` stands in FROM; ``features`` are spec features with a WoE per bin; ``event`` is
+    1 for an event and 0 otherwise (:func:`scoremon.develop.outcome.event_expression`); ``key``
+    the column the folds come from (needed when ``fold_count`` > 1).
     """
 
     source: exp.Expression
     features: tuple
-    outcome: str
+    event: exp.Expression
     key: str | None = None
     fold_count: int = 1
 
@@ -99,7 +100,7 @@ def design_query(design: Design) -> exp.Select:
     spec = woe_spec(design.features)
     fold = integer(0) if design.fold_count == 1 else fold_expression(column(design.key), design.fold_count)
     selected = [exp.alias_(fold, FOLD, quoted=True),
-                exp.alias_(exp.Cast(this=column(design.outcome), to=exp.DataType.build("DOUBLE")), Y, quoted=True)]
+                exp.alias_(exp.Cast(this=design.event.copy(), to=exp.DataType.build("DOUBLE")), Y, quoted=True)]
     for j, feature in enumerate(spec.features, start=1):
         values = [number(t.log_odds) for t in feature_terms(spec, feature).bins]
         selected.append(exp.alias_(bin_case(spec, feature, column(feature.column or feature.name), values),

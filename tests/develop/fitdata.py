@@ -81,3 +81,26 @@ def features(rows):
 
 def source(name: str = "dev") -> exp.Table:
     return exp.to_table(exp.to_identifier(name, quoted=True))
+
+
+def numpy_woe(feature, values) -> np.ndarray:
+    """The WoE of each value under a spec ``feature``, in numpy and plain Python (an independent
+    binner for reference designs: default routes only — NaN and NULL to missing, ±inf to the
+    outer bins)."""
+    out = np.empty(len(values))
+    if feature.type == "numeric":
+        bins = sorted(feature.bins, key=lambda b: b.lower)
+        uppers = np.array([b.upper for b in bins[:-1]])
+        woes = np.array([b.woe for b in bins])
+        side = "right" if feature.closed == "lower" else "left"
+        for i, v in enumerate(values):
+            if v is None or (isinstance(v, float) and math.isnan(v)):
+                out[i] = feature.missing.woe
+            else:
+                out[i] = woes[np.searchsorted(uppers, v, side=side)]
+        return out
+    lookup = {value: g.woe for g in feature.groups for value in g.values}
+    lookup.update({value: feature.other.woe for value in feature.other.values})
+    for i, v in enumerate(values):
+        out[i] = feature.missing.woe if v is None else lookup.get(v, feature.other.woe)
+    return out

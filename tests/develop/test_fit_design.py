@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 import statsmodels.api as sm
 
+from scoremon.trees import column
 from scoremon.develop.design import Design, EnginePasses, measure_moments
 from scoremon.develop.folds import fold_of
 from scoremon.develop.newton import DensePasses, SEPARATION, fit_one
@@ -27,7 +28,7 @@ def _load(engine, rows):
     engine.write_rows(["dev"], fitdata.COLUMNS, rows, "loading the development rows")
     feats, x, y = fitdata.features(rows)
     folds = np.array([fold_of(r[0], K) for r in rows])
-    return EnginePasses(engine, Design(fitdata.source(), feats, "bad", "id", K)), DensePasses(x, y, folds), x, y, folds
+    return EnginePasses(engine, Design(fitdata.source(), feats, column("bad"), "id", K)), DensePasses(x, y, folds), x, y, folds
 
 
 def test_pass_sums_equal_numpy_on_the_same_design(each_engine, rows):
