@@ -96,9 +96,12 @@ def fit_binning(engine: Engine, source: exp.Expression, table: str, binning: Bin
     p = design.columns
 
     lambdas = [0.0] if settings.penalty == "none" else None
-    path = fit_path(passes, p, settings.folds, alpha, lambdas=lambdas, count=settings.lambdas,
-                    ratio=settings.lambda_ratio, metric=settings.cv_metric, one_se=settings.one_se,
-                    histograms=passes.histograms)
+    try:
+        path = fit_path(passes, p, settings.folds, alpha, lambdas=lambdas, count=settings.lambdas,
+                        ratio=settings.lambda_ratio, metric=settings.cv_metric, one_se=settings.one_se,
+                        histograms=passes.histograms)
+    except SingularDesignError as error:
+        raise InputError(_named(error, features)) from error
     chosen_point = path.chosen_point
     final = chosen_point.fit
     warnings = list(chosen.warnings)

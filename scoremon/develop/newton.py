@@ -26,7 +26,9 @@ so each Newton step of every model costs one pass together.
 * Converged when, after a step, max |Δβ| ≤ 1e-10 and |ΔF| ≤ 1e-12·(1 + |F|).
 * Quasi-separation: unpenalised, a training row with |η| > 36 (μ within 2e-16 of 0 or 1)
   for three steps in a row while not converged — the coefficients are running away and the
-  maximum likelihood estimate does not exist; the fit stops and says so.
+  maximum likelihood estimate does not exist; the fit stops and says so. A Newton system that
+  turns singular after the first step (the separated rows' weights vanishing) is the same
+  thing; singular at the start it is a constant or collinear design (:class:`SingularDesignError`).
 """
 from __future__ import annotations
 
@@ -203,8 +205,20 @@ def fit_models(passes: Passes, starts: Mapping[int, np.ndarray], penalty: Penalt
         for m in active:
             state = states[m]
             if state.direction is None:
-                state.direction, state.predicted = _direction(state.beta, state.sums, penalty)
+                try:
+                    state.direction, state.predicted = _direction(state.beta, state.sums, penalty)
+                except SingularDesignError:
+                    if state.sums.extreme == 0 and state.iterations == 0:
+                        raise
+                    # singular only after steps: the weights μ(1 − μ) of separated rows are vanishing
+                    # because the coefficients ran away; the design itself was fine at the start
+                    state.status = SEPARATION
+                    state.reason = _separation_reason(state.sums, state.beta)
+                    continue
                 state.step, state.halvings = 1.0, 0
+        active = [m for m in active if states[m].status is None]
+        if not active:
+            break
         trials = {m: states[m].beta + states[m].step * states[m].direction for m in active}
         result = passes(trials)
         for m in active:
@@ -246,10 +260,7 @@ def _advance(state: _State, trial: np.ndarray, sums: Sums, heldout: tuple[float,
         state.extreme_steps += 1
         if state.extreme_steps >= SEPARATION_STEPS:
             state.status = SEPARATION
-            state.reason = (f"quasi-separation: {int(sums.extreme)} training rows have a fitted probability within "
-                            f"2e-16 of 0 or 1 and the coefficients keep growing (largest |β| "
-                            f"{np.max(np.abs(trial)):.1f}); the unpenalised estimate does not exist — merge bins, "
-                            "drop the characteristic that separates, or use a penalty")
+            state.reason = _separation_reason(sums, trial)
             return
     else:
         state.extreme_steps = 0
@@ -257,6 +268,12 @@ def _advance(state: _State, trial: np.ndarray, sums: Sums, heldout: tuple[float,
         state.status = NO_CONVERGENCE
         state.reason = (f"no convergence in {max_iterations} Newton steps: the last step moved a coefficient by "
                         f"{change:.3g} (tolerance {TOLERANCE_BETA:g})")
+
+
+def _separation_reason(sums: Sums, beta: np.ndarray) -> str:
+    return (f"quasi-separation: {int(sums.extreme)} training rows have a fitted probability within 2e-16 of 0 or 1 "
+            f"and the coefficients keep growing (largest |β| {np.max(np.abs(beta)):.1f}); the unpenalised estimate "
+            "does not exist — merge bins, drop the characteristic that separates, or use a penalty")
 
 
 def _direction(beta: np.ndarray, sums: Sums, penalty: Penalty) -> tuple[np.ndarray, float]:

@@ -87,8 +87,9 @@ def select(names: Sequence[str], ivs: Sequence[float], correlation: np.ndarray, 
                 warnings.append(f"{names[i]} kept by --keep although its WoE correlates {correlation[i, worst]:+.2f} "
                                 f"with {names[worst]}")
             else:
+                why = "kept by --keep" if names[worst] in keep else "higher IV"
                 excluded.append(Excluded(names[i], f"WoE correlation {correlation[i, worst]:+.2f} with "
-                                                   f"{names[worst]} (higher IV) beyond {max_correlation:g}"))
+                                                   f"{names[worst]} ({why}) beyond {max_correlation:g}"))
                 continue
         taken.append(i)
     if not taken:
