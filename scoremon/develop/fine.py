@@ -1,15 +1,23 @@
 """Fine classes, counted in the engine: only aggregates leave it.
 
-A **numeric** characteristic gets quantile edges and the rows and events of each class in one
-grouped query (:func:`quantile_query`): the histogram of its finite values (one row per
-distinct value, cast to DOUBLE), running sums of rows and events in value order (window SUM
-with a ROWS frame), and for k = 1 … Q−1 the lowest value whose running share of rows reaches
-k/Q, with the running rows and events there. That is the *inverted CDF* quantile (the
-smallest x with F(x) ≥ k/Q; ``numpy.quantile(..., method="inverted_cdf")``), computed in
-whole numbers (``rows_to · Q ≥ rows_total · k``), so DuckDB, PostgreSQL and Spark give the same
-edges to the bit: it needs only GROUP BY, a window SUM over distinct values (no ties in the
-order) and MIN. Equal edges are kept once (tied quantiles), and an edge at the largest value is
-dropped, so every class (e_{k−1}, e_k] holds at least one row (``closed: upper``).
+A **numeric** characteristic gets Q quantile classes. The quantile is the *inverted CDF*: edge
+k is the smallest value x with F(x) ≥ k/Q (``numpy.quantile(..., method="inverted_cdf")``),
+that is the value of rank t_k = ⌈k·n/Q⌉ among the n finite values. It is found in two passes
+and checked in whole numbers, so DuckDB, PostgreSQL and Spark return the same edges to the bit:
+
+1. :func:`candidate_query` asks the engine's own discrete percentile for every rank t_k at once,
+   at p = (t_k − ½)/n, so that no engine's rounding of p·n moves it to the next rank;
+2. :func:`position_query` counts the rows below and at each candidate (one CASE and a GROUP BY),
+   and a candidate is edge k only if (rows below it)·Q < k·n ≤ (rows up to it)·Q.
+
+Where a check fails (an engine's percentile is approximate, e.g. Spark's), the exact running-sum
+query :func:`quantile_query` finds every edge: the histogram of distinct values (cast to DOUBLE),
+running sums of rows and events in value order (window SUM with a ROWS frame), and for each k
+the least value whose running count reaches k/Q, compared in whole numbers. It is exact on
+every engine but sorts every distinct value (about 7 times slower on DuckDB, 1M rows).
+
+Equal edges are kept once (tied quantiles), and an edge at the largest value is dropped, so
+every class (e_{k−1}, e_k] holds at least one row (``closed: upper``).
 
 NULL, NaN, +inf and −inf are classes of their own, counted for every numeric characteristic in
 one pass (:func:`special_query`). A **categorical** characteristic gets its rows and events per
@@ -23,7 +31,7 @@ from typing import Callable, Sequence
 from sqlglot import exp
 
 from ..engines import Engine
-from ..trees import case, column, double_constant, identifier, integer
+from ..trees import case, column, double_constant, identifier, integer, number
 
 SPECIAL = ("missing", "nan", "positive_infinity", "negative_infinity")
 Count = tuple[int, int]  # (rows, events)
@@ -95,12 +103,26 @@ def quantile_query(source: exp.Expression, name: str, event: exp.Expression, cla
         return exp.Window(this=_sum(column(what)), order=exp.Order(expressions=[exp.Ordered(this=column("value"))]),
                           spec=exp.WindowSpec(kind="ROWS", start="UNBOUNDED", start_side="PRECEDING", end="CURRENT ROW"))
 
-    ran = exp.select(column("value"),
+    ran = exp.select(column("value"), column("rows"),
                      exp.alias_(running("rows", True), "rows_to", quoted=True),
                      exp.alias_(running("events", True), "events_to", quoted=True),
                      exp.alias_(running("rows", False), "rows_total", quoted=True),
                      exp.alias_(running("events", False), "events_total", quoted=True),
+                     exp.alias_(exp.Window(this=exp.Min(this=column("value"))), "minimum", quoted=True),
                      ).from_(_subquery(histogram, "histogram"))
+    # Only the values where the running share passes some k/classes can be an edge: at most
+    # `classes` of them, kept by comparing ⌊rows_to·Q/total⌋ with ⌊(rows_to − rows)·Q/total⌋. The
+    # division is of whole numbers below 2^53 in doubles, so it rounds correctly and the floors
+    # are exact (a quotient that is not whole stays at least 1/total from the next whole number);
+    # the edges themselves are then chosen in whole numbers below.
+    def share_floor(count: exp.Expression) -> exp.Expression:
+        scaled = _double(exp.Mul(this=count, expression=integer(classes)))
+        return exp.Floor(this=exp.Div(this=scaled, expression=exp.Nullif(this=_double(column("rows_total")),
+                                                                       expression=_double(integer(0)))))
+
+    before = exp.paren(exp.Sub(this=column("rows_to"), expression=column("rows")), copy=False)
+    crossing = (exp.select(exp.Star()).from_(_subquery(ran, "running"))
+                .where(exp.GT(this=share_floor(column("rows_to")), expression=share_floor(before))))
     selected = []
     for k in range(1, classes):
         reached = exp.GTE(this=exp.Mul(this=column("rows_to"), expression=integer(classes)),
@@ -112,9 +134,9 @@ def quantile_query(source: exp.Expression, name: str, event: exp.Expression, cla
                                        f"{alias}_{k}", quoted=True))
     selected += [exp.alias_(exp.Max(this=column("rows_total")), "rows_total", quoted=True),
                  exp.alias_(exp.Max(this=column("events_total")), "events_total", quoted=True),
-                 exp.alias_(exp.Min(this=column("value")), "minimum", quoted=True),
+                 exp.alias_(exp.Min(this=column("minimum")), "minimum", quoted=True),
                  exp.alias_(exp.Max(this=column("value")), "maximum", quoted=True)]
-    return exp.select(*selected).from_(_subquery(ran, "running"))
+    return exp.select(*selected).from_(_subquery(crossing, "crossing"))
 
 
 def special_condition(kind: str, x: exp.Expression) -> exp.Expression:
@@ -126,15 +148,16 @@ def special_condition(kind: str, x: exp.Expression) -> exp.Expression:
 
 
 def special_query(source: exp.Expression, names: Sequence[str], event: exp.Expression) -> exp.Select:
-    """One row: for each numeric column and each of NULL, NaN, +inf, −inf its rows and events
-    (columns ``c0, c1, …`` in that order: rows then events)."""
+    """One row: the table's ``rows``, then for each numeric column and each of NULL, NaN, +inf,
+    −inf its rows and events (columns ``c0, c1, …`` in that order: rows then events)."""
     selected = []
     for name in names:
         for kind in SPECIAL:
             condition = special_condition(kind, column(name))
             selected.append(_sum(case([(condition, integer(1))], integer(0))))
             selected.append(_sum(case([(condition.copy(), event.copy())], integer(0))))
-    return exp.select(*[exp.alias_(s, f"c{i}", quoted=True) for i, s in enumerate(selected)]).from_(source.copy())
+    return exp.select(exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True),
+                      *[exp.alias_(s, f"c{i}", quoted=True) for i, s in enumerate(selected)]).from_(source.copy())
 
 
 def category_query(source: exp.Expression, name: str, event: exp.Expression) -> exp.Select:
@@ -144,21 +167,52 @@ def category_query(source: exp.Expression, name: str, event: exp.Expression) -> 
             .from_(source.copy()).group_by(column(name)))
 
 
-def numeric_classes(engine: Engine, source: exp.Expression, name: str, event: exp.Expression, classes: int,
-                    special: dict[str, Count]) -> NumericClasses:
-    """The fine classes of numeric column ``name`` (``special`` from :func:`count_special`)."""
-    row = engine.query(quantile_query(source, name, event, classes), f"finding the quantiles of {name!r}")[0]
-    rows_total, events_total, minimum, maximum = (row[n] for n in ("rows_total", "events_total", "minimum", "maximum"))
+def candidate_query(source: exp.Expression, names: Sequence[str], probabilities: Sequence[Sequence[float]]) -> exp.Select:
+    """One row: per numeric column i its finite minimum ``min_i``, maximum ``max_i`` and ``q_i``,
+    the list of the engine's discrete percentiles of its finite values at ``probabilities[i]``
+    (DuckDB QUANTILE_DISC, PostgreSQL PERCENTILE_DISC, Spark PERCENTILE_APPROX, each given the
+    whole list at once: DuckDB sorts once for a list but once per percentile otherwise). These are
+    candidates only, each checked exactly by :func:`position_query`."""
+    selected = []
+    for i, name in enumerate(names):
+        value = case([(finite(column(name)), _double(column(name)))], exp.Null())
+        fractions = exp.Array(expressions=[exp.Literal.number(repr(float(p))) for p in probabilities[i]])
+        percentile = exp.WithinGroup(this=exp.PercentileDisc(this=fractions),
+                                     expression=exp.Order(expressions=[exp.Ordered(this=value.copy())]))
+        selected += [exp.alias_(exp.Min(this=value.copy()), f"min_{i}", quoted=True),
+                     exp.alias_(exp.Max(this=value.copy()), f"max_{i}", quoted=True),
+                     exp.alias_(percentile, f"q_{i}", quoted=True)]
+    return exp.select(*selected).from_(source.copy())
+
+
+def position_query(source: exp.Expression, name: str, candidates: Sequence[float], event: exp.Expression) -> exp.Select:
+    """Rows and events of the finite values per position among the sorted ``candidates``
+    c_0 < c_1 < …: position 2j holds c_{j−1} < x < c_j, position 2j + 1 holds x = c_j."""
+    value = _double(column(name))
+    branches = []
+    for j, candidate in enumerate(candidates):
+        branches.append((exp.LT(this=value.copy(), expression=number(candidate)), integer(2 * j)))
+        branches.append((exp.EQ(this=value.copy(), expression=number(candidate)), integer(2 * j + 1)))
+    position = case(branches, integer(2 * len(candidates)))
+    inner = (exp.select(exp.alias_(position, "position", quoted=True), exp.alias_(event.copy(), "event", quoted=True))
+             .from_(source.copy()).where(finite(column(name))))
+    return (exp.select(column("position"), exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True),
+                       exp.alias_(_sum(column("event")), "events", quoted=True))
+            .from_(_subquery(inner, "positioned")).group_by(column("position")))
+
+
+def _classes(name: str, found: Sequence[tuple[float, int, int]], total: Count, special: dict[str, Count],
+             minimum, maximum) -> NumericClasses:
+    """Classes from the edge of each k with the rows and events up to it (``found``, in k order)."""
     edges: list[float] = []
     upto: list[Count] = []
-    if rows_total is not None:
-        for k in range(1, classes):
-            edge, rows_to, events_to = float(row[f"edge_{k}"]), int(row[f"rows_{k}"]), int(row[f"events_{k}"])
+    if total[0]:
+        for edge, rows_to, events_to in found:
             if edge == float(maximum) or (edges and edge == edges[-1]):
                 continue  # a tied quantile, or an edge that would leave the top class empty
             edges.append(edge)
             upto.append((rows_to, events_to))
-        upto.append((int(rows_total), int(events_total)))
+        upto.append(total)
     rows, events, before = [], [], (0, 0)
     for rows_to, events_to in upto:
         rows.append(rows_to - before[0])
@@ -169,11 +223,53 @@ def numeric_classes(engine: Engine, source: exp.Expression, name: str, event: ex
                           None if minimum is None else float(minimum), None if maximum is None else float(maximum))
 
 
+def numeric_classes(engine: Engine, source: exp.Expression, name: str, event: exp.Expression, classes: int,
+                    special: dict[str, Count]) -> NumericClasses:
+    """The fine classes of numeric column ``name`` by the running-sum query (:func:`quantile_query`)."""
+    row = engine.query(quantile_query(source, name, event, classes), f"finding the quantiles of {name!r}")[0]
+    if row["rows_total"] is None:
+        return _classes(name, [], (0, 0), special, None, None)
+    found = [(float(row[f"edge_{k}"]), int(row[f"rows_{k}"]), int(row[f"events_{k}"])) for k in range(1, classes)]
+    return _classes(name, found, (int(row["rows_total"]), int(row["events_total"])), special, row["minimum"],
+                    row["maximum"])
+
+
+def checked_classes(engine: Engine, source: exp.Expression, name: str, event: exp.Expression, classes: int,
+                    special: dict[str, Count], finite_rows: int, candidates: Sequence[float], minimum,
+                    maximum) -> NumericClasses | None:
+    """The fine classes of ``name`` from the engine's percentile ``candidates``, each edge checked
+    in whole numbers (count below it · Q < k · n ≤ count up to it · Q); None when a check fails
+    (then :func:`numeric_classes` finds the edges)."""
+    if finite_rows == 0:
+        return _classes(name, [], (0, 0), special, None, None)
+    values = sorted(set(float(c) for c in candidates if c is not None))
+    rows = engine.query(position_query(source, name, values, event), f"checking the quantiles of {name!r}")
+    counts = {int(r["position"]): (int(r["rows"]), int(r["events"] or 0)) for r in rows}
+    below, upto = [], []  # per candidate: rows below it; (rows, events) up to and including it
+    running = (0, 0)
+    for position in range(2 * len(values) + 1):
+        rows_here, events_here = counts.get(position, (0, 0))
+        running = (running[0] + rows_here, running[1] + events_here)
+        if position % 2 == 0 and position < 2 * len(values):
+            below.append(running[0])
+        elif position % 2 == 1:
+            upto.append(running)
+    if running[0] != finite_rows:
+        return None
+    found = []
+    for k in range(1, classes):
+        for value, lower, (rows_to, events_to) in zip(values, below, upto):
+            if lower * classes < k * finite_rows <= rows_to * classes:
+                found.append((value, rows_to, events_to))
+                break
+        else:
+            return None
+    return _classes(name, found, running, special, minimum, maximum)
+
+
 def count_special(engine: Engine, source: exp.Expression, names: Sequence[str],
-                  event: exp.Expression) -> dict[str, dict[str, Count]]:
-    """Per numeric column: rows and events of NULL, NaN, +inf and −inf."""
-    if not names:
-        return {}
+                  event: exp.Expression) -> tuple[int, dict[str, dict[str, Count]]]:
+    """The table's rows and, per numeric column, rows and events of NULL, NaN, +inf and −inf."""
     row = engine.query(special_query(source, names, event), "counting NULL, NaN and infinite values")[0]
     result: dict[str, dict[str, Count]] = {}
     position = 0
@@ -182,7 +278,7 @@ def count_special(engine: Engine, source: exp.Expression, names: Sequence[str],
         for kind in SPECIAL:
             result[name][kind] = (int(row[f"c{position}"] or 0), int(row[f"c{position + 1}"] or 0))
             position += 2
-    return result
+    return int(row["rows"]), result
 
 
 def categorical_classes(engine: Engine, source: exp.Expression, name: str, event: exp.Expression) -> CategoricalClasses:
@@ -203,18 +299,33 @@ def fine_classes(engine: Engine, source: exp.Expression, numeric: Sequence[str],
                  event: exp.Expression, classes: int,
                  progress: Callable[[float], None] | None = None) -> list[NumericClasses | CategoricalClasses]:
     """The fine classes of every characteristic, numeric first; ``progress`` gets the share done."""
-    steps = len(numeric) + len(categorical) + 1
-    special = count_special(engine, source, numeric, event)
-    done = 1
-    result: list[NumericClasses | CategoricalClasses] = []
-    for name in numeric:
-        result.append(numeric_classes(engine, source, name, event, classes, special[name]))
+    steps = len(numeric) + len(categorical) + 2
+    done = 0
+
+    def step() -> None:
+        nonlocal done
         done += 1
         if progress:
             progress(done / steps)
+
+    result: list[NumericClasses | CategoricalClasses] = []
+    if numeric:
+        total, special = count_special(engine, source, numeric, event)
+        finite_rows = {name: total - sum(rows for rows, _ in special[name].values()) for name in numeric}
+        # the percentile of rank t is asked for at (t − ½)/n, so that no engine's rounding of p·n
+        # can move it to the next rank (numpy shows the trap: 100 · 0.55 = 55.000000000000007)
+        probabilities = [[(-(-k * finite_rows[name] // classes) - 0.5) / finite_rows[name] if finite_rows[name]
+                          else 0.5 for k in range(1, classes)] for name in numeric]
+        step()
+        candidates = engine.query(candidate_query(source, numeric, probabilities), "finding candidate quantiles")[0]
+        step()
+        for i, name in enumerate(numeric):
+            found = checked_classes(engine, source, name, event, classes, special[name], finite_rows[name],
+                                    list(candidates[f"q_{i}"] or []), candidates[f"min_{i}"],
+                                    candidates[f"max_{i}"])
+            result.append(found or numeric_classes(engine, source, name, event, classes, special[name]))
+            step()
     for name in categorical:
         result.append(categorical_classes(engine, source, name, event))
-        done += 1
-        if progress:
-            progress(done / steps)
+        step()
     return result

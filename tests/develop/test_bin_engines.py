@@ -10,7 +10,7 @@ import pytest
 
 from scoremon import api
 from scoremon.develop.binning_file import Settings, read_binning_text, binning_text
-from scoremon.develop.fine import count_special, numeric_classes
+from scoremon.develop.fine import checked_classes, count_special, fine_classes, numeric_classes
 from scoremon.develop.outcome import event_expression
 from scoremon.engines import DuckDBEngine
 from scoremon.engines.protocol import INTEGER, Column
@@ -67,20 +67,33 @@ def test_quantile_edges_equal_numpys_inverted_cdf(each_engine):
     load(each_engine, frame)
     source = table_path(["development"])
     event = event_expression(Column("bad", INTEGER, "BIGINT"))
-    for name in ("score", "dependants"):
-        special = count_special(each_engine, source, [name], event)[name]
-        classes = numeric_classes(each_engine, source, name, event, 20, special)
-        values = pd.to_numeric(frame[name], errors="coerce").astype(float)
-        finite = values[np.isfinite(values)]
-        quantiles = np.quantile(finite.to_numpy(), [k / 20 for k in range(1, 20)], method="inverted_cdf")
-        expected = sorted(set(quantiles.tolist()) - {finite.max()})  # tied quantiles once; none at the top
-        assert list(classes.edges) == expected
-        # each class (e[k-1], e[k]] counted as pandas counts it (pd.cut, right-closed)
-        cut = pd.cut(finite, [-math.inf] + expected + [math.inf], right=True)
-        by_class = frame.loc[finite.index].groupby(cut, observed=False)["bad"].agg(["count", "sum"])
-        assert list(classes.rows) == by_class["count"].tolist()
-        assert list(classes.events) == by_class["sum"].tolist()
-    special = count_special(each_engine, source, ["score"], event)["score"]
+    total, special = count_special(each_engine, source, ["score", "dependants"], event)
+    assert total == ROWS
+    checked = fine_classes(each_engine, source, ["score", "dependants"], [], event, 20)
+    for name, quick in zip(("score", "dependants"), checked):
+        # both routes: the engine's percentiles checked in whole numbers, and the running-sum query
+        for classes in (quick, numeric_classes(each_engine, source, name, event, 20, special[name])):
+            values = pd.to_numeric(frame[name], errors="coerce").astype(float)
+            finite = values[np.isfinite(values)]
+            quantiles = np.quantile(finite.to_numpy(), [k / 20 for k in range(1, 20)], method="inverted_cdf")
+            expected = sorted(set(quantiles.tolist()) - {finite.max()})  # tied quantiles once; none at the top
+            assert list(classes.edges) == expected
+            # each class (e[k-1], e[k]] counted as pandas counts it (pd.cut, right-closed)
+            cut = pd.cut(finite, [-math.inf] + expected + [math.inf], right=True)
+            by_class = frame.loc[finite.index].groupby(cut, observed=False)["bad"].agg(["count", "sum"])
+            assert list(classes.rows) == by_class["count"].tolist()
+            assert list(classes.events) == by_class["sum"].tolist()
+    # a candidate one rank off fails the whole-number check (and the running-sum query takes over):
+    # 97 distinct values, so rank t + 1 never holds the value of rank t
+    each_engine.write_rows(["distinct"], [("x", "DOUBLE"), ("bad", "BIGINT")], [(float(i), i % 2) for i in range(97)],
+                           "loading distinct values")
+    off = [float(-(-k * 97 // 20)) for k in range(1, 20)]  # the value of rank t is t − 1; this is rank t + 1
+    nothing = {kind: (0, 0) for kind in ("missing", "nan", "positive_infinity", "negative_infinity")}
+    assert checked_classes(each_engine, table_path(["distinct"]), "x", event, 20, nothing, 97, off, 0.0, 96.0) is None
+    exact = [value - 1 for value in off]
+    assert checked_classes(each_engine, table_path(["distinct"]), "x", event, 20, nothing, 97, exact, 0.0,
+                           96.0).edges == tuple(exact)
+    special = count_special(each_engine, source, ["score"], event)[1]["score"]
     assert special == {"missing": (4, int(frame.loc[[0, 1, 8, 9], "bad"].sum())),
                        "nan": (3, int(frame.loc[[2, 3, 4], "bad"].sum())),
                        "positive_infinity": (3, int(frame.loc[[5, 6, 11], "bad"].sum())),
