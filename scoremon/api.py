@@ -27,103 +27,33 @@ from .develop.binning_file import Binning, Settings, read_binning, write_binning
 from .develop.fitting import fit_binning, penalty_alpha
 from .develop.records import FitReport, FitSettings
 from .develop.spec_writer import Naming, build_spec, grades_from_deciles, grades_from_pd, parse_grades, write_spec
-from .trees import identifier
 from .dialects import render_sql
 from .diff import DiffReport, Impact, ModelDiff, diff_models, impact_query, summarise_impact
 from .diff.impact import check_outcome_type
-from .engines import Column, DuckDBEngine, Engine, Progress, open_engine
-from .engines.protocol import INTEGER, TEXT
+from .engines import Engine, Progress, open_engine
 from .errors import InputError
 from .monitor import (
     DEFAULT_THRESHOLDS,
     Month,
-    MonitoredRows,
     MonitorReport,
     Thresholds,
     load_thresholds,
-    measure_baseline,
-    measure_book,
-    monitored_rows,
+    measure_development,
+    monitor_table,
     parse_month,
-    read_months,
     spec_text_with_baseline,
-    write_history,
 )
-from .monitor.measure import monitored_relation
-from .monitor.queries import fingerprints_pass, is_scored, months_in
 
 from .spec import fingerprint, load_spec, parse_spec
-from .spec.checks import suggest
-from .spec.model import Baseline, CategoricalFeature, Grade, Scaling, Spec
+from .sources import check_columns, describe_source, float_columns, source_relation, table_name
+from .spec.model import Baseline, Grade, Scaling, Spec
+from .trees import alias, column, table_path
 
 __all__ = ["BinReport", "Binning", "DiffReport", "Impact", "ModelDiff", "MonitorReport", "ScoreResult", "Settings",
            "Thresholds", "bin_development", "compile_sql", "describe_source", "diff_models", "load_spec",
            "load_thresholds", "measure_development", "measure_impact", "monitor", "open_engine", "parse_month",
            "read_binning", "recount_binning", "score", "source_relation", "write_binning", "write_spec_with_baseline"]
 __all__ = sorted(__all__ + ["FitReport", "FitSettings", "Naming", "fit_development", "penalty_alpha"])
-
-def table_name(name: str) -> list[str]:
-    """``"schema.table"`` → ``["schema", "table"]``; each part is quoted when rendered."""
-    parts = name.split(".")
-    if not 1 <= len(parts) <= 2 or not all(parts):
-        raise InputError(f"table name {name!r} is not 'table' or 'schema.table'")
-    return parts
-
-
-def source_relation(table: str | None = None, file: str | Path | None = None) -> exp.Expression:
-    """What to read rows from: a table (``schema.table`` allowed) or a Parquet/CSV file."""
-    if (table is None) == (file is None):
-        raise InputError("give either a table or a file to read, not both and not neither")
-    if table is not None:
-        parts = table_name(table)
-        return exp.Table(this=identifier(parts[-1]), db=identifier(parts[0]) if len(parts) == 2 else None)
-    path = Path(file)
-    if not path.exists():
-        raise InputError(f"{path}: no such file; check the path")
-    suffix = path.suffix.lower()
-    reader = {".parquet": "read_parquet", ".csv": "read_csv", ".tsv": "read_csv"}.get(suffix)
-    if reader is None:
-        raise InputError(f"{path}: cannot read {suffix or 'files without an ending'}; give a .parquet or .csv file")
-    return exp.Anonymous(this=reader, expressions=[exp.Literal.string(str(path))])
-
-
-def describe_source(engine: Engine, source: exp.Expression) -> dict[str, Column]:
-    """Column name → :class:`~scoremon.engines.Column` (portable kind, engine's type name) of a source."""
-    query = exp.select(exp.Star()).from_(source.copy())
-    return {column.name: column for column in engine.describe(query, "reading the input's columns")}
-
-
-def float_columns(columns: dict[str, Column]) -> list[str]:
-    """The columns that can hold NaN or ±infinity, which the scoring SQL then tests for."""
-    return [name for name, column in columns.items() if column.can_hold_nan]
-
-
-def check_columns(spec: Spec, columns: dict[str, Column], keys: Sequence[str]) -> list[str]:
-    """Every way the input's columns do not fit the spec, one message each (empty: all fit)."""
-    problems = []
-    for key in keys:
-        if key not in columns:
-            problems.append(f"key column {key!r} is not in the input{suggest(key, list(columns))}")
-    for feature in spec.features:
-        name = feature.column or feature.name
-        found = columns.get(name)
-        if found is None:
-            problems.append(f"column {name!r} (feature {feature.name!r}) is not in the input{suggest(name, list(columns))}")
-            continue
-        if isinstance(feature, CategoricalFeature):
-            values = [v for g in feature.groups for v in g.values] + list(feature.other.values)
-            wants_text = any(isinstance(v, str) for v in values)
-            if wants_text and found.kind != TEXT:
-                problems.append(f"column {name!r} (feature {feature.name!r}) is {found.type_name} but the spec lists "
-                                "text categories; convert the column to text or list the categories as whole numbers")
-            elif not wants_text and found.kind != INTEGER:
-                problems.append(f"column {name!r} (feature {feature.name!r}) is {found.type_name} but the spec lists "
-                                "whole-number categories; quote the categories in the spec to compare as text")
-        elif not found.is_number:
-            problems.append(f"column {name!r} (feature {feature.name!r}) is {found.type_name}, not a number; "
-                            f"a {feature.type} feature needs a numeric column")
-    return problems
-
 
 def compile_sql(spec: Spec, dialect: str = "duckdb", table: str = "input", keys: Sequence[str] = (),
                 float_columns: Sequence[str] | None = None, pretty: bool = True) -> str:
@@ -162,27 +92,25 @@ def score(
     """
     if (out_table is None) == (out_file is None):
         raise InputError("give either an output table or an output file, not both and not neither")
-    if not isinstance(source, exp.Table) and not isinstance(engine, DuckDBEngine):
+    if not isinstance(source, exp.Table) and not engine.reads_files:
         raise InputError(f"reading a Parquet or CSV file needs the DuckDB engine, not {engine.dialect}; "
                          "load the file into a table in that engine and score the table")
     columns = describe_source(engine, source)
     problems = check_columns(spec, columns, keys)
     if problems:
-        raise InputError("the input does not fit the spec:\n" + "\n".join(f"  - {p}" for p in problems))
+        raise InputError("the input does not fit the spec", problems)
     output_columns(spec, keys)  # a key colliding with an output column is an input error, found now
     scoring = compile_model(spec, source, keys, float_columns(columns))
     started = time.perf_counter()
     if out_table is not None:
-        sql = render_sql(scoring, engine.dialect, pretty=False)
         parts = table_name(out_table)
-        engine.write_table(sql, parts, "writing the scored table", progress)
-        written = exp.Table(this=identifier(parts[-1]), db=identifier(parts[0]) if len(parts) == 2 else None)
+        engine.write_table(scoring, parts, "writing the scored table", progress)
+        written = table_path(parts)
         target = out_table
     else:
-        if not isinstance(engine, DuckDBEngine):
+        if not engine.writes_parquet:
             raise InputError("writing a Parquet file needs the DuckDB engine; write a table instead")
-        engine.write_parquet(render_sql(scoring, engine.dialect, pretty=False, for_parquet=True), out_file,
-                             "writing the scored Parquet file", progress)
+        engine.write_parquet(scoring, out_file, "writing the scored Parquet file", progress)
         written = source_relation(file=out_file)
         target = str(out_file)
     seconds = time.perf_counter() - started
@@ -193,10 +121,10 @@ def score(
 
 def grade_counts(engine: Engine, scored: exp.Expression) -> dict[str, int]:
     """Rows per grade in a scored relation, ordered by grade name."""
-    grade = exp.column(identifier("grade"))
-    query = exp.select(grade, exp.Count(this=exp.Star())).from_(scored.copy()).group_by(grade).order_by(grade)
-    rows = engine.fetch(render_sql(query, engine.dialect, pretty=False), "counting rows per grade")
-    return {str(g): int(n) for g, n in rows}
+    grade = column("grade")
+    query = (exp.select(grade, alias(exp.Count(this=exp.Star()), "rows")).from_(scored.copy())
+             .group_by(grade.copy()).order_by(grade.copy()))
+    return {str(row.grade): int(row.rows) for row in engine.query(query, "counting rows per grade")}
 
 
 def measure_impact(
@@ -219,7 +147,9 @@ def measure_impact(
 
     >>> engine = open_engine()
     >>> spec = load_spec("tests/fixtures/small.yaml")
-    >>> engine.execute("CREATE TABLE book AS SELECT 30.0 AS age, 'N1' AS region_code, 0.5 AS utilisation", "demo")
+    >>> from scoremon.trees import alias, number, text
+    >>> engine.write_table(exp.select(alias(number(30), "age"), alias(text("N1"), "region_code"),
+    ...                               alias(number(0.5), "utilisation")), ["book"], "demo")
     >>> measure_impact(spec, spec, engine, source_relation(table="book")).score_change.rows_unchanged
     1
     """
@@ -236,56 +166,15 @@ def measure_impact(
         except InputError as error:
             problems.append(str(error))
     if problems:
-        raise InputError("the input does not fit the specs:\n" + "\n".join(f"  - {p}" for p in problems))
+        raise InputError("the input does not fit the specs", problems)
     cutoffs = None if cutoff is None else (float(cutoff), float(cutoff if new_cutoff is None else new_cutoff))
     query = impact_query(old, new, source, float_columns(columns), outcome, outcome_is_boolean, cutoffs)
-    rows = engine.fetch(render_sql(query.tree, engine.dialect, pretty=False),
-                        "scoring the population under both versions", progress)
-    return summarise_impact(query.columns, rows, old, new, population, outcome, cutoffs)
+    rows = engine.query(query, "scoring the population under both versions", progress)
+    return summarise_impact(rows, old, new, population, outcome, cutoffs)
 
 
 
 # ---------------------------------------------------------------- baseline and monitoring
-
-def _monitored(spec: Spec, engine: Engine, source: exp.Expression, month_column: str | None,
-               outcome: str | None) -> tuple[MonitoredRows, list[str]]:
-    """The monitored rows over ``source`` (scored already, or scored on the fly), and notes."""
-    columns = describe_source(engine, source)
-    notes = []
-    if is_scored(spec, columns):
-        if "model_fingerprint" in columns:
-            found = engine.fetch(render_sql(fingerprints_pass(source), engine.dialect, pretty=False),
-                                 "reading the scored table's model fingerprints")
-            expected = fingerprint(spec)
-            others = sorted(str(fp) for fp, _ in found if fp != expected)
-            if others:
-                raise InputError(f"the table was scored by a model with fingerprint {', '.join(others)}, not by "
-                                 f"{spec.model.name} version {spec.model.version} ({expected}); score it with this "
-                                 "spec or monitor it with the spec that scored it")
-        else:
-            notes.append("the scored table has no model_fingerprint column; it is taken to be scored by this spec")
-    else:
-        problems = check_columns(spec, columns, ())
-        if problems:
-            raise InputError("the table is neither scored by this spec nor has the columns to score it:\n"
-                             + "\n".join(f"  - {p}" for p in problems))
-        notes.append("the table is scored on the fly by the compiled scoring SQL")
-    return monitored_rows(spec, source, columns, month_column, outcome, float_columns(columns)), notes
-
-
-def measure_development(spec: Spec, engine: Engine, source: exp.Expression, outcome: str | None = None,
-                        month_column: str | None = None, computed_from: str = "") -> Baseline:
-    """The baseline of a development table (raw or scored), measured inside ``engine``.
-
-    Development shares per score band (deciles) and per feature bin, volume (per month when
-    ``month_column`` is given), mean score and points, unseen-category rates, and with an
-    ``outcome`` column the event rate, AUC and KS. Raises :class:`InputError` when the table
-    does not fit the spec or holds no rows.
-    """
-    rows, _ = _monitored(spec, engine, source, month_column, outcome)
-    with monitored_relation(engine, rows) as relation:
-        return measure_baseline(engine, spec, rows, relation, None, computed_from)
-
 
 def write_spec_with_baseline(spec_path: str | Path, baseline: Baseline, out_path: str | Path) -> Path:
     """Write a copy of the spec at ``spec_path`` with ``baseline`` as its baseline section to ``out_path``.
@@ -327,45 +216,10 @@ def monitor(
     baseline_months: tuple[Month, Month] | None = None,
     record_history: bool = True,
 ) -> MonitorReport:
-    """Monitor ``table`` month by month against a baseline; append the run to the history.
-
-    The baseline is the spec's own, or one measured now from ``baseline_table`` or from the
-    months ``baseline_months`` (first, last) of ``table``. ``table`` may be scored already (it
-    has the scored columns, and ``month_column`` / ``outcome`` kept as keys) or raw (it is
-    scored on the fly). Raises :class:`InputError` for anything the user can fix; the history
-    is written last, in one transaction, so a failing run leaves it unchanged.
-    """
-    if baseline_table is not None and baseline_months is not None:
-        raise InputError("give a baseline table or a range of baseline months, not both")
-    if baseline_table is None and baseline_months is None and spec.baseline is None:
-        raise InputError(f"{spec.model.name} version {spec.model.version} has no baseline section; write one "
-                         "with `scoremon baseline SPEC --table DEVELOPMENT --out NEW.yaml`, or give "
-                         "--baseline-table or --baseline-months")
-    source = source_relation(table=table)
-    rows, notes = _monitored(spec, engine, source, month_column, outcome)
-    with monitored_relation(engine, rows) as relation:
-        book = read_months(engine, spec, rows, relation, as_of, month_column)
-        if baseline_table is not None:
-            base_rows, _ = _monitored(spec, engine, source_relation(table=baseline_table), None, outcome)
-            with monitored_relation(engine, base_rows) as base_relation:
-                baseline = measure_baseline(engine, spec, base_rows, base_relation, None, f"table {baseline_table}")
-            baseline_source = f"table {baseline_table}"
-        elif baseline_months is not None:
-            first, last = baseline_months
-            values = book.values_between(first, last)
-            if not values:
-                raise InputError(f"no rows of {table} are in the baseline months {first} to {last}")
-            baseline_source = f"months {first} to {last} of {table}"
-            baseline = measure_baseline(engine, spec, rows, relation, months_in(values), baseline_source)
-        else:
-            baseline = spec.baseline
-            baseline_source = f"the spec's baseline ({baseline.computed_from or 'source not recorded'})"
-        report = measure_book(engine, spec, rows, relation, book, as_of=as_of, month_column=month_column,
-                              baseline=baseline, baseline_source=baseline_source, thresholds=thresholds,
-                              source=f"table {table}", notes=notes, fingerprint=fingerprint(spec))
-    if record_history:
-        write_history(engine, report)
-    return report
+    """Monitor ``table`` month by month against a baseline and append the run to the history;
+    :func:`scoremon.monitor.monitor_table` owns the run's sequence and says what each argument does."""
+    return monitor_table(spec, engine, table, month_column, as_of, outcome, thresholds, baseline_table,
+                         baseline_months, record_history)
 
 
 def bin_development(engine: Engine, table: str, outcome: str, key: str | None = None, month_column: str | None = None,

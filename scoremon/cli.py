@@ -489,8 +489,11 @@ def main(argv: list[str] | None = None) -> int:
     except SpecError as error:
         terminal.print_problems([str(p) for p in error.problems])
         return EXIT_INVALID
+    except InputError as error:
+        terminal.print_problems([f"error: {error.message}"] + [f"  - {p}" for p in error.problems])
+        return EXIT_INVALID
     except ScoremonError as error:
-        terminal.print_problems([f"error: {line}" if i == 0 else line for i, line in enumerate(str(error).splitlines())])
+        terminal.print_problems([f"error: {error}"])
         return EXIT_INVALID
     except KeyboardInterrupt:
         terminal.print_problems(["interrupted; nothing was written"])

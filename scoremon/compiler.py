@@ -61,6 +61,7 @@ from .spec.terms import (
     linear_slope,
     numeric_bins_in_order,
     special_routes,
+    statement_reference,
 )
 from .trees import INTERNAL, by_bin, case, category_literal, column, double_constant, identifier, integer, number, text, total
 
@@ -166,7 +167,7 @@ def compile_model(
     follows = [None if isinstance(f, LinearFeature) else _one_number(spec, t) for f, t in zip(spec.features, terms)]
     binned = [c.copy() for c in key_cols]
     for i, feature in enumerate(spec.features):
-        source_column = feature.column or feature.name
+        source_column = feature.source_column
         x = column(source_column)
         may_be_odd = floats is None or source_column in floats
         if isinstance(feature, LinearFeature):
@@ -212,11 +213,7 @@ def compile_model(
     points_of = {f.name: column(names.features[i][1]) for i, f in enumerate(spec.features)}
     max_of = {t.name: t.max_points for t in terms}
     for r, statement in enumerate(spec.reasons.statements):
-        reference = statement.reference
-        if reference is None:
-            reference = max_of[statement.features[0]]
-            for name in statement.features[1:]:
-                reference = reference + max_of[name]
+        reference = statement_reference(statement, max_of)
         shortfall = exp.Sub(this=number(reference), expression=exp.paren(total([points_of[n].copy() for n in statement.features]), copy=False))
         totalled.append(exp.alias_(shortfall, short_col[r], quoted=True))
     totalled_query = exp.select(*totalled).from_(exp.to_table(identifier("pointed")))

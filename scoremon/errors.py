@@ -5,12 +5,13 @@ Python exceptions. The hierarchy::
 
     ScoremonError                 anything the user can act on (CLI exit code 2)
     ├── SpecError                 a spec file is unreadable or invalid; carries every problem
-    ├── InputError                a table, file or column does not fit the spec
-    └── EngineError               the database refused a query; names the purpose and engine
+    ├── InputError                a table, file or column does not fit the spec; carries each misfit
+    └── EngineError               the database refused a query; carries the purpose, engine and detail
 """
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Sequence
 
 
 class ScoremonError(Exception):
@@ -47,7 +48,18 @@ class SpecError(ScoremonError):
 
 
 class InputError(ScoremonError):
-    """The data handed to scoremon does not fit: a missing column, a wrong type, a bad path."""
+    """The data handed to scoremon does not fit: a missing column, a wrong type, a bad path.
+
+    ``message`` says what; ``problems`` (possibly empty) lists each misfit on its own, each
+    saying where and how to fix it, e.g. ``InputError("the input does not fit the spec",
+    ["column 'age' (feature 'age') is not in the input; did you mean 'Age'?"])``.
+    """
+
+    def __init__(self, message: str, problems: Sequence[str] = ()):
+        self.message = message
+        self.problems = tuple(problems)
+        text = message + ":" + "".join(f"\n  - {p}" for p in self.problems) if self.problems else message
+        super().__init__(text)
 
 
 class EngineError(ScoremonError):

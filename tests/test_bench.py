@@ -13,7 +13,6 @@ from scoremon.bench.queries import grade_summary, input_copy, relation
 from scoremon.bench.workload import bench_spec, create_table, input_columns
 from scoremon.cli import main
 from scoremon.compiler import compile_model
-from scoremon.dialects import render_sql
 from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature
 
 EVERY_LINE = ["a", "b", "a+", "a-r", "a0", "c", "d", "d0", "d1", "f", "e"]
@@ -63,16 +62,16 @@ def test_temporary_data_is_removed(report):
 
 def test_numpy_scorer_matches_the_compiled_grade_summary(engine):
     spec = bench_spec()
-    engine.execute(render_sql(create_table("input", 5_000), "duckdb"), "generating rows")
-    compiled = engine.fetch(render_sql(grade_summary(compile_model(spec, relation("input"))), "duckdb"), "scoring")
-    frame = engine.fetch_frame(render_sql(input_copy("input", input_columns()), "duckdb"), "fetching")
+    engine.execute(create_table("input", 5_000), "generating rows")
+    compiled = engine.query(grade_summary(compile_model(spec, relation("input"))), "scoring")
+    frame = engine.query_frame(input_copy("input", input_columns()), "fetching")
     summary = score_with_numpy(spec, frame)
-    assert summary.grades == tuple(row[0] for row in compiled)
-    assert summary.rows == tuple(row[1] for row in compiled)
+    assert summary.grades == tuple(row.grade for row in compiled)
+    assert summary.rows == tuple(row.rows for row in compiled)
     assert sum(summary.rows) == 5_000
-    for mine, theirs in zip(summary.mean_score, (row[2] for row in compiled)):
+    for mine, theirs in zip(summary.mean_score, (row.mean_score for row in compiled)):
         assert mine == pytest.approx(theirs, rel=1e-12)
-    for mine, theirs in zip(summary.mean_pd, (row[3] for row in compiled)):
+    for mine, theirs in zip(summary.mean_pd, (row.mean_pd for row in compiled)):
         assert mine == pytest.approx(theirs, rel=1e-9)
 
 

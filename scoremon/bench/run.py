@@ -32,11 +32,11 @@ from sqlglot import exp
 
 from .. import api
 from ..compiler import compile_model, output_columns
-from ..dialects import render_sql
-from ..engines import DuckDBEngine, Progress
+from ..engines import DuckDBEngine, Progress, Row, Statement
 from ..errors import InputError
+from ..sources import describe_source, float_columns
 from ..spec.model import Spec
-from ..trees import case, column, integer
+from ..trees import alias, case, column, integer, text
 from . import queries, workload
 from .memory import measure_peak_memory
 from .numpy_scorer import GradeSummary, score_with_numpy
@@ -121,7 +121,7 @@ class BenchObserver(Protocol):
     def measured(self, line: BenchLine) -> None: ...
 
 
-class _Silent:
+class SilentObserver:
     """An observer that shows nothing (library use, tests)."""
 
     def stage(self, description: str):
@@ -140,15 +140,12 @@ class _Bench:
         self.settings, self.observer, self.folder = settings, observer, folder
         self.spec: Spec = workload.bench_spec()
         self.engine = DuckDBEngine(str(folder / "input.duckdb"), threads=settings.threads)
-        self.engine.execute("SET enable_progress_bar_print = false", "quieting DuckDB's own progress bar")
         self.lines: list[BenchLine] = []
         self.notes: list[str] = []
 
-    def sql(self, tree: exp.Expression) -> str:
-        return render_sql(tree, "duckdb", pretty=False)
-
-    def fetch(self, tree: exp.Expression, purpose: str) -> list[tuple]:
-        return self.engine.fetch(self.sql(tree), purpose)
+    def sql(self, tree: exp.Expression) -> Statement:
+        """``tree`` rendered once, before the timing starts: the lines time queries, not rendering."""
+        return self.engine.prepare(tree)
 
     def add(self, line: BenchLine) -> None:
         self.lines.append(line)
@@ -166,10 +163,10 @@ class _Bench:
 
     def generate(self) -> None:
         with self.observer.stage(f"generating {self.settings.rows:,} rows") as progress:
-            self.engine.write_table(self.sql(workload.generate_rows(self.settings.rows)), [TABLE],
+            self.engine.write_table(workload.generate_rows(self.settings.rows), [TABLE],
                                     "generating the bench rows", progress)
-        columns = api.describe_source(self.engine, queries.relation(TABLE))
-        self.floats = api.float_columns(columns)
+        columns = describe_source(self.engine, queries.relation(TABLE))
+        self.floats = float_columns(columns)
         self.scoring = compile_model(self.spec, queries.relation(TABLE), (), self.floats)
         self.binning_sql = self.sql(queries.binning_only(self.scoring))  # lines (a0) and (d1)
 
@@ -178,7 +175,7 @@ class _Bench:
         compiled = self.sql(queries.grade_summary(self.scoring))
         bare = self.sql(queries.bare_scan(TABLE, numeric, workload.text_columns()))
         hand = self.sql(queries.grade_summary(queries.hand_written_score(self.spec, TABLE)))
-        run = self.engine.fetch
+        run = self.engine.query
         self.timed_line("a", "compiled scoring ÷ bare scan",
                         "compiled", lambda: run(compiled, "compiled scoring"),
                         "bare scan", lambda: run(bare, "bare scan"), Goal(6.0, at_most=True))
@@ -206,18 +203,18 @@ class _Bench:
         results: dict[str, object] = {}
 
         def numpy_route():
-            frame = self.engine.fetch_frame(export, "fetching the input into numpy")
+            frame = self.engine.query_frame(export, "fetching the input into numpy")
             results["numpy"] = score_with_numpy(self.spec, frame)
 
         def compiled_route():
-            results["compiled"] = self.engine.fetch(compiled, "compiled scoring")
+            results["compiled"] = self.engine.query(compiled, "compiled scoring")
 
         self.timed_line("c", "export to numpy, score ÷ compiled",
                         "numpy", numpy_route, "compiled", compiled_route, Goal(10.0, at_most=False))
         self.notes.append(_agreement(results["numpy"], results["compiled"]))
 
     def compare_parquet(self) -> None:
-        scored_sql = render_sql(self.scoring, "duckdb", pretty=False, for_parquet=True)
+        scored_sql = self.engine.prepare(self.scoring, for_parquet=True)
         copy_sql = self.sql(queries.input_copy(TABLE, workload.input_columns()))
         scored_file, copy_file = self.folder / "scored.parquet", self.folder / "copy.parquet"
         write = self.engine.write_parquet
@@ -234,13 +231,12 @@ class _Bench:
                                   "copy", lambda: write(copy_sql, copy_file, "copying the input to Parquet"), None)
         # (d1) what scoring adds to (d0) at the least: its first step, before labels, points, reasons
         binning = self.timed_line("d1", "binning step alone ÷ input copy",
-                                  "binning", lambda: self.engine.fetch(self.binning_sql, "the binning step alone"),
+                                  "binning", lambda: self.engine.query(self.binning_sql, "the binning step alone"),
                                   "copy", lambda: write(copy_sql, copy_file, "copying the input to Parquet"), None)
         self.notes.append(f"(d) cannot come much below (d0) + (d1) = {written.ratio + binning.ratio:.2f}: writing "
                           "the scored rows costs (d0) and finding the bins costs (d1) before any label, points, "
                           "score or reason is made")
-        self.engine.execute(self.sql(exp.Drop(tables=[queries.relation(SCORED_ROWS)], kind="TABLE")),
-                            "dropping the scored rows")
+        self.engine.execute(exp.Drop(tables=[queries.relation(SCORED_ROWS)], kind="TABLE"), "dropping the scored rows")
         scored_file.unlink(missing_ok=True)
         copy_file.unlink(missing_ok=True)
 
@@ -249,10 +245,10 @@ class _Bench:
         and discrimination on the 12 mature months, the history write — ÷ scoring the same rows
         into a table (month and outcome kept as keys)."""
         with self.observer.stage("giving the bench rows months and outcomes") as progress:
-            self.engine.write_table(self.sql(_book(TABLE)), [BOOK], "adding months and outcomes", progress)
-        columns = api.describe_source(self.engine, queries.relation(BOOK))
+            self.engine.write_table(_book(TABLE), [BOOK], "adding months and outcomes", progress)
+        columns = describe_source(self.engine, queries.relation(BOOK))
         scoring = self.sql(compile_model(self.spec, queries.relation(BOOK), ("month", "outcome"),
-                                         api.float_columns(columns)))
+                                         float_columns(columns)))
 
         def score():
             self.engine.write_table(scoring, [SCORED_BOOK], "scoring the bench book")
@@ -274,9 +270,8 @@ class _Bench:
         database = self.folder / "memory.duckdb"
         generator = DuckDBEngine(str(database), threads=self.settings.threads)
         try:
-            generator.execute("SET enable_progress_bar_print = false", "quieting DuckDB's own progress bar")
             with self.observer.stage(f"generating {rows:,} rows for the memory test") as progress:
-                generator.write_table(self.sql(workload.generate_rows(rows)), [TABLE],
+                generator.write_table(workload.generate_rows(rows), [TABLE],
                                       "generating the memory-test rows", progress)
         finally:
             generator.close()
@@ -293,7 +288,8 @@ class _Bench:
                            f"{self.settings.memory_limit}"))
 
     def threads(self) -> int:
-        return int(self.engine.fetch("SELECT current_setting('threads')", "reading the thread count")[0][0])
+        setting = exp.Anonymous(this="current_setting", expressions=[text("threads")])
+        return int(self.engine.query(exp.select(alias(setting, "threads")), "reading the thread count")[0].threads)
 
 
 def _book(table: str) -> exp.Select:
@@ -311,8 +307,8 @@ def _book(table: str) -> exp.Select:
                       exp.alias_(outcome, "outcome", quoted=True)).from_(queries.relation(table))
 
 
-def _agreement(numpy_summary: GradeSummary, compiled_rows: list[tuple]) -> str:
-    compiled = {str(g): int(n) for g, n, *_ in compiled_rows}
+def _agreement(numpy_summary: GradeSummary, compiled_rows: list[Row]) -> str:
+    compiled = {str(r.grade): int(r.rows) for r in compiled_rows}
     route = dict(zip(numpy_summary.grades, numpy_summary.rows))
     if compiled == route:
         return "numpy and compiled scoring agree on the rows in every grade"
@@ -337,7 +333,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
     ['a', 'b', 'a+', 'a-r', 'a0', 'c', 'd', 'd0', 'd1', 'f']
     """
     _check_settings(settings)
-    observer = observer or _Silent()
+    observer = observer or SilentObserver()
     parent = Path(settings.folder) if settings.folder else None
     if parent is not None:
         parent.mkdir(parents=True, exist_ok=True)

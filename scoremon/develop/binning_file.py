@@ -31,7 +31,6 @@ from ..errors import InputError, Problem, SpecError
 from ..spec.loading import validate_source
 from ..spec.model import CategoricalFeature, NumericFeature
 from ..spec.source import SpecSource, read_spec_file, read_spec_text
-from ..spec.terms import interval_label
 from .woe import bin_evidence, event_rate
 
 TRENDS = ("increasing", "decreasing", "auto", "none")
@@ -166,8 +165,7 @@ def with_counts(feature: BinnedSpecFeature, rows_events: list[tuple[int, int]], 
 def bin_labels(feature: BinnedSpecFeature) -> list[str]:
     """Each bin's label in the order of :class:`BinnedFeature` ``counts``."""
     if isinstance(feature, NumericFeature):
-        return [b.label or interval_label(b.lower, b.upper, feature.closed) for b in feature.bins] + \
-            [feature.missing.label]
+        return [feature.bin_label(b) for b in feature.bins] + [feature.missing.label]
     return [g.label for g in feature.groups] + [feature.other.label, feature.missing.label]
 
 

@@ -204,15 +204,7 @@ def _over(columns: Sequence[exp.Expression], query: exp.Expression, name: str) -
 
 
 def _inputs(spec: Spec) -> list[str]:
-    return list(dict.fromkeys(f.column or f.name for f in spec.features))
-
-
-@dataclass(frozen=True)
-class ImpactQuery:
-    """The query and the names of the columns it returns, in order."""
-
-    tree: exp.Select
-    columns: tuple[str, ...]
+    return list(dict.fromkeys(f.source_column for f in spec.features))
 
 
 def impact_query(
@@ -223,7 +215,7 @@ def impact_query(
     outcome: str | None = None,
     outcome_is_boolean: bool = False,
     cutoffs: tuple[float, float] | None = None,
-) -> ImpactQuery:
+) -> exp.Select:
     """The one query that scores ``source`` under both versions and aggregates the pairs.
 
     ``float_columns`` names the source's FLOAT/DOUBLE columns (the others need no NaN test).
@@ -374,7 +366,7 @@ def impact_query(
     query = _over([alias(e, n) for n, e in selected], cells, "cells")
     sets = [exp.Tuple(expressions=[])] + [exp.Tuple(expressions=[column(n) for n in names]) for names in groups.values()]
     query.set("group", exp.Group(grouping_sets=[exp.GroupingSets(expressions=sets)]))
-    return ImpactQuery(query, tuple(n for n, _ in selected))
+    return query
 
 
 def _band(change: exp.Expression, steps: Sequence[float], unchanged: float) -> exp.Expression:
@@ -428,23 +420,22 @@ def band_labels(steps: Sequence[float], unit: str, scale: float = 1.0, digits: i
 
 
 def summarise_impact(
-    columns: Sequence[str],
-    rows: Sequence[Sequence],
+    rows: Sequence[Mapping],
     old: Spec,
     new: Spec,
     population: str,
     outcome: str | None = None,
     cutoffs: tuple[float, float] | None = None,
 ) -> Impact:
-    """Turn the rows of :func:`impact_query` into an :class:`Impact`.
+    """Turn the rows of :func:`impact_query` (named: mappings from column name to value) into an :class:`Impact`.
 
     Raises :class:`InputError` when the population is empty or the outcome column holds
     values other than 0, 1 and NULL.
     """
-    records = [dict(zip(columns, row)) for row in rows]
-    flags = [name for name in GROUPINGS if f"grouping_{name}" in columns]
+    records = list(rows)
+    flags = [name for name in GROUPINGS if records and f"grouping_{name}" in records[0]]
 
-    def of(grouping: str | None) -> list[dict]:
+    def of(grouping: str | None) -> list[Mapping]:
         wanted = [r for r in records if all(r[f"grouping_{g}"] == (0 if g == grouping else 1) for g in flags)]
         return wanted
 

@@ -146,13 +146,6 @@ class DuckDBEngine(Engine):
         finally:
             watcher.stop()
 
-    # TRANSITION: the text-taking reads, until every caller builds trees
-
-    def fetch(self, sql: str, purpose: str, progress: Progress | None = None) -> list[tuple]:
-        return self._watched(lambda: self.connection.execute(sql).fetchall(), purpose, progress)
-
-    def fetch_frame(self, sql: str, purpose: str) -> pd.DataFrame:
-        return self.query_frame(sql, purpose)
 
 
 def _plain_size(text: str) -> str:

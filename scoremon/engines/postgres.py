@@ -166,16 +166,6 @@ class PostgresEngine(Engine):
             names = [column.name for column in cursor.description or ()]
             return [tuple(_plain(value) for value in row) for row in cursor.fetchall()], names
 
-    # TRANSITION: the text-taking reads, until every caller builds trees
-
-    def fetch(self, sql: str, purpose: str, progress: Progress | None = None) -> list[tuple]:
-        rows, _ = self._run(lambda: self._query(sql), purpose)
-        if progress:
-            progress(1.0)
-        return rows
-
-    def fetch_frame(self, sql: str, purpose: str) -> pd.DataFrame:
-        return self.query_frame(sql, purpose)
 
 
 def _plain(value):

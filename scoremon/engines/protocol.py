@@ -190,8 +190,6 @@ class Engine(Protocol):
             return query.sql
         if isinstance(query, exp.Expression):
             return render_sql(query, self.dialect, pretty=False)
-        if isinstance(query, str):  # TRANSITION: callers still handing text; removed once all build trees
-            return query
         raise TypeError(f"an engine runs sqlglot trees, not {type(query).__name__}")  # a bug in the caller
 
     def _run(self, work: Callable[[], Any], purpose: str) -> Any:

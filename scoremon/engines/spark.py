@@ -236,16 +236,6 @@ class SparkEngine(Engine):
         except self._driver_errors:  # cleaning up after a failure: the first error is the one reported
             pass
 
-    # TRANSITION: the text-taking reads, until every caller builds trees
-
-    def fetch(self, sql: str, purpose: str, progress: Progress | None = None) -> list[tuple]:
-        rows = self._run(lambda: [tuple(row) for row in self.session.sql(sql).collect()], purpose)
-        if progress:
-            progress(1.0)
-        return rows
-
-    def fetch_frame(self, sql: str, purpose: str) -> pd.DataFrame:
-        return self.query_frame(sql, purpose)
 
 
 def _check_catalog_name(table: list[str]) -> None:

@@ -39,12 +39,13 @@ from typing import Any, Iterator, Sequence
 from scipy.stats import norm
 from sqlglot import exp
 
-from ..dialects import render_sql
 from ..errors import InputError
 from ..spec.model import Baseline, CategoricalFeature, LinearFeature, Spec
+from ..trees import identifier
 from . import queries
-from .baseline import band_edges, feature_bins, run
+from .baseline import band_edges, feature_bins
 from .months import Month, calendar_between, is_mature, month_of
+from .passes import BinCounts, GradeSums, bin_counts, grade_sums, histogram_sums, month_sums
 from .queries import MonitoredRows
 from .records import (
     IMMATURE,
@@ -82,16 +83,14 @@ def monitored_relation(engine, rows: MonitoredRows) -> Iterator[exp.Expression]:
     when rows are scored on the fly, a temporary table holding them, so that the scoring runs
     once and not once per pass. The temporary table is dropped on the way out."""
     if not rows.scored_on_the_fly:
-        yield exp.Subquery(this=rows.select.copy(), alias=exp.TableAlias(this=queries.identifier("monitored")))
+        yield exp.Subquery(this=rows.select.copy(), alias=exp.TableAlias(this=identifier("monitored")))
         return
     name = f"scoremon_monitored_{uuid.uuid4().hex[:12]}"
-    engine.execute(render_sql(queries.temporary_table(name, rows.select), engine.dialect, pretty=False),
-                   "scoring the monitored rows into a temporary table")
+    engine.execute(queries.temporary_table(name, rows.select), "scoring the monitored rows into a temporary table")
     try:
-        yield exp.Table(this=queries.identifier(name))
+        yield exp.Table(this=identifier(name))
     finally:
-        engine.execute(render_sql(queries.drop_table(name), engine.dialect, pretty=False),
-                       "dropping the temporary table of monitored rows")
+        engine.execute(queries.drop_table(name), "dropping the temporary table of monitored rows")
 
 
 @dataclass(frozen=True)
@@ -125,9 +124,9 @@ def read_months(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expressio
     Raises :class:`InputError` when the outcome holds values other than 0, 1 and NULL, when the
     month column holds something that is not a month, or when no month is on or before ``as_of``.
     """
-    result = run(engine, queries.month_pass(relation, spec, rows), "counting rows per month")
+    result = month_sums(engine, spec, rows, relation, None, "counting rows per month")
     notes: list[str] = []
-    invalid = sum(int(r[-1] or 0) for r in result)
+    invalid = sum(r.invalid_outcomes for r in result)
     if invalid:
         raise InputError(f"the outcome column holds {invalid:,} values that are neither 1, 0 nor NULL; "
                          "fix the outcome column (1 = event, 0 = no event, NULL = not known yet)")
@@ -135,19 +134,17 @@ def read_months(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expressio
     found: dict[Month, MonthRow] = {}
     later = 0
     for r in result:
-        if r[0] is None:
-            notes.append(f"{int(r[1]):,} rows have no month and are left out")
+        if r.value is None:
+            notes.append(f"{r.rows:,} rows have no month and are left out")
             continue
-        month = month_of(r[0], month_column)
+        month = month_of(r.value, month_column)
         if month in found:
             raise InputError(f"month column {month_column!r} holds several values for {month} "
-                             f"({found[month].value!r}, {r[0]!r}); give one value per month")
+                             f"({found[month].value!r}, {r.value!r}); give one value per month")
         if month.first_day > as_of:
-            later += int(r[1])
+            later += r.rows
             continue
-        unseen = {name: int(r[3 + features + i] or 0) for i, name in enumerate(rows.unseen_features)}
-        found[month] = MonthRow(month, r[0], int(r[1]), float(r[2] or 0.0),
-                                tuple(float(r[3 + i] or 0.0) for i in range(features)), unseen, int(r[-2] or 0))
+        found[month] = MonthRow(month, r.value, r.rows, r.score_sum, r.points_sums, r.unseen_rows, r.outcome_rows)
     if later:
         notes.append(f"{later:,} rows are in months after the as-of date {as_of} and are left out")
     if not found:
@@ -206,17 +203,12 @@ def _change(actual: float | None, expected: float | None) -> float | None:
     return None if actual is None or expected is None else actual - expected
 
 
-def _abs(value: float | None) -> float | None:
-    return None if value is None else abs(value)
-
-
 @dataclass
 class _Passes:
     """The bins, calibration and discrimination results, keyed by month."""
 
-    bands: dict[Month, list[int]] = field(default_factory=dict)
-    bins: dict[Month, list[dict[str, int]]] = field(default_factory=dict)
-    grades: dict[Month, dict[str, tuple]] = field(default_factory=dict)
+    bins: dict[Month, BinCounts] = field(default_factory=dict)
+    grades: dict[Month, dict[str, GradeSums]] = field(default_factory=dict)
     histograms: dict[Month, HistogramSums] = field(default_factory=dict)
 
 
@@ -244,33 +236,19 @@ def measure_book(
     mature = [m for m in with_rows if rows.has_outcome and is_mature(m.month, window, as_of)]
     passes = _Passes()
 
-    bins = run(engine, queries.bins_pass(relation, spec, edges, True, queries.months_in([m.value for m in with_rows])),
-               "counting rows per month, score band and bin")
     by_value = {m.value: m.month for m in with_rows}
-    for r in bins:
-        month = by_value.get(r[0])
-        if month is None:
-            continue
-        count = int(r[-1])
-        if r[1] is not None:
-            passes.bands.setdefault(month, [0] * (len(edges) + 1))[int(r[1])] += count
-            continue
-        per_feature = passes.bins.setdefault(month, [{} for _ in spec.features])
-        for i in range(len(spec.features)):
-            if r[2 + i] is not None:
-                per_feature[i][str(r[2 + i])] = count
-                break
+    counted = bin_counts(engine, spec, relation, edges, True, queries.months_in([m.value for m in with_rows]),
+                         "counting rows per month, score band and bin")
+    for value, counts in counted.items():
+        if value in by_value:
+            passes.bins[by_value[value]] = counts
 
     if mature:
         where = queries.months_in([m.value for m in mature])
-        for r in run(engine, queries.calibration_pass(relation, where), "back-testing calibration per month and grade"):
-            month = by_value.get(r[0])
-            if month is not None:
-                passes.grades.setdefault(month, {})[str(r[1])] = tuple(r[2:])
-        for r in run(engine, queries.discrimination_pass(relation, where, True), "measuring discrimination per month"):
-            month = by_value.get(r[0])
-            if month is not None:
-                passes.histograms[month] = HistogramSums(*[float(v) for v in r[1:]])
+        grades = grade_sums(engine, relation, where, "back-testing calibration per month and grade")
+        passes.grades = {by_value[value]: found for value, found in grades.items() if value in by_value}
+        histograms = histogram_sums(engine, relation, where, True, "measuring discrimination per month")
+        passes.histograms = {by_value[value]: found for value, found in histograms.items() if value in by_value}
 
     expected_rows = baseline.rows_per_month
     if expected_rows is None:
@@ -323,7 +301,8 @@ def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: fl
 
     # score bands
     bands = sorted(baseline.score_bands, key=lambda b: b.lower)
-    band_rows = passes.bands.get(m.month, [0] * len(bands))
+    counts = passes.bins.get(m.month)
+    band_rows = counts.bands if counts else [0] * len(bands)
     expected = [b.share for b in bands]
     shift = _shift(band_rows, expected, baseline.rows, thresholds) if m.rows and bands else _Shift(None, None, None)
     score_psi_status = _material_and_real(shift.psi, thresholds.score_psi, shift.critical_watch, shift.critical_alert)
@@ -332,7 +311,7 @@ def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: fl
     mean_score = _ratio(m.score_sum, m.rows)
 
     characteristics, quality = [], []
-    month_bins = passes.bins.get(m.month, [{} for _ in spec.features])
+    month_bins = counts.bins if counts else [{} for _ in spec.features]
     for i, feature in enumerate(spec.features):
         characteristics.append(_characteristic(spec, feature, i, m, month_bins[i], baseline, thresholds))
         quality.append(_quality(feature, m, month_bins[i], baseline, thresholds, rows))
@@ -432,24 +411,24 @@ def _quality(feature, m: MonthRow, counts: dict[str, int], baseline: Baseline, t
                           worst(missing_status, unseen_status, catch_all_status))
 
 
-def _calibration(spec: Spec, grades: dict[str, tuple], m: MonthRow, thresholds: Thresholds) -> Calibration:
+def _calibration(spec: Spec, grades: dict[str, GradeSums], m: MonthRow, thresholds: Thresholds) -> Calibration:
     limit = thresholds.calibration_p_value
     records = []
     total_rows = total_events = 0
     pd_sum = numerator = variance = squared_error = 0.0
     for grade in spec.grades:
-        n, d, p_sum, z_sum, z_variance, se_sum = grades.get(grade.name, (0, 0, 0.0, 0.0, 0.0, 0.0))
-        n, d = int(n), int(d or 0)
-        mean_pd = _ratio(float(p_sum or 0.0), n)
+        sums = grades.get(grade.name) or GradeSums(0, 0, 0.0, 0.0, 0.0, 0.0)
+        n, d = sums.rows, sums.events
+        mean_pd = _ratio(sums.pd_sum, n)
         jeffreys = jeffreys_p(n, d, mean_pd) if n else None
         records.append(GradeCalibration(grade.name, n, d, mean_pd, _ratio(d, n), jeffreys,
                                         binomial_p(n, d, mean_pd) if n else None, limit.status(jeffreys)))
         total_rows += n
         total_events += d
-        pd_sum += float(p_sum or 0.0)
-        numerator += float(z_sum or 0.0)
-        variance += float(z_variance or 0.0)
-        squared_error += float(se_sum or 0.0)
+        pd_sum += sums.pd_sum
+        numerator += sums.spiegelhalter_sum
+        variance += sums.spiegelhalter_variance
+        squared_error += sums.squared_error_sum
     mean_pd = _ratio(pd_sum, total_rows)
     jeffreys = jeffreys_p(total_rows, total_events, mean_pd) if total_rows else None
     chi = grade_chi_square([g.rows for g in records], [g.events for g in records], [g.mean_pd for g in records])

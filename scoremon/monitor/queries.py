@@ -41,7 +41,7 @@ from ..compiler import compile_model
 from ..engines.protocol import BOOLEAN, DATE, INTEGER, TEXT, Column
 from ..errors import InputError
 from ..spec.model import CategoricalFeature, Reasons, Spec
-from ..trees import case, column, identifier, integer, number, text
+from ..trees import case, category_literal, column, identifier, integer, number, text
 
 MONTH, OUTCOME, SCORE, PD, GRADE, SCORE_BAND, ROWS = "month", "outcome", "score", "pd", "grade", "score_band", "rows"
 SCORED_COLUMNS = (SCORE, PD, GRADE)
@@ -57,6 +57,14 @@ def points_column(feature) -> str:
 
 def unseen_column(feature) -> str:
     return f"{feature.name}_unseen"
+
+
+def points_sum_column(feature) -> str:
+    return f"{feature.name}_points_sum"
+
+
+def unseen_rows_column(name: str) -> str:
+    return f"{name}_unseen_rows"
 
 
 def is_scored(spec: Spec, columns: Mapping[str, Any]) -> bool:
@@ -92,14 +100,14 @@ def monitored_rows(
     month_kind = _month_kind(month_column, columns) if month_column else None
     outcome_kind = _outcome_kind(outcome_column, columns) if outcome_column else None
     categorical = [f for f in spec.features if isinstance(f, CategoricalFeature)]
-    readable = [f for f in categorical if (f.column or f.name) in columns]
+    readable = [f for f in categorical if f.source_column in columns]
     scored = is_scored(spec, columns)
 
     if scored:
         relation = source.copy()
     else:
         keys = []
-        for name in [month_column, outcome_column] + [f.column or f.name for f in readable]:
+        for name in [month_column, outcome_column] + [f.source_column for f in readable]:
             if name and name not in keys:
                 keys.append(name)
         # monitoring reads no reasons, so the scoring steps that rank them are left out
@@ -169,14 +177,9 @@ def _outcome_expression(value: exp.Expression, kind: str) -> exp.Expression:
                  (exp.EQ(this=value.copy(), expression=integer(0)), integer(0))], exp.Neg(this=integer(1)))
 
 
-def listed_values(feature: CategoricalFeature) -> list:
-    """Every value a categorical feature's spec names (its groups' and its catch-all's)."""
-    return [v for g in feature.groups for v in g.values] + list(feature.other.values)
-
-
 def _unseen_expression(feature: CategoricalFeature) -> exp.Expression:
-    x = column(feature.column or feature.name)
-    listed = [integer(v) if isinstance(v, int) else text(v) for v in listed_values(feature)]
+    x = column(feature.source_column)
+    listed = [category_literal(v) for v in feature.listed_values]
     return case([(exp.Is(this=x.copy(), expression=exp.Null()), integer(0)),
                  (exp.In(this=x.copy(), expressions=listed), integer(0))], integer(1))
 
@@ -238,9 +241,9 @@ def month_pass(relation: exp.Expression, spec: Spec, rows: MonitoredRows, where:
     selected: list[exp.Expression] = [exp.alias_(exp.Count(this=exp.Star()), ROWS, quoted=True),
                                       exp.alias_(exp.Sum(this=column(SCORE)), "score_sum", quoted=True)]
     for feature in spec.features:
-        selected.append(exp.alias_(exp.Sum(this=column(points_column(feature))), f"{feature.name}_points_sum", quoted=True))
+        selected.append(exp.alias_(exp.Sum(this=column(points_column(feature))), points_sum_column(feature), quoted=True))
     for name in rows.unseen_features:
-        selected.append(exp.alias_(exp.Sum(this=column(f"{name}_unseen")), f"{name}_unseen_rows", quoted=True))
+        selected.append(exp.alias_(exp.Sum(this=column(f"{name}_unseen")), unseen_rows_column(name), quoted=True))
     if rows.has_outcome:
         present = exp.Not(this=exp.Is(this=column(OUTCOME), expression=exp.Null()))
         invalid = exp.LT(this=column(OUTCOME), expression=integer(0))

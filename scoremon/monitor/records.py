@@ -11,7 +11,6 @@ from dataclasses import dataclass, field
 from datetime import date
 
 MATURE, IMMATURE = "mature", "immature"
-FAMILIES = ("stability", "data_quality", "calibration", "discrimination")
 
 
 @dataclass(frozen=True)
