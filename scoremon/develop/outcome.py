@@ -19,6 +19,7 @@ from sqlglot import exp
 from ..engines import Engine
 from ..engines.protocol import BOOLEAN, DATE, INTEGER, NUMERIC, TEXT, Column
 from ..errors import InputError
+from ..sources import describe_source
 from ..spec.checks import MAX_NAME_BYTES, suggest
 from ..trees import alias, case, column, integer
 
@@ -51,9 +52,8 @@ class RowFacts:
 
 
 def describe_columns(engine: Engine, source: exp.Expression) -> dict[str, Column]:
-    """Column name → described column of the development table."""
-    columns = engine.describe(exp.select(exp.Star()).from_(source.copy()), "reading the table's columns")
-    return {c.name: c for c in columns}
+    """Column name → described column of the development table (:func:`scoremon.sources.describe_source`)."""
+    return describe_source(engine, source)
 
 
 def _missing(role: str, name: str, columns: dict[str, Column], table: str) -> InputError:
