@@ -82,7 +82,6 @@ def recount_table(engine: Engine, source: exp.Expression, table: str, edited: Bi
     month_column = month_column if month_column is not None else edited.month_column
     columns = describe_columns(engine, source)
     names = [b.feature.column or b.name for b in edited.features]
-    plan = plan_columns(columns, table, outcome, key, month_column, features=[n for n in names if n in columns])
     for binned, name in zip(edited.features, names):
         if name not in columns:
             raise InputError(f"column {name!r} (feature {binned.name!r} of {edited.file or 'the binning file'}) is "
@@ -91,6 +90,7 @@ def recount_table(engine: Engine, source: exp.Expression, table: str, edited: Bi
         if columns[name].kind not in wanted:
             raise InputError(f"column {name!r} (feature {binned.name!r}) is {columns[name].type_name}; a "
                              f"{binned.feature.type} feature needs {'a number' if wanted != (TEXT,) else 'text'}")
+    plan = plan_columns(columns, table, outcome, key, month_column, features=names)
     facts = check_rows(engine, source, plan, table)
     counted = count_bins(engine, source, edited.features, plan)
     if progress:

@@ -136,6 +136,7 @@ def test_command_writes_summarises_and_never_overwrites(tmp_path, capsys):
     binning = read_binning(out)
     assert (binning.rows, binning.months, binning.key) == (400, ("2025-01", "2025-04"), "application_id")
     assert "binned: table development on duckdb, 400 rows" in printed.out
+    assert "IV > 0.5: possible leakage" in printed.out  # score's IV is about 0.6 in this sample
     assert f"(fingerprint {binning.fingerprint})" in printed.out
     assert "Decision support, not an automatic decision" in printed.out
     assert all(len(line) <= 80 for line in printed.out.splitlines())
@@ -184,3 +185,15 @@ def test_recount_errors_name_file_and_line(tmp_path, capsys):
     error = capsys.readouterr().err.strip()
     assert error.startswith(f"{first}:{at + 1}:")
     assert "the lowest bin starts at -5, leaving lower values nowhere; set its lower edge to -.inf" in error
+
+
+def test_recount_names_a_feature_column_the_table_lacks(tmp_path, capsys):
+    db = database(tmp_path, good_frame())
+    first = tmp_path / "bins.yaml"
+    assert main(["bin", "--db", db, "--table", "development", "--outcome", "bad", "--key", "application_id",
+                 "--out", str(first)]) == 0
+    first.write_text(first.read_text().replace("  - name: score\n", "  - name: score\n    column: scores\n"))
+    capsys.readouterr()
+    assert main(["bin", "--recount", str(first), "--db", db, "--out", str(tmp_path / "new.yaml")]) == 2
+    assert capsys.readouterr().err.strip() == (f"error: column 'scores' (feature 'score' of {first}) is not in table "
+                                               "development; did you mean 'score'?")
