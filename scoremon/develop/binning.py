@@ -58,9 +58,14 @@ def bin_table(engine: Engine, source: exp.Expression, table: str, outcome: str, 
             coarse = numeric_bins(classes, facts.rows, facts.events, settings)
         else:
             coarse = categorical_groups(classes, facts.rows, facts.events, settings)
-        notes[classes.name] = coarse.notes
+        name = plan.feature_name(classes.name)
+        notes[name] = coarse.notes
         if coarse.binned is not None:
-            binned.append(coarse.binned)
+            found = coarse.binned
+            if name != classes.name:
+                found = BinnedFeature(found.feature.model_copy(update={"name": name, "column": classes.name}),
+                                      found.iv, found.counts)
+            binned.append(found)
     if not binned:
         raise InputError(f"table {table}: every characteristic is missing on every row; nothing to bin")
     binning = Binning(table=table, engine=engine.dialect, outcome=outcome, rows=facts.rows, events=facts.events,

@@ -36,6 +36,10 @@ class ColumnPlan:
     numeric: tuple[str, ...]
     categorical: tuple[str, ...]
     left_out: tuple[tuple[str, str], ...]  # (column, why) for columns not binned though not excluded
+    names: tuple[tuple[str, str], ...] = ()  # (column, feature name) where the two differ
+
+    def feature_name(self, column_name: str) -> str:
+        return dict(self.names).get(column_name, column_name)
 
     @property
     def features(self) -> tuple[str, ...]:
@@ -90,26 +94,44 @@ def plan_columns(columns: dict[str, Column], table: str, outcome: str, key: str 
         chosen = [name for name in dict.fromkeys(features) if name not in exclude]
     else:
         chosen = [name for name in columns if name not in roles and name not in exclude]
-    numeric, categorical, left_out = [], [], []
+    numeric, categorical, left_out, names = [], [], [], []
+    taken: set[str] = set()
     for name in chosen:
         column_kind = columns[name].kind
-        why = None
-        if len(name.encode("utf-8")) > MAX_NAME_BYTES:
-            why = f"name longer than {MAX_NAME_BYTES} bytes"
-        elif column_kind in NUMBER_KINDS:
-            numeric.append(name)
-        elif column_kind == TEXT:
-            categorical.append(name)
-        else:
+        why = _unusable_name(name)
+        if why is None and column_kind not in NUMBER_KINDS + (TEXT,):
             why = f"{columns[name].type_name} is neither a number nor text"
         if why is not None:
             if features is not None:
                 raise InputError(f"feature column {name!r} cannot be binned: {why}")
             left_out.append((name, why))
+            continue
+        (numeric if column_kind in NUMBER_KINDS else categorical).append(name)
+        # a spec compares feature names ignoring case, as SQL engines do: 'Age' after 'age' is named 'Age_2'
+        feature, number = name, 2
+        while feature.casefold() in taken:
+            feature, number = f"{name}_{number}", number + 1
+        taken.add(feature.casefold())
+        if feature != name:
+            names.append((name, feature))
     if not numeric and not categorical:
         raise InputError(f"table {table} has no column to bin besides the outcome, key and month; "
                          "check --features and --exclude")
-    return ColumnPlan(columns[outcome], key, month_column, tuple(numeric), tuple(categorical), tuple(left_out))
+    return ColumnPlan(columns[outcome], key, month_column, tuple(numeric), tuple(categorical), tuple(left_out),
+                      tuple(names))
+
+
+def _unusable_name(name: str) -> str | None:
+    """Why a column name cannot name a spec feature or column (the spec's own name rules), or None."""
+    if not name.strip():
+        return "its name is empty"
+    if name != name.strip():
+        return "its name starts or ends with a space"
+    if any(ord(ch) < 32 or ord(ch) == 127 for ch in name):
+        return "its name holds a control character"
+    if len(name.encode("utf-8")) > MAX_NAME_BYTES:
+        return f"its name is longer than {MAX_NAME_BYTES} bytes"
+    return None
 
 
 def event_expression(outcome: Column) -> exp.Expression:

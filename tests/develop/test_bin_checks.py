@@ -10,6 +10,8 @@ import pytest
 from scoremon import api
 from scoremon.cli import main
 from scoremon.develop.binning_file import Settings, read_binning
+from scoremon.develop.outcome import plan_columns
+from scoremon.engines.protocol import NUMERIC, Column
 from scoremon.engines import open_engine
 from scoremon.errors import InputError
 
@@ -197,3 +199,31 @@ def test_recount_names_a_feature_column_the_table_lacks(tmp_path, capsys):
     assert main(["bin", "--recount", str(first), "--db", db, "--out", str(tmp_path / "new.yaml")]) == 2
     assert capsys.readouterr().err.strip() == (f"error: column 'scores' (feature 'score' of {first}) is not in table "
                                                "development; did you mean 'score'?")
+
+
+def test_hostile_names_and_values_survive_bin_and_recount(tmp_path, capsys):
+    rng = np.random.default_rng(5)
+    frame = pd.DataFrame({'x"; DROP TABLE t; --': rng.normal(size=600), "Age": rng.normal(size=600),
+                          "trailing ": rng.normal(size=600),
+                          "kind": rng.choice(["a'b", 'c"d', "e: f", "other", "missing", ""], size=600),
+                          "bad": (rng.random(600) < 0.3).astype(int)})
+    db = database(tmp_path, frame)
+    first, second = tmp_path / "bins.yaml", tmp_path / "again.yaml"
+    assert main(["bin", "--db", db, "--table", "development", "--outcome", "bad", "--out", str(first),
+                 "--min-events", "5"]) == 0
+    printed = capsys.readouterr().out
+    assert "not binned: its name starts or ends" in printed
+    binning = read_binning(first)
+    kind = binning.feature("kind").feature
+    assert sorted(v for g in kind.groups for v in g.values) == ["", "a'b", 'c"d', "e: f", "missing", "other"]
+    assert {g.label for g in kind.groups} >= {"other (2)", "missing (2)", "''"}
+    assert main(["bin", "--recount", str(first), "--db", db, "--out", str(second)]) == 0
+    assert read_binning(second).features == binning.features
+
+
+def test_names_equal_but_for_case_get_their_own_feature_names():
+    # PostgreSQL and Spark keep quoted names apart by case; a spec compares names ignoring case
+    columns = {name: Column(name, NUMERIC, "DOUBLE") for name in ("age", "Age", "AGE_2", "bad")}
+    plan = plan_columns(columns, "development", "bad")
+    assert plan.numeric == ("age", "Age", "AGE_2")
+    assert [plan.feature_name(c) for c in plan.numeric] == ["age", "Age_2", "AGE_2_2"]
