@@ -141,44 +141,55 @@ def pass_query(design: Design, betas: Mapping[int, np.ndarray]) -> exp.Select:
         fitted.append(exp.alias_(_eta(np.asarray(beta, dtype=float)), f"eta_{m}", quoted=True))
     inner = exp.select(*fitted).from_(_subquery(design_query(design), "design"))
 
-    weighted = [column(FOLD), column(Y)] + [column(x_column(j)) for j in range(1, p)]
+    # mu, then w = mu(1 − mu), the residual mu − y and the loss per row, then w·x_i: each product
+    # made once per row, so that an aggregate is one multiplication (DuckDB does not share
+    # subexpressions between aggregates)
+    xs = [column(x_column(j)) for j in range(1, p)]
     one = number(1.0)
+    with_mu = [column(FOLD), column(Y)] + [x.copy() for x in xs]
     for m in betas:
         eta = column(f"eta_{m}")
         mu = exp.Div(this=one.copy(), expression=exp.paren(exp.Add(
             this=one.copy(), expression=exp.Exp(this=exp.Neg(this=exp.paren(_clamped(eta), copy=False)))), copy=False))
-        weighted.append(eta.copy())
-        weighted.append(exp.alias_(mu, f"mu_{m}", quoted=True))
-    middle = exp.select(*weighted).from_(_subquery(inner, "fitted"))
+        with_mu += [eta.copy(), exp.alias_(mu, f"mu_{m}", quoted=True)]
+    middle = exp.select(*with_mu).from_(_subquery(inner, "fitted"))
 
-    selected = [column(FOLD), exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True)]
+    weighted = [column(FOLD)] + [x.copy() for x in xs]
     for m in betas:
         eta, mu = column(f"eta_{m}"), column(f"mu_{m}")
-        residual = exp.paren(exp.Sub(this=mu.copy(), expression=column(Y)), copy=False)
-        w = exp.paren(exp.Mul(this=mu.copy(), expression=exp.paren(exp.Sub(this=one.copy(), expression=mu.copy()),
-                                                                      copy=False)), copy=False)
-        for j in range(p):
-            selected.append(_sum(residual.copy() if j == 0 else exp.Mul(this=residual.copy(), expression=_x(j)),
-                                 f"g_{m}_{j}"))
-        for i in range(p):
-            for j in range(i, p):
-                term = w.copy()
-                for k in (i, j):
-                    if k > 0:
-                        term = exp.Mul(this=term, expression=_x(k))
-                selected.append(_sum(term, f"h_{m}_{i}_{j}"))
+        w = exp.Mul(this=mu.copy(), expression=exp.paren(exp.Sub(this=one.copy(), expression=mu.copy()), copy=False))
         size = exp.Abs(this=eta.copy())
         softplus = exp.Add(
             this=case([(exp.GT(this=eta.copy(), expression=number(0.0)), eta.copy())], number(0.0)),
             expression=exp.Ln(this=exp.Add(this=one.copy(), expression=exp.Exp(this=exp.Neg(
                 this=case([(exp.GT(this=size.copy(), expression=number(ETA_CLAMP)), number(ETA_CLAMP))], size)))))
         )
-        loss = exp.Sub(this=softplus, expression=exp.Mul(this=column(Y), expression=eta.copy()))
-        selected.append(_sum(loss, f"loss_{m}"))
-        extreme = case([(exp.GT(this=exp.Abs(this=eta.copy()), expression=number(EXTREME_ETA)), number(1.0))],
-                       number(0.0))
-        selected.append(_sum(extreme, f"extreme_{m}"))
-    return exp.select(*selected).from_(_subquery(middle, "weighted")).group_by(column(FOLD))
+        weighted += [exp.alias_(w, f"w_{m}", quoted=True),
+                     exp.alias_(exp.Sub(this=mu.copy(), expression=column(Y)), f"r_{m}", quoted=True),
+                     exp.alias_(exp.Sub(this=softplus, expression=exp.Mul(this=column(Y), expression=eta.copy())),
+                                f"loss_{m}", quoted=True),
+                     exp.alias_(case([(exp.GT(this=size.copy(), expression=number(EXTREME_ETA)), number(1.0))],
+                                     number(0.0)), f"extreme_{m}", quoted=True)]
+    weighted_query = exp.select(*weighted).from_(_subquery(middle, "with_mu"))
+
+    products = [column(FOLD)] + [x.copy() for x in xs]
+    for m in betas:
+        products += [column(f"w_{m}"), column(f"r_{m}"), column(f"loss_{m}"), column(f"extreme_{m}")]
+        products += [exp.alias_(exp.Mul(this=column(f"w_{m}"), expression=_x(i)), f"wx_{m}_{i}", quoted=True)
+                     for i in range(1, p)]
+    products_query = exp.select(*products).from_(_subquery(weighted_query, "weighted"))
+
+    selected = [column(FOLD), exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True)]
+    for m in betas:
+        r = column(f"r_{m}")
+        selected += [_sum(r.copy() if j == 0 else exp.Mul(this=r.copy(), expression=_x(j)), f"g_{m}_{j}")
+                     for j in range(p)]
+        for i in range(p):
+            left = column(f"w_{m}") if i == 0 else column(f"wx_{m}_{i}")
+            selected += [_sum(left.copy() if j == 0 else exp.Mul(this=left.copy(), expression=_x(j)), f"h_{m}_{i}_{j}")
+                         for j in range(i, p)]
+        selected += [_sum(column(f"loss_{m}"), f"loss_{m}"), _sum(column(f"extreme_{m}"), f"extreme_{m}")]
+    return exp.select(*selected).from_(_subquery(products_query, "products")).group_by(column(FOLD))
 
 
 def aggregates_per_model(columns: int) -> int:
