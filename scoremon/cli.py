@@ -199,6 +199,8 @@ def _fit(args) -> int:
         raise InputError(f"--out {out}: folder {out.parent} does not exist; create it or choose another path")
     if out.exists() and not args.replace:
         raise InputError(f"--out {out} exists; give another file name, or --replace to replace it")
+    if args.json and not Path(args.json).parent.exists():
+        raise InputError(f"--json {args.json}: folder {Path(args.json).parent} does not exist")
     binning = api.read_binning(args.binning)
     alpha = api.penalty_alpha(args.penalty, args.alpha)
     settings = api.FitSettings(

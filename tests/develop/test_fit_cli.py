@@ -74,7 +74,7 @@ def test_an_existing_spec_is_never_replaced_unless_asked(development, tmp_path, 
 def test_lasso_with_cv_and_pd_grades(development, tmp_path, capsys):
     url, bins, _ = development
     out = tmp_path / "lasso.yaml"
-    code, printed = _fit(capsys, url, bins, out, "--penalty", "l1", "--lambdas", "8", "--one-se",
+    code, printed = _fit(capsys, url, bins, out, "--penalty", "l1", "--lambdas", "8", "--one-se", "--cv-metric", "auc",
                          "--grades", "pd:0.1,0.2,0.4", "--json", str(tmp_path / "fit.json"))
     assert code == 0, printed.err
     spec = load_spec(out)
@@ -82,6 +82,11 @@ def test_lasso_with_cv_and_pd_grades(development, tmp_path, capsys):
     assert spec.development.chosen_lambda == report["chosen_lambda"] > 0
     assert [g.name for g in sorted(spec.grades, key=lambda g: g.lower)] == ["D", "C", "B", "A"]
     assert len(report["path"]) == 8 and report["path"][0]["nonzero"] == 0
+    # AUC chooses: the chosen λ's mean held-out AUC is within one sd/√K of the best
+    chosen = next(step for step in report["path"] if step["lam"] == report["chosen_lambda"])
+    best = max(report["path"], key=lambda step: step["cv_mean"])
+    assert best["cv_mean"] - chosen["cv_mean"] <= best["cv_sd"] / np.sqrt(5) + 1e-12
+    assert 0.5 < chosen["cv_mean"] < 1.0
     # a PD band edge scores as offset − factor·logit(PD): 600 − 20/ln2·ln(50) − 20/ln2·ln(0.1/0.9)
     edges = sorted(g.lower for g in spec.grades)[1:]
     assert edges[-1] == pytest.approx(600 - 20 / np.log(2) * np.log(50) - 20 / np.log(2) * np.log(0.1 / 0.9), abs=1e-9)
