@@ -15,7 +15,7 @@ from scoremon.cli import main
 from scoremon.compiler import compile_model
 from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature
 
-EVERY_LINE = ["a", "b", "a+", "a-r", "a0", "c", "d", "d0", "d1", "f", "e"]
+EVERY_LINE = ["a", "b", "a+", "a-r", "a0", "c", "d", "d0", "d1", "f", "g", "e"]
 
 
 @pytest.fixture(scope="module")
@@ -44,7 +44,7 @@ def test_every_comparison_is_reported_with_both_sides_and_a_goal(report):
         if line.unit == "s":
             assert line.second_value > 0 and line.rounds == 2, line
     goals = {line.key: line.goal.text for line in report.lines if line.goal}
-    assert goals == {"a": "≤ 6", "b": "≤ 1", "c": "≥ 10", "d": "≤ 1.2", "e": "< 2", "f": "≤ 2"}
+    assert goals == {"a": "≤ 6", "b": "≤ 1", "c": "≥ 10", "d": "≤ 1.2", "e": "< 2", "f": "≤ 2", "g": "≤ 4"}
     assert all(isinstance(line.goal_met, bool) for line in report.lines if line.goal)
     memory = report.lines[-1]
     assert memory.unit == "GiB" and "3,000 rows" in memory.detail

@@ -13,6 +13,7 @@ Comparisons, each a ratio of two timings taken in turns in this one run (see
 (d1) the binning step alone ÷ copying the input to Parquet: the least scoring adds to (d0)
 (e) peak memory of a fresh process scoring ``memory_rows`` rows to Parquet      goal < 2 GiB
 (f) monitoring a scored book of 24 months, every family ÷ scoring those rows     goal ≤ 2
+(g) one Newton step of `scoremon fit` (one model) ÷ bare scan of its columns    goal ≤ 4
 
 (a)–(c) time an aggregate over the scored rows (rows, mean score and mean PD per grade), so
 the comparison is about scoring, not about moving rows to Python. DuckDB drops whatever an
@@ -37,7 +38,7 @@ from ..errors import InputError
 from ..sources import describe_source, float_columns
 from ..spec.model import Spec
 from ..trees import alias, case, column, integer, text
-from . import queries, workload
+from . import fitting, queries, workload
 from .memory import measure_peak_memory
 from .numpy_scorer import GradeSummary, score_with_numpy
 from .timing import PairTiming, time_pair
@@ -265,6 +266,15 @@ class _Bench:
         self.timed_line("f", "monitor 24 months, every family ÷ scoring", "monitor", monitor, "scoring", score,
                         Goal(2.0, at_most=True))
 
+    def compare_newton_step(self) -> None:
+        design = fitting.newton_design(self.spec, TABLE)
+        step = self.sql(fitting.newton_step(design))
+        bare = self.sql(queries.bare_scan(TABLE, *fitting.design_columns(design)))
+        run = self.engine.query
+        self.timed_line("g", "one Newton step of the fit ÷ bare scan",
+                        "Newton step", lambda: run(step, "one Newton step"),
+                        "bare scan", lambda: run(bare, "bare scan"), Goal(4.0, at_most=True))
+
     def measure_memory(self) -> None:
         rows = self.settings.memory_rows
         database = self.folder / "memory.duckdb"
@@ -330,7 +340,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
 
     >>> report = run_bench(BenchSettings(rows=2_000, repeat=1, skip_memory=True))
     >>> [line.key for line in report.lines]
-    ['a', 'b', 'a+', 'a-r', 'a0', 'c', 'd', 'd0', 'd1', 'f']
+    ['a', 'b', 'a+', 'a-r', 'a0', 'c', 'd', 'd0', 'd1', 'f', 'g']
     """
     _check_settings(settings)
     observer = observer or SilentObserver()
@@ -346,6 +356,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
             bench.compare_numpy()
             bench.compare_parquet()
             bench.compare_monitor()
+            bench.compare_newton_step()
             threads = bench.threads()
         finally:
             bench.engine.close()
