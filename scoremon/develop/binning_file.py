@@ -20,7 +20,7 @@ import json
 import math
 import os
 import uuid
-from dataclasses import dataclass, field, replace as copy_with
+from dataclasses import dataclass, field
 from importlib import metadata
 from pathlib import Path
 from typing import Any, Union
@@ -529,7 +529,3 @@ def _check_counts(feature, counts, path, places, header, source, problems) -> No
                                                                     f"({expected:.6f}); recount the file with "
                                                                     "scoremon bin --recount"))
 
-
-def copy_binning(binning: Binning, **changes) -> Binning:
-    """A copy of ``binning`` with some fields changed (dataclasses.replace)."""
-    return copy_with(binning, **changes)
