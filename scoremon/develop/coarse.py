@@ -165,6 +165,11 @@ def numeric_bins(fine: NumericClasses, total_rows: int, total_events: int, setti
     binned = with_counts(feature, counts, total_rows, total_events)
     if settings.trend == "auto" and len(bins) > 1:
         notes.append(f"WoE {partition.trend}")
+    routed = [f"{count[0]:,} {what} {where}" for count, what, where in (
+        (fine.nan, "NaN", "with missing"), (fine.positive_infinity, "+inf", "in the top bin"),
+        (fine.negative_infinity, "-inf", "in the bottom bin")) if count[0]]
+    if routed:
+        notes.append(", ".join(routed))
     return Coarse(binned, tuple(notes))
 
 

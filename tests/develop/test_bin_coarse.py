@@ -91,6 +91,7 @@ def test_special_values_join_the_outer_bins_and_the_missing_bin():
                     negative_infinity=(2, 0))
     coarse = numeric_bins(fine, 216, 47, Settings(min_share=0.0, min_events=0, trend="none"))
     assert [(c.rows, c.events) for c in coarse.binned.counts] == [(102, 10), (104, 34), (10, 3)]
+    assert coarse.notes == ("3 NaN with missing, 4 +inf in the top bin, 2 -inf in the bottom bin",)
     bins = coarse.binned.feature.bins
     assert (bins[0].lower, bins[0].upper, bins[1].lower, bins[1].upper) == (-math.inf, 5.0, 5.0, math.inf)
 
