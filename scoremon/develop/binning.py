@@ -112,9 +112,7 @@ def recount_table(engine: Engine, source: exp.Expression, table: str, edited: Bi
 def _small_bins(binned: BinnedFeature, binning: Binning) -> tuple[str, ...]:
     """Bins an edit left under the minimum share or events (missing and catch-all aside)."""
     settings = binning.settings
-    shown = binned.counts[:len(binned.feature.bins)] if binned.feature.type == "numeric" else \
-        binned.counts[:len(binned.feature.groups)]
-    small = [c.label for c in shown if c.rows < settings.min_share * binning.rows or c.events < settings.min_events]
+    small = [c.label for c in binned.inner_counts if c.rows < settings.min_share * binning.rows or c.events < settings.min_events]
     if not small:
         return ()
     return (f"under {settings.min_share:.0%} of rows or {settings.min_events} events: {', '.join(small)}",)

@@ -99,6 +99,12 @@ class BinnedFeature:
     def name(self) -> str:
         return self.feature.name
 
+    @property
+    def inner_counts(self) -> tuple[BinCount, ...]:
+        """The counts of the bins or groups alone (without the catch-all and missing bins)."""
+        inner = self.feature.bins if isinstance(self.feature, NumericFeature) else self.feature.groups
+        return self.counts[:len(inner)]
+
     def spec_feature(self, coefficient: float) -> BinnedSpecFeature:
         """The spec feature with its fitted ``coefficient`` (times each bin's WoE)."""
         return self.feature.model_copy(update={"coefficient": float(coefficient)})

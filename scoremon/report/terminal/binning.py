@@ -50,7 +50,7 @@ def print_bin_report(report, written: str) -> None:
     table.add_column("note", overflow="fold")
     for binned in sorted(b.features, key=lambda f: -f.iv):
         feature = binned.feature
-        bins = len(feature.bins) if feature.type == "numeric" else len(feature.groups)
+        bins = len(binned.inner_counts)
         notes = [n for n in (iv_warning(binned.iv),) if n] + list(report.notes.get(binned.name, ()))
         table.add_row(escape(_short(binned.name, NAME_WIDTH)), feature.type[:3], f"{binned.iv:.3f}", str(bins),
                       escape("; ".join(notes)))
