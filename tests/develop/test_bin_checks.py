@@ -227,3 +227,25 @@ def test_names_equal_but_for_case_get_their_own_feature_names():
     plan = plan_columns(columns, "development", "bad")
     assert plan.numeric == ("age", "Age", "AGE_2")
     assert [plan.feature_name(c) for c in plan.numeric] == ["age", "Age_2", "AGE_2_2"]
+
+
+def test_recount_flags_a_bin_an_edit_left_small(tmp_path):
+    db = database(tmp_path, good_frame())
+    first = tmp_path / "bins.yaml"
+    assert main(["bin", "--db", db, "--table", "development", "--outcome", "bad", "--key", "application_id",
+                 "--out", str(first)]) == 0
+    binning = read_binning(first)
+    upper = binning.feature("score").feature.bins[0].upper
+    lines = first.read_text().splitlines()
+    at = next(i for i, line in enumerate(lines) if "{lower: -.inf" in line)
+    lines[at:at + 1] = ["      - {lower: -.inf, upper: -2.5}", f"      - {{lower: -2.5, upper: {upper!r}}}"]
+    edited = read_binning_text_from(lines, tmp_path)
+    with open_engine(db) as engine:
+        report = api.recount_binning(engine, edited)
+    assert report.notes["score"] == ("under 5% of rows or 30 events: (-inf, -2.5]",)
+
+
+def read_binning_text_from(lines, folder):
+    path = folder / "edited.yaml"
+    path.write_text("\n".join(lines) + "\n")
+    return read_binning(path, counted=False)
