@@ -10,25 +10,25 @@ from dataclasses import dataclass
 
 @dataclass(frozen=True)
 class FitSettings:
-    """Every setting of one fit, as given or defaulted."""
+    """Every setting of one fit, as given or defaulted (the defaults are the command line's)."""
 
-    penalty: str                 # none, l2, l1, elastic
-    alpha: float                 # α of the penalty (0 for l2, 1 for l1)
-    folds: int
-    lambdas: int                 # number of λ on the path
-    lambda_ratio: float          # λ_min / λ_max
-    cv_metric: str               # deviance or auc
-    one_se: bool
-    min_iv: float
-    max_correlation: float
-    keep: tuple[str, ...]
-    drop: tuple[str, ...]
-    key: str | None
-    base_score: float
-    base_odds: float
-    pdo: float
-    rounding: str
-    grades: str
+    penalty: str = "none"        # none, l2, l1, elastic
+    alpha: float = 0.0           # α of the penalty (0 for l2, 1 for l1)
+    folds: int = 5
+    lambdas: int = 20            # number of λ on the path
+    lambda_ratio: float = 1e-3   # λ_min / λ_max
+    cv_metric: str = "deviance"  # deviance or auc
+    one_se: bool = False
+    min_iv: float = 0.02
+    max_correlation: float = 0.7
+    keep: tuple[str, ...] = ()
+    drop: tuple[str, ...] = ()
+    key: str | None = None
+    base_score: float = 600.0
+    base_odds: float = 50.0
+    pdo: float = 20.0
+    rounding: str = "none"
+    grades: str = "quantiles:10"
 
 
 @dataclass(frozen=True)
