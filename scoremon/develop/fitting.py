@@ -7,7 +7,6 @@ is made by :mod:`.spec_writer`.
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from typing import Sequence
 
@@ -51,7 +50,7 @@ def penalty_alpha(penalty: str, alpha: float | None) -> float:
             raise InputError(f"--alpha {value}: an elastic net needs α strictly between 0 (ridge) and 1 (lasso)")
         return value
     if alpha is not None:
-        raise InputError(f"--alpha is for --penalty elastic only (l2 is α = 0, l1 is α = 1)")
+        raise InputError("--alpha is for --penalty elastic only (l2 is α = 0, l1 is α = 1)")
     return PENALTIES[penalty] or 0.0
 
 

@@ -82,3 +82,22 @@ def test_fewer_than_two_events_in_a_fold_is_one_clear_line(tmp_path, capsys):
     assert code == 2
     assert "every fold needs at least 2 events and 2 non-events: use fewer folds (--folds)" in printed.err
     assert len(printed.err.strip().splitlines()) == 1
+
+
+def test_a_constant_characteristic_is_left_out_of_the_fit_with_its_reason(tmp_path, capsys):
+    rows = [r[:2] + (0.5,) + r[3:] for r in fitdata.table(rows=1500, seed=6)]  # utilisation constant
+    url, bins = _binned(tmp_path, rows, min_events=10)
+    code = main(["fit", str(bins), "--db", url, "--out", str(tmp_path / "c.yaml"), "--folds", "3", "--min-iv", "0"])
+    printed = capsys.readouterr()
+    assert code == 0, printed.err
+    assert "utilisation (one WoE value on every development row (constant))" in " ".join(printed.out.split())
+    assert "utilisation" not in [f.name for f in api.load_spec(tmp_path / "c.yaml").features]
+
+
+def test_alpha_belongs_to_the_elastic_net_only(tmp_path, capsys):
+    url, bins = _binned(tmp_path, fitdata.table(rows=600, seed=8), min_events=10)
+    code = main(["fit", str(bins), "--db", url, "--out", str(tmp_path / "a.yaml"), "--penalty", "l1", "--alpha", "0.3"])
+    assert code == 2 and "--alpha is for --penalty elastic only" in capsys.readouterr().err
+    code = main(["fit", str(bins), "--db", url, "--out", str(tmp_path / "a.yaml"), "--penalty", "elastic",
+                 "--alpha", "1"])
+    assert code == 2 and "strictly between 0 (ridge) and 1 (lasso)" in capsys.readouterr().err

@@ -138,3 +138,16 @@ def test_fold_of_reads_the_first_eight_hex_digits_of_md5():
     assert hashlib.md5(b"12345").hexdigest().startswith("827ccb0e")
     assert fold_of(12345, 7) == 0x827CCB0E % 7
     assert fold_of("A-17", 5) == int(hashlib.md5(b"A-17").hexdigest()[:8], 16) % 5
+
+
+def test_ridge_path_starts_at_the_lambda_max_of_alpha_0_001_and_is_optimal_everywhere():
+    # Friedman, Hastie & Tibshirani (2010) §2.5 (from memory): for α = 0 the path starts from the
+    # λ_max of α = 0.001; every fit on it has a zero gradient of the penalised objective
+    x, y = cancer()
+    passes = DensePasses(x, y, _folds(len(y), 3))
+    result = fit_path(passes, x.shape[1], 3, 0.0, count=5)
+    start = intercept_only(fold_counts(passes, x.shape[1], 3), x.shape[1], [3])[3]
+    assert result.lambda_max == pytest.approx(lambda_max(passes, start, 3, 1.0) / 1e-3, rel=1e-12)
+    for point in result.points:
+        assert kkt_violation(point.fit, Penalty(point.lam, 0.0)) < 1e-7
+    assert np.max(np.abs(result.points[0].fit.coefficients[1:])) < 0.01
