@@ -10,9 +10,7 @@ True
 from __future__ import annotations
 
 import math
-import os
 import time
-import uuid
 from dataclasses import dataclass, field
 from dataclasses import replace as replace_field
 from datetime import date
@@ -32,6 +30,7 @@ from .diff import DiffReport, Impact, ModelDiff, diff_models, impact_query, summ
 from .diff.impact import check_outcome_type
 from .engines import Engine, Progress, open_engine
 from .errors import InputError
+from .files import write_whole
 from .monitor import (
     DEFAULT_THRESHOLDS,
     Month,
@@ -194,14 +193,7 @@ def write_spec_with_baseline(spec_path: str | Path, baseline: Baseline, out_path
     written = parse_spec(text, file=str(out_path))
     if fingerprint(written) != fingerprint(parse_spec(original, file=str(spec_path))):
         raise RuntimeError("writing the baseline changed the model's fingerprint")  # a bug, never an input error
-    temporary = out_path.with_name(f".{out_path.name}.{uuid.uuid4().hex}.partial")
-    try:
-        temporary.write_text(text, encoding="utf-8")
-        os.replace(temporary, out_path)
-    finally:
-        if temporary.exists():
-            temporary.unlink()
-    return out_path
+    return write_whole(out_path, text)
 
 
 def monitor(

@@ -157,12 +157,18 @@ def _baseline(args) -> int:
     return EXIT_OK
 
 
-def _bin(args) -> int:
-    out = Path(args.out)
+def _new_output(path: str, replace: bool) -> Path:
+    """``--out``: its folder must exist, and an existing file is replaced only with ``--replace``."""
+    out = Path(path)
     if not out.parent.exists():
         raise InputError(f"--out {out}: folder {out.parent} does not exist; create it or choose another path")
-    if out.exists() and not args.replace:
+    if out.exists() and not replace:
         raise InputError(f"--out {out} exists; give another file name, or --replace to replace it")
+    return out
+
+
+def _bin(args) -> int:
+    out = _new_output(args.out, args.replace)
     edited = None
     if args.recount:
         edited = api.read_binning(args.recount, counted=False)
@@ -194,11 +200,7 @@ def _bin(args) -> int:
 
 
 def _fit(args) -> int:
-    out = Path(args.out)
-    if not out.parent.exists():
-        raise InputError(f"--out {out}: folder {out.parent} does not exist; create it or choose another path")
-    if out.exists() and not args.replace:
-        raise InputError(f"--out {out} exists; give another file name, or --replace to replace it")
+    out = _new_output(args.out, args.replace)
     if args.json and not Path(args.json).parent.exists():
         raise InputError(f"--json {args.json}: folder {Path(args.json).parent} does not exist")
     binning = api.read_binning(args.binning)

@@ -137,7 +137,7 @@ def fit_binning(engine: Engine, source: exp.Expression, table: str, binning: Bin
         intercept_unpenalised=float(plain.coefficients[0]) if inference else None,
         intercept_standard_error=float(errors[0]) if errors is not None else None,
         characteristics=tuple(rows),
-        left_out=tuple(Left(e.name, e.reason) for e in chosen.excluded) + tuple(
+        left_out=chosen.left_out + tuple(
             Left(r.name, "coefficient 0 at the chosen λ") for r in rows if r.coefficient == 0.0),
         lambda_max=path.lambda_max if settings.penalty != "none" else None,
         chosen_lambda=chosen_point.lam, best_lambda=path.points[path.best].lam,

@@ -23,15 +23,10 @@ from typing import Sequence
 import numpy as np
 
 from ..errors import InputError
+from .records import Left
 
 MIN_IV = 0.02
 MAX_CORRELATION = 0.7
-
-
-@dataclass(frozen=True)
-class Excluded:
-    name: str
-    reason: str
 
 
 @dataclass(frozen=True)
@@ -39,7 +34,7 @@ class Selection:
     """The characteristics chosen (in the binning file's order) and those left out, with why."""
 
     chosen: tuple[str, ...]
-    excluded: tuple[Excluded, ...]
+    left_out: tuple[Left, ...]
     warnings: tuple[str, ...] = ()
 
 
@@ -63,19 +58,19 @@ def select(names: Sequence[str], ivs: Sequence[float], correlation: np.ndarray, 
         raise InputError(f"{both[0]!r} is in both --keep and --drop; give it in one of them")
     if not 0.0 < max_correlation <= 1.0:
         raise InputError(f"--max-correlation {max_correlation}: give a number in (0, 1]")
-    excluded: list[Excluded] = []
+    left_out: list[Left] = []
     warnings: list[str] = []
     candidates = []
     for i, name in enumerate(names):
         if name in drop:
-            excluded.append(Excluded(name, "dropped by --drop"))
+            left_out.append(Left(name, "dropped by --drop"))
         elif constant[i]:
             if name in keep:
                 raise InputError(f"--keep {name!r}: its WoE is the same on every development row, so it cannot be "
                                  "fitted; re-bin it so its bins differ, or leave it out")
-            excluded.append(Excluded(name, "one WoE value on every development row (constant)"))
+            left_out.append(Left(name, "one WoE value on every development row (constant)"))
         elif ivs[i] < min_iv and name not in keep:
-            excluded.append(Excluded(name, f"IV {ivs[i]:.4f} below the minimum {min_iv:g}"))
+            left_out.append(Left(name, f"IV {ivs[i]:.4f} below the minimum {min_iv:g}"))
         else:
             candidates.append(i)
     candidates.sort(key=lambda i: (names[i] not in keep, -ivs[i], i))
@@ -88,7 +83,7 @@ def select(names: Sequence[str], ivs: Sequence[float], correlation: np.ndarray, 
                                 f"with {names[worst]}")
             else:
                 why = "kept by --keep" if names[worst] in keep else "higher IV"
-                excluded.append(Excluded(names[i], f"WoE correlation {correlation[i, worst]:+.2f} with "
+                left_out.append(Left(names[i], f"WoE correlation {correlation[i, worst]:+.2f} with "
                                                    f"{names[worst]} ({why}) beyond {max_correlation:g}"))
                 continue
         taken.append(i)
@@ -96,7 +91,7 @@ def select(names: Sequence[str], ivs: Sequence[float], correlation: np.ndarray, 
         raise InputError("no characteristic is left to fit: lower --min-iv, raise --max-correlation or --keep one")
     order = {name: k for k, name in enumerate(names)}
     return Selection(tuple(sorted((names[i] for i in taken), key=order.get)),
-                     tuple(sorted(excluded, key=lambda e: order[e.name])), tuple(warnings))
+                     tuple(sorted(left_out, key=lambda e: order[e.name])), tuple(warnings))
 
 
 def variance_inflation(correlation: np.ndarray) -> np.ndarray:

@@ -17,8 +17,6 @@ existing file unless ``replace`` is given.
 from __future__ import annotations
 
 import math
-import os
-import uuid
 from dataclasses import asdict, dataclass
 from datetime import date, datetime, timezone
 from pathlib import Path
@@ -27,6 +25,7 @@ from typing import Sequence
 import yaml
 
 from ..errors import InputError
+from ..files import write_whole
 from ..monitor.baseline import baseline_yaml
 from ..spec import parse_spec
 from ..spec.canonical import canonical_form
@@ -190,11 +189,4 @@ def write_spec(spec: Spec, path: str | Path, replace: bool = False, binning_file
     again = parse_spec(text, file=str(path))
     if canonical_form(again) != canonical_form(spec) or again.development != spec.development:
         raise RuntimeError("the written spec does not load to the fitted model")  # a bug, never an input error
-    temporary = path.with_name(f".{path.name}.{uuid.uuid4().hex}.partial")
-    try:
-        temporary.write_text(text, encoding="utf-8")
-        os.replace(temporary, path)
-    finally:
-        if temporary.exists():
-            temporary.unlink()
-    return path
+    return write_whole(path, text)

@@ -19,7 +19,7 @@ CORRELATION = np.array([[1.0, 0.9, 0.1, 0.0], [0.9, 1.0, 0.2, 0.0], [0.1, 0.2, 1
 def test_rules_in_order_min_iv_then_correlation_by_iv():
     chosen = select(NAMES, [0.3, 0.4, 0.01, 0.2], CORRELATION, [False] * 4)
     assert chosen.chosen == ("b", "d")
-    assert [(e.name, e.reason) for e in chosen.excluded] == [
+    assert [(e.name, e.reason) for e in chosen.left_out] == [
         ("a", "WoE correlation +0.90 with b (higher IV) beyond 0.7"),
         ("c", "IV 0.0100 below the minimum 0.02")]
 
@@ -27,7 +27,7 @@ def test_rules_in_order_min_iv_then_correlation_by_iv():
 def test_keep_and_drop_override_the_rules_and_typos_are_named():
     chosen = select(NAMES, [0.3, 0.4, 0.01, 0.2], CORRELATION, [False] * 4, keep=["a", "c"], drop=["d"])
     assert chosen.chosen == ("a", "c")
-    assert [(e.name, e.reason) for e in chosen.excluded] == [
+    assert [(e.name, e.reason) for e in chosen.left_out] == [
         ("b", "WoE correlation +0.90 with a (kept by --keep) beyond 0.7"), ("d", "dropped by --drop")]
     both = select(NAMES, [0.3, 0.4, 0.01, 0.2], CORRELATION, [False] * 4, keep=["a", "b"])
     assert both.chosen == ("a", "b", "d")
@@ -38,7 +38,7 @@ def test_keep_and_drop_override_the_rules_and_typos_are_named():
 
 def test_a_constant_characteristic_is_left_out_and_cannot_be_kept():
     chosen = select(NAMES, [0.3, 0.4, 0.0, 0.2], CORRELATION, [False, False, True, False], max_correlation=0.95)
-    assert ("c", "one WoE value on every development row (constant)") in [(e.name, e.reason) for e in chosen.excluded]
+    assert ("c", "one WoE value on every development row (constant)") in [(e.name, e.reason) for e in chosen.left_out]
     with pytest.raises(InputError, match="--keep 'c': its WoE is the same on every development row"):
         select(NAMES, [0.3, 0.4, 0.0, 0.2], CORRELATION, [False, False, True, False], keep=["c"])
 
