@@ -7,8 +7,9 @@ and checked in whole numbers, so DuckDB, PostgreSQL and Spark return the same ed
 
 1. :func:`candidate_query` asks the engine's own discrete percentile for every rank t_k at once,
    at p = (t_k − ½)/n, so that no engine's rounding of p·n moves it to the next rank;
-2. :func:`position_query` counts the rows below and at each candidate (one CASE and a GROUP BY),
-   and a candidate is edge k only if (rows below it)·Q < k·n ≤ (rows up to it)·Q.
+2. :func:`position_query` counts the rows below and at each candidate (a CASE per column and
+   GROUPING SETS, one pass for every column), and a candidate is edge k only if
+   (rows below it)·Q < k·n ≤ (rows up to it)·Q.
 
 Where a check fails (an engine's percentile is approximate, e.g. Spark's), the exact running-sum
 query :func:`quantile_query` finds every edge: the histogram of distinct values (cast to DOUBLE),
@@ -21,7 +22,7 @@ every class (e_{k−1}, e_k] holds at least one row (``closed: upper``).
 
 NULL, NaN, +inf and −inf are classes of their own, counted for every numeric characteristic in
 one pass (:func:`special_query`). A **categorical** characteristic gets its rows and events per
-value, NULL apart (:func:`category_query`).
+value, NULL apart, every text column in one pass (:func:`category_query`).
 """
 from __future__ import annotations
 
@@ -161,11 +162,18 @@ def special_query(source: exp.Expression, names: Sequence[str], event: exp.Expre
                       *[exp.alias_(s, f"c{i}", quoted=True) for i, s in enumerate(selected)]).from_(source.copy())
 
 
-def category_query(source: exp.Expression, name: str, event: exp.Expression) -> exp.Select:
-    """Per value of column ``name`` (NULL included): value, rows, events."""
-    return (exp.select(exp.alias_(column(name), "value", quoted=True), exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True),
+def category_query(source: exp.Expression, names: Sequence[str], event: exp.Expression) -> exp.Select:
+    """Per value of each text column (NULL included), in one grouped pass: ``v_i`` the value and
+    ``g_i`` = GROUPING(column i) (0 in the rows of column i's own set, which tells its NULL value
+    apart from the NULLs of the other sets), ``rows``, ``events``."""
+    selected = []
+    for i, name in enumerate(names):
+        selected += [exp.alias_(column(name), f"v_{i}", quoted=True),
+                     exp.alias_(exp.Grouping(expressions=[column(name)]), f"g_{i}", quoted=True)]
+    sets = [exp.Tuple(expressions=[column(name)]) for name in names]
+    return (exp.select(*selected, exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True),
                        exp.alias_(_sum(event.copy()), "events", quoted=True))
-            .from_(source.copy()).group_by(column(name)))
+            .from_(source.copy()).group_by(exp.GroupingSets(expressions=sets)))
 
 
 def candidate_query(source: exp.Expression, names: Sequence[str], probabilities: Sequence[Sequence[float]]) -> exp.Select:
@@ -186,9 +194,9 @@ def candidate_query(source: exp.Expression, names: Sequence[str], probabilities:
     return exp.select(*selected).from_(source.copy())
 
 
-def position_query(source: exp.Expression, name: str, candidates: Sequence[float], event: exp.Expression) -> exp.Select:
-    """Rows and events of the finite values per position among the sorted ``candidates``
-    c_0 < c_1 < …: position 2j holds c_{j−1} < x < c_j, position 2j + 1 holds x = c_j."""
+def position(name: str, candidates: Sequence[float]) -> exp.Expression:
+    """A finite value's place among the sorted ``candidates`` c_0 < c_1 < …: 2j for
+    c_{j−1} < x < c_j, 2j + 1 for x = c_j, 2m above them all; −1 for NULL, NaN and ±inf."""
     value = _double(column(name))
 
     def tests(first: int, end: int) -> list[tuple[exp.Expression, exp.Expression]]:
@@ -202,13 +210,24 @@ def position_query(source: exp.Expression, name: str, candidates: Sequence[float
     # comparisons instead of up to 2·m (DuckDB evaluates a CASE branch by branch)
     size = max(1, math.isqrt(len(candidates)))
     runs = [(first, min(first + size, len(candidates))) for first in range(0, len(candidates), size)]
-    position = case([(exp.LTE(this=value.copy(), expression=number(candidates[end - 1])), case(tests(first, end)))
-                     for first, end in runs], integer(2 * len(candidates)))
-    inner = (exp.select(exp.alias_(position, "position", quoted=True), exp.alias_(event.copy(), "event", quoted=True))
-             .from_(source.copy()).where(finite(column(name))))
-    return (exp.select(column("position"), exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True),
+    placed = case([(exp.LTE(this=value.copy(), expression=number(candidates[end - 1])), case(tests(first, end)))
+                   for first, end in runs], integer(2 * len(candidates)))
+    return case([(finite(column(name)), placed)], exp.Neg(this=integer(1)))
+
+
+def position_query(source: exp.Expression, columns: Sequence[tuple[str, Sequence[float]]],
+                   event: exp.Expression) -> exp.Select:
+    """Rows and events per :func:`position` of each numeric column among its candidates, in one
+    grouped pass: result columns ``p_0, p_1, …`` (exactly one set per result row; a position is
+    never NULL, so the others being NULL says which), ``rows``, ``events``."""
+    places = [exp.alias_(position(name, candidates), f"p_{i}", quoted=True)
+              for i, (name, candidates) in enumerate(columns)]
+    inner = exp.select(*places, exp.alias_(event.copy(), "event", quoted=True)).from_(source.copy())
+    sets = [exp.Tuple(expressions=[column(f"p_{i}")]) for i in range(len(columns))]
+    return (exp.select(*[column(f"p_{i}") for i in range(len(columns))],
+                       exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True),
                        exp.alias_(_sum(column("event")), "events", quoted=True))
-            .from_(_subquery(inner, "positioned")).group_by(column("position")))
+            .from_(_subquery(inner, "positioned")).group_by(exp.GroupingSets(expressions=sets)))
 
 
 def _classes(name: str, found: Sequence[tuple[float, int, int]], total: Count, special: dict[str, Count],
@@ -252,17 +271,39 @@ def checked_classes(engine: Engine, source: exp.Expression, name: str, event: ex
     (then :func:`numeric_classes` finds the edges)."""
     if finite_rows == 0:
         return _classes(name, [], (0, 0), special, None, None)
-    values = sorted(set(float(c) for c in candidates if c is not None))
-    rows = engine.query(position_query(source, name, values, event), f"checking the quantiles of {name!r}")
-    counts = {int(r["position"]): (int(r["rows"]), int(r["events"] or 0)) for r in rows}
+    values = _candidates(candidates)
+    counts = count_positions(engine, source, [(name, values)], event)[0]
+    return _checked(name, classes, special, finite_rows, values, counts, minimum, maximum)
+
+
+def _candidates(candidates: Sequence[float | None]) -> list[float]:
+    return sorted(set(float(c) for c in candidates if c is not None))
+
+
+def count_positions(engine: Engine, source: exp.Expression, columns: Sequence[tuple[str, Sequence[float]]],
+                    event: exp.Expression) -> list[dict[int, Count]]:
+    """Per column: position → (rows, events) of its finite values (:func:`position_query`)."""
+    counts: list[dict[int, Count]] = [{} for _ in columns]
+    for row in engine.query(position_query(source, columns, event), "checking the quantiles"):
+        for i in range(len(columns)):
+            place = row[f"p_{i}"]
+            if place is not None:
+                if place >= 0:
+                    counts[i][int(place)] = (int(row["rows"]), int(row["events"] or 0))
+                break
+    return counts
+
+
+def _checked(name: str, classes: int, special: dict[str, Count], finite_rows: int, values: Sequence[float],
+             counts: dict[int, Count], minimum, maximum) -> NumericClasses | None:
     below, upto = [], []  # per candidate: rows below it; (rows, events) up to and including it
     running = (0, 0)
-    for position in range(2 * len(values) + 1):
-        rows_here, events_here = counts.get(position, (0, 0))
+    for place in range(2 * len(values) + 1):
+        rows_here, events_here = counts.get(place, (0, 0))
         running = (running[0] + rows_here, running[1] + events_here)
-        if position % 2 == 0 and position < 2 * len(values):
+        if place % 2 == 0 and place < 2 * len(values):
             below.append(running[0])
-        elif position % 2 == 1:
+        elif place % 2 == 1:
             upto.append(running)
     if running[0] != finite_rows:
         return None
@@ -291,32 +332,36 @@ def count_special(engine: Engine, source: exp.Expression, names: Sequence[str],
     return int(row["rows"]), result
 
 
-def categorical_classes(engine: Engine, source: exp.Expression, name: str, event: exp.Expression) -> CategoricalClasses:
-    """The rows and events of every value of text column ``name``."""
-    rows = engine.query(category_query(source, name, event), f"counting the values of {name!r}")
-    missing = (0, 0)
-    values = []
-    for row in rows:
-        value, count, events = row["value"], row["rows"], row["events"]
+def categorical_classes(engine: Engine, source: exp.Expression, names: Sequence[str],
+                        event: exp.Expression) -> list[CategoricalClasses]:
+    """The rows and events of every value of each text column in ``names``."""
+    values: list[list[tuple[str, int, int]]] = [[] for _ in names]
+    missing: list[Count] = [(0, 0) for _ in names]
+    for row in engine.query(category_query(source, names, event), "counting the values of text columns"):
+        i = next(i for i in range(len(names)) if row[f"g_{i}"] == 0)
+        value, count, events = row[f"v_{i}"], int(row["rows"]), int(row["events"] or 0)
         if value is None:
-            missing = (int(count), int(events))
+            missing[i] = (count, events)
         else:
-            values.append((str(value), int(count), int(events)))
-    return CategoricalClasses(name, tuple(sorted(values)), missing)
+            values[i].append((str(value), count, events))
+    return [CategoricalClasses(name, tuple(sorted(v)), m) for name, v, m in zip(names, values, missing)]
 
 
 def fine_classes(engine: Engine, source: exp.Expression, numeric: Sequence[str], categorical: Sequence[str],
                  event: exp.Expression, classes: int,
                  progress: Callable[[float], None] | None = None) -> list[NumericClasses | CategoricalClasses]:
-    """The fine classes of every characteristic, numeric first; ``progress`` gets the share done."""
-    steps = len(numeric) + len(categorical) + 2
-    done = 0
+    """The fine classes of every characteristic, numeric first; ``progress`` gets the share done.
+
+    Four grouped passes whatever the number of characteristics (special values, percentile
+    candidates, the check of every candidate, the text values), plus the running-sum query for
+    each numeric characteristic whose candidates fail the check."""
+    done, steps = 0, 4
 
     def step() -> None:
         nonlocal done
         done += 1
         if progress:
-            progress(done / steps)
+            progress(min(done / steps, 1.0))
 
     result: list[NumericClasses | CategoricalClasses] = []
     if numeric:
@@ -327,15 +372,24 @@ def fine_classes(engine: Engine, source: exp.Expression, numeric: Sequence[str],
         probabilities = [[(-(-k * finite_rows[name] // classes) - 0.5) / finite_rows[name] if finite_rows[name]
                           else 0.5 for k in range(1, classes)] for name in numeric]
         step()
-        candidates = engine.query(candidate_query(source, numeric, probabilities), "finding candidate quantiles")[0]
+        row = engine.query(candidate_query(source, numeric, probabilities), "finding candidate quantiles")[0]
+        step()
+        candidates = {name: _candidates(row[f"q_{i}"] or []) for i, name in enumerate(numeric)}
+        checked = [name for name in numeric if finite_rows[name] and candidates[name]]
+        counts = dict(zip(checked, count_positions(engine, source, [(n, candidates[n]) for n in checked], event)
+                          if checked else []))
         step()
         for i, name in enumerate(numeric):
-            found = checked_classes(engine, source, name, event, classes, special[name], finite_rows[name],
-                                    list(candidates[f"q_{i}"] or []), candidates[f"min_{i}"],
-                                    candidates[f"max_{i}"])
-            result.append(found or numeric_classes(engine, source, name, event, classes, special[name]))
-            step()
-    for name in categorical:
-        result.append(categorical_classes(engine, source, name, event))
-        step()
+            found = _classes(name, [], (0, 0), special[name], None, None) if not finite_rows[name] else None
+            if name in counts:
+                found = _checked(name, classes, special[name], finite_rows[name], candidates[name], counts[name],
+                                 row[f"min_{i}"], row[f"max_{i}"])
+            if found is None:
+                steps += 1
+                found = numeric_classes(engine, source, name, event, classes, special[name])
+                step()
+            result.append(found)
+    if categorical:
+        result += categorical_classes(engine, source, categorical, event)
+    step()
     return result
