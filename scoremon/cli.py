@@ -1,279 +1,43 @@
-"""The command line: arguments, calls into :mod:`scoremon.api`, printing, exit codes.
+"""The command line: arguments, exit codes, one line per problem.
 
 Exit codes: 0 success; 1 the run found what it looks for (an alert, a difference);
-2 invalid input (a spec, a table, a column, an option), with one line per problem.
+2 invalid input (a spec, a table, a column, an option), with one line per problem;
+3 an internal error (a bug in scoremon: one line, the full trace written to a file);
+130 interrupted (Ctrl-C), nothing written.
+
+What each command does lives in :mod:`scoremon.commands`, imported once the arguments are read:
+``scoremon --help`` and ``scoremon --version`` start without loading it (nor pydantic, rich or any
+engine driver).
 """
 from __future__ import annotations
 
 import argparse
 import sys
-from datetime import datetime, timezone
-from pathlib import Path
+import tempfile
+import traceback
 
-from . import api
-from .bench import BenchSettings, run_bench
-from .bench.engines import EngineBenchSettings, run_engine_bench
+from . import __version__
 from .dialects import DIALECTS, dialects_help
 from .engines import ENGINE_URLS
-from .errors import InputError, ScoremonError, SpecError
-from .report import terminal
-from .report.json import to_json
-from .report.markdown import diff_markdown
-from .report.terminal import bench as bench_view
-from .report.terminal import binning as binning_view
-from .report.terminal import fit as fit_view
-from .report.terminal import diff as diff_view
-from .report.terminal import monitor as monitor_view
-from .report.terminal import score as score_view
-from .spec import fingerprint
-from .spec.schema import schema_text
+from .develop.settings import TRENDS, Settings as BinSettings
+from .errors import InputError, ScoremonError, SpecError, cut
 
-EXIT_OK, EXIT_FOUND, EXIT_INVALID = 0, 1, 2
-
-
-def _check(args) -> int:
-    spec = api.load_spec(args.spec)
-    terminal.print_check_ok(args.spec, spec, fingerprint(spec))
-    return EXIT_OK
-
-
-def _compile(args) -> int:
-    spec = api.load_spec(args.spec)
-    sql = api.compile_sql(spec, args.dialect, args.table, args.key or ())
-    if args.out:
-        Path(args.out).write_text(sql + ";\n", encoding="utf-8")
-        terminal.print_text(f"wrote {args.out}")
-    else:
-        terminal.print_text(sql + ";")
-    return EXIT_OK
-
-
-def _score(args) -> int:
-    spec = api.load_spec(args.spec)
-    if (args.out_table is None) == (args.out is None):
-        raise InputError("give --out-table NAME (a table in --db) or --out FILE.parquet, one of the two")
-    engine = api.open_engine(args.db, threads=args.threads)
-    try:
-        source = api.source_relation(table=args.table, file=args.input)
-        with terminal.progress_bar("scoring") as progress:
-            result = api.score(spec, engine, source, args.key or (), args.out_table, args.out, progress)
-    finally:
-        engine.close()
-    score_view.print_score_result(result)
-    terminal.print_cautions()
-    return EXIT_OK
-
-
-def _schema(args) -> int:
-    if args.out:
-        Path(args.out).write_text(schema_text(), encoding="utf-8")
-        terminal.print_text(f"wrote {args.out}")
-    else:
-        terminal.print_text(schema_text())
-    return EXIT_OK
-
-
-def _load_both(old_path: str, new_path: str):
-    """Both specs, or one SpecError listing the problems of both files."""
-    specs, problems = [], []
-    for path in (old_path, new_path):
-        try:
-            specs.append(api.load_spec(path))
-        except SpecError as error:
-            problems += error.problems
-    if problems:
-        raise SpecError(problems)
-    return specs
-
-
-def _writable(path: str | None) -> Path | None:
-    if path is None:
-        return None
-    target = Path(path)
-    if not target.parent.exists():
-        raise InputError(f"{target}: folder {target.parent} does not exist; create it or choose another path")
-    return target
-
-
-def _diff(args) -> int:
-    population = args.table is not None or args.input is not None
-    if not population:
-        given = [name for name, value in (("--db", args.db), ("--outcome", args.outcome), ("--cutoff", args.cutoff),
-                                          ("--new-cutoff", args.new_cutoff)) if value is not None]
-        if given:
-            raise InputError(f"{', '.join(given)} describe the population; also give --table (with --db) or --input")
-    if args.table is not None and args.db is None:
-        raise InputError("--table names a table in a database; give the database with --db (or use --input FILE)")
-    json_file, markdown_file = _writable(args.json), _writable(args.markdown)
-    old, new = _load_both(args.old, args.new)
-    diff = api.diff_models(old, new, args.old, args.new)
-    impact = None
-    if population:
-        engine = api.open_engine(args.db)
-        try:
-            source = api.source_relation(table=args.table, file=args.input)
-            where = f"table {args.table} in {args.db}" if args.table is not None else f"file {args.input}"
-            with terminal.progress_bar("scoring both versions") as progress:
-                impact = api.measure_impact(old, new, engine, source, where, args.outcome, args.cutoff,
-                                            args.new_cutoff, progress)
-        finally:
-            engine.close()
-    report = api.DiffReport(diff, impact, datetime.now(timezone.utc).isoformat(timespec="seconds"))
-    diff_view.print_diff(report)
-    for target, text in ((json_file, lambda: to_json(report)), (markdown_file, lambda: diff_markdown(report))):
-        if target is not None:
-            target.write_text(text() + "\n", encoding="utf-8")
-            terminal.print_text(f"wrote {target}")
-    return EXIT_OK if diff.is_equivalent else EXIT_FOUND
-
-
-def _bench(args) -> int:
-    if args.engines is not None:
-        engine_settings = EngineBenchSettings(tuple(args.engines), args.engine_rows, args.repeat, args.threads)
-        report = run_engine_bench(engine_settings, bench_view.TerminalObserver())
-        bench_view.print_bench_report(report)
-        return EXIT_OK
-    settings = BenchSettings(rows=args.rows, repeat=args.repeat, threads=args.threads, memory_rows=args.memory_rows,
-                             skip_memory=args.skip_memory, memory_limit=args.memory_limit, folder=args.folder)
-    report = run_bench(settings, bench_view.TerminalObserver())
-    bench_view.print_bench_report(report)
-    return EXIT_FOUND if any(line.goal_met is False for line in report.lines) else EXIT_OK
-
-
-def _baseline(args) -> int:
-    spec = api.load_spec(args.spec)
-    out = Path(args.out)
-    if out.exists() and out.resolve() == Path(args.spec).resolve():
-        raise InputError(f"--out {out} is the spec itself; a spec is never overwritten in place, give a new file name")
-    engine = api.open_engine(args.db)
-    try:
-        source = api.source_relation(table=args.table)
-        baseline = api.measure_development(spec, engine, source, args.outcome, args.month_column,
-                                           computed_from=f"table {args.table}")
-    finally:
-        engine.close()
-    written = api.write_spec_with_baseline(args.spec, baseline, out)
-    monitor_view.print_baseline_written(str(written), baseline, fingerprint(spec))
-    return EXIT_OK
-
-
-def _new_output(path: str, replace: bool) -> Path:
-    """``--out``: its folder must exist, and an existing file is replaced only with ``--replace``."""
-    out = Path(path)
-    if not out.parent.exists():
-        raise InputError(f"--out {out}: folder {out.parent} does not exist; create it or choose another path")
-    if out.exists() and not replace:
-        raise InputError(f"--out {out} exists; give another file name, or --replace to replace it")
-    return out
-
-
-def _bin(args) -> int:
-    out = _new_output(args.out, args.replace)
-    edited = None
-    if args.recount:
-        edited = api.read_binning(args.recount, counted=False)
-        given = [name for name, value in (("--features", args.features), ("--exclude", args.exclude))
-                 if value]
-        if given:
-            raise InputError(f"{', '.join(given)}: a recount counts the features of {args.recount} as written; "
-                             "remove them from the file instead")
-    else:
-        missing = [name for name, value in (("--table", args.table), ("--outcome", args.outcome)) if value is None]
-        if missing:
-            raise InputError(f"give {' and '.join(missing)} (or --recount FILE to recount a binning file)")
-        settings = api.Settings(fine_classes=args.fine_classes, min_share=args.min_share, min_events=args.min_events,
-                                trend=args.trend, max_bins=args.max_bins)
-    engine = api.open_engine(args.db)
-    try:
-        with terminal.progress_bar("recounting" if edited else "binning") as progress:
-            if edited is not None:
-                report = api.recount_binning(engine, edited, args.table, args.outcome, args.key, args.month_column,
-                                             progress)
-            else:
-                report = api.bin_development(engine, args.table, args.outcome, args.key, args.month_column,
-                                             args.features, args.exclude or (), settings, progress)
-    finally:
-        engine.close()
-    written = api.write_binning(report.binning, out, replace=args.replace)
-    binning_view.print_bin_report(report, str(written))
-    return EXIT_OK
-
-
-def _fit(args) -> int:
-    out = _new_output(args.out, args.replace)
-    if args.json and not Path(args.json).parent.exists():
-        raise InputError(f"--json {args.json}: folder {Path(args.json).parent} does not exist")
-    binning = api.read_binning(args.binning)
-    alpha = api.penalty_alpha(args.penalty, args.alpha)
-    settings = api.FitSettings(
-        penalty=args.penalty, alpha=alpha, folds=args.folds, lambdas=args.lambdas, lambda_ratio=args.lambda_ratio,
-        cv_metric=args.cv_metric, one_se=args.one_se, min_iv=args.min_iv, max_correlation=args.max_correlation,
-        keep=tuple(args.keep or ()), drop=tuple(args.drop or ()), key=args.key if args.key else binning.key,
-        base_score=args.base_score, base_odds=args.base_odds, pdo=args.pdo, rounding=args.rounding,
-        grades=args.grades)
-    naming = api.Naming(name=args.name or (args.table or binning.table), version=args.model_version,
-                        owner=args.owner, event=args.event or "",
-                        performance_window_months=args.performance_window)
-    engine = api.open_engine(args.db)
-    try:
-        report = api.fit_development(engine, binning, settings, naming, out, args.table, args.outcome,
-                                     args.month_column, args.replace)
-    finally:
-        engine.close()
-    if args.json:
-        Path(args.json).write_text(to_json(report) + "\n", encoding="utf-8")
-    fit_view.print_fit_report(report)
-    return EXIT_OK
-
-
-def _monitor(args) -> int:
-    spec = api.load_spec(args.spec)
-    thresholds = api.load_thresholds(args.thresholds)
-    as_of = _date(args.as_of, "--as-of") if args.as_of else datetime.now(timezone.utc).date()
-    months = None
-    if args.baseline_months:
-        first, _, last = args.baseline_months.partition(":")
-        months = (api.parse_month(first, "--baseline-months start"), api.parse_month(last or first, "--baseline-months end"))
-        if months[1] < months[0]:
-            raise InputError(f"--baseline-months {args.baseline_months}: the end comes before the start")
-    json_file = _writable(args.json)
-    engine = api.open_engine(args.db)
-    try:
-        report = api.monitor(spec, engine, args.table, args.month_column, as_of, args.outcome, thresholds,
-                             args.baseline_table, months, record_history=not args.no_history)
-    finally:
-        engine.close()
-    monitor_view.print_monitor_report(report, history_written=not args.no_history)
-    if json_file is not None:
-        json_file.write_text(to_json(report) + "\n", encoding="utf-8")
-        terminal.print_text(f"wrote {json_file}")
-    return EXIT_FOUND if report.has_alert else EXIT_OK
-
-
-def _date(text: str, option: str):
-    try:
-        return datetime.strptime(text, "%Y-%m-%d").date()
-    except ValueError:
-        raise InputError(f"{option} {text!r} is not a date; write it as YYYY-MM-DD, e.g. 2026-11-30") from None
-
-
-def _demo(args) -> int:
-    from demo_warehouse.run import run_demo
-
-    return run_demo(args)
+EXIT_OK, EXIT_FOUND, EXIT_INVALID, EXIT_INTERNAL, EXIT_INTERRUPTED = 0, 1, 2, 3, 130
 
 
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="scoremon",
         description="Keep a logistic-regression scoring model as a YAML spec, score with SQL, monitor it.",
-        epilog="exit codes: 0 ok; 1 something found (alert, difference); 2 invalid input",
+        epilog="exit codes: 0 ok; 1 something found (alert, difference); 2 invalid input; "
+               "3 internal error (a bug; the trace goes to a file); 130 interrupted",
     )
+    parser.add_argument("--version", action="version", version=f"scoremon {__version__}")
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
     check = commands.add_parser("check", help="validate a spec; every problem with file:line:column")
     check.add_argument("spec", help="the spec file (YAML)")
-    check.set_defaults(run=_check)
+    check.set_defaults(run="check")
 
     compile_ = commands.add_parser("compile", help="print the scoring SQL for a spec")
     compile_.add_argument("spec")
@@ -282,7 +46,8 @@ def build_parser() -> argparse.ArgumentParser:
     compile_.add_argument("--table", default="input", help="table the SQL reads (default: input)")
     compile_.add_argument("--key", action="append", help="a column passed through to the output (repeatable)")
     compile_.add_argument("--out", help="write the SQL to this file instead of printing it")
-    compile_.set_defaults(run=_compile)
+    compile_.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
+    compile_.set_defaults(run="compile_")
 
     score = commands.add_parser("score", help="score a table (DuckDB, PostgreSQL or Spark) or a Parquet/CSV file (DuckDB)")
     score.add_argument("spec")
@@ -291,15 +56,19 @@ def build_parser() -> argparse.ArgumentParser:
     source.add_argument("--table", help="table in --db to score (NAME or SCHEMA.NAME)")
     source.add_argument("--input", help="Parquet or CSV file to score")
     score.add_argument("--key", action="append", help="a column passed through to the output (repeatable)")
-    score.add_argument("--out-table", help="write the scores to this table in --db (replaced whole)")
-    score.add_argument("--out", help="write the scores to this Parquet file (replaced whole)")
+    score.add_argument("--out-table", help="write the scores to this table in --db (written whole, atomically)")
+    score.add_argument("--out", help="write the scores to this file: FILE.parquet (Parquet) or FILE.csv (CSV)")
+    score.add_argument("--replace", action="store_true", help="replace --out-table or --out when it exists (without it, an existing output is an error)")
+    score.add_argument("--allow-empty", action="store_true",
+                       help="write the output even when the input holds no rows (refused without it)")
     score.add_argument("--threads", type=int, default=None,
                        help="DuckDB threads, or the cores of a spark://local session (default: all cores for DuckDB)")
-    score.set_defaults(run=_score)
+    score.set_defaults(run="score")
 
     schema = commands.add_parser("schema", help="print the spec's JSON Schema (for editors)")
     schema.add_argument("--out", help="write it to this file")
-    schema.set_defaults(run=_schema)
+    schema.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
+    schema.set_defaults(run="schema")
 
     diff = commands.add_parser(
         "diff", help="what changed between two versions of a model, and whom it affects",
@@ -308,7 +77,8 @@ def build_parser() -> argparse.ArgumentParser:
                     "under both versions in one query and show the score and PD change, the grade migration, "
                     "the swap set at a cut-off and how often the first reason changes.",
         epilog="exit codes: 0 the specs are the same model (equal fingerprints); 1 they differ; "
-               "2 invalid input (a spec, a table, a column, an option), one line per problem",
+               "2 invalid input (a spec, a table, a column, an option), one line per problem; 3 internal error "
+               "(a bug in scoremon, never a difference); 130 interrupted",
     )
     diff.add_argument("old", help="the old version's spec file (YAML)")
     diff.add_argument("new", help="the new version's spec file (YAML)")
@@ -322,14 +92,15 @@ def build_parser() -> argparse.ArgumentParser:
                       help="the new version's cut-off when it differs from --cutoff (e.g. after a rescaling)")
     diff.add_argument("--json", metavar="FILE", help="also write the result as JSON to FILE")
     diff.add_argument("--markdown", metavar="FILE", help="also write an audit document (Markdown) to FILE")
-    diff.set_defaults(run=_diff)
+    diff.add_argument("--replace", action="store_true", help="replace --json and --markdown files when it exists (without it, an existing output is an error)")
+    diff.set_defaults(run="diff")
 
     bench = commands.add_parser(
         "bench", help="measure scoring speed and memory as ratios against baselines, side by side",
         description="Generate synthetic rows for a scorecard of realistic shape in DuckDB, then time compiled "
                     "scoring against a bare scan, a hand-written CASE chain, an export to numpy and a Parquet "
                     "copy, in alternating rounds of one run, and measure a fresh process's peak memory.",
-        epilog="exit codes: 0 every goal met; 1 a goal missed; 2 invalid input",
+        epilog="exit codes: 0 every goal met; 1 a goal missed; 2 invalid input; 3 internal error; 130 interrupted",
     )
     bench.add_argument("--rows", type=int, default=10_000_000, help="rows to score (default 10,000,000)")
     bench.add_argument("--repeat", type=int, default=5, help="timed rounds per comparison (default 5)")
@@ -345,7 +116,7 @@ def build_parser() -> argparse.ArgumentParser:
                             "given (postgresql://…, spark://local[N], …); the rows are loaded into each engine")
     bench.add_argument("--engine-rows", type=int, default=1_000_000,
                        help="rows for --engines (default 1,000,000)")
-    bench.set_defaults(run=_bench)
+    bench.set_defaults(run="bench")
 
     baseline = commands.add_parser(
         "baseline", help="measure a development table and write a new spec file with its baseline",
@@ -353,7 +124,7 @@ def build_parser() -> argparse.ArgumentParser:
                     "development score's deciles) and per feature bin, volume, mean score and points, "
                     "unseen-category rates, and with an outcome the event rate, AUC and KS. Writes a copy of "
                     "the spec with the baseline section filled; the spec itself is never overwritten.",
-        epilog="exit codes: 0 written; 2 invalid input, one line per problem",
+        epilog="exit codes: 0 written; 2 invalid input, one line per problem; 3 internal error; 130 interrupted",
     )
     baseline.add_argument("spec", help="the spec file (YAML)")
     baseline.add_argument("--db", required=True, help="engine URL holding --table: a DuckDB file, postgresql://… or spark://…")
@@ -361,7 +132,8 @@ def build_parser() -> argparse.ArgumentParser:
     baseline.add_argument("--outcome", help="0/1 outcome column (NULL: not known), for event rate, AUC and KS")
     baseline.add_argument("--month-column", help="month column, for the development rows per month")
     baseline.add_argument("--out", required=True, metavar="NEW_SPEC", help="the new spec file to write")
-    baseline.set_defaults(run=_baseline)
+    baseline.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
+    baseline.set_defaults(run="baseline")
 
     bin_ = commands.add_parser(
         "bin", help="bin every characteristic of a development table (WoE, IV) into a binning file",
@@ -386,19 +158,19 @@ def build_parser() -> argparse.ArgumentParser:
     bin_.add_argument("--replace", action="store_true", help="replace --out if it exists")
     bin_.add_argument("--recount", metavar="BINS.yaml", help="count the bins of this (hand-edited) binning file "
                                                              "again exactly as written, instead of binning anew")
-    defaults = api.Settings()
+    defaults = BinSettings()
     bin_.add_argument("--fine-classes", type=int, default=defaults.fine_classes,
                       help=f"quantile classes per numeric characteristic, 2 to 100 (default {defaults.fine_classes})")
     bin_.add_argument("--min-share", type=float, default=defaults.min_share,
                       help=f"least share of the table's rows in a bin (default {defaults.min_share})")
     bin_.add_argument("--min-events", type=int, default=defaults.min_events,
                       help=f"least number of events in a bin (default {defaults.min_events})")
-    bin_.add_argument("--trend", choices=("increasing", "decreasing", "auto", "none"), default=defaults.trend,
+    bin_.add_argument("--trend", choices=TRENDS, default=defaults.trend,
                       help="WoE across a numeric characteristic's bins: increasing, decreasing, auto (the one "
                            f"with the larger IV) or none (default {defaults.trend})")
     bin_.add_argument("--max-bins", type=int, default=defaults.max_bins,
                       help=f"most bins per characteristic, missing and catch-all aside (default {defaults.max_bins})")
-    bin_.set_defaults(run=_bin)
+    bin_.set_defaults(run="bin_")
 
     fit = commands.add_parser(
         "fit", help="fit a logistic model on a binning file's characteristics and write a new spec",
@@ -444,7 +216,7 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--out", required=True, metavar="SPEC.yaml", help="the new spec file")
     fit.add_argument("--replace", action="store_true", help="replace --out if it exists")
     fit.add_argument("--json", metavar="FILE", help="write the fit report as JSON")
-    fit.set_defaults(run=_fit)
+    fit.set_defaults(run="fit")
 
     monitor = commands.add_parser(
         "monitor", help="stability, data quality, calibration and discrimination by month, with history",
@@ -453,7 +225,8 @@ def build_parser() -> argparse.ArgumentParser:
                     "on mature months calibration (Jeffreys, binomial, grade chi-square, Spiegelhalter, Brier) "
                     "and discrimination (AUC, Gini, KS). The table may be scored already or raw (scored on the "
                     "fly). Every run is appended to the history tables in the same database.",
-        epilog="exit codes: 0 nothing on alert; 1 something on alert; 2 invalid input, one line per problem",
+        epilog="exit codes: 0 nothing on alert; 1 something on alert; 2 invalid input, one line per problem; "
+               "3 internal error (a bug in scoremon, never an alert); 130 interrupted, nothing written",
     )
     monitor.add_argument("spec", help="the spec file (YAML) with a baseline section, unless one is given below")
     monitor.add_argument("--db", required=True, help="engine URL holding --table (the history goes there): a DuckDB file, "
@@ -473,23 +246,28 @@ def build_parser() -> argparse.ArgumentParser:
     against.add_argument("--baseline-months", metavar="FROM:TO", help="measure the baseline from these months of "
                                                                       "--table, e.g. 2024-05:2025-04")
     monitor.add_argument("--json", metavar="FILE", help="also write every figure as JSON to FILE")
+    monitor.add_argument("--replace", action="store_true", help="replace --json when it exists (without it, an existing output is an error)")
     monitor.add_argument("--no-history", action="store_true",
                          help="do not append this run to the history tables (e.g. a trial run, or an engine "
                               "without transactions)")
-    monitor.set_defaults(run=_monitor)
+    monitor.set_defaults(run="monitor")
 
     demo = commands.add_parser("demo", help="build the demo warehouse and run the whole job on it")
     demo.add_argument("--rows", type=int, default=None, help="applications in the demo book (default: about 400,000)")
     demo.add_argument("--folder", default=None, help="where the demo warehouse is written (default: a temporary folder)")
-    demo.set_defaults(run=_demo)
+    demo.set_defaults(run="demo")
     return parser
 
 
 def main(argv: list[str] | None = None) -> int:
     """Run one command; return its exit code (see the module docstring)."""
     args = build_parser().parse_args(argv)
+    # the commands (and the printing) are imported only once a command runs: see the module docstring
+    from . import commands
+    from .report import terminal
+
     try:
-        return args.run(args)
+        return getattr(commands, args.run)(args)
     except SpecError as error:
         terminal.print_problems([str(p) for p in error.problems])
         return EXIT_INVALID
@@ -501,7 +279,21 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_INVALID
     except KeyboardInterrupt:
         terminal.print_problems(["interrupted; nothing was written"])
-        return 130
+        return EXIT_INTERRUPTED
+    except Exception as error:  # noqa: BLE001 - a bug: one line for the user, the trace for the report
+        trace = _write_trace()
+        terminal.print_problems([f"internal error (a bug in scoremon): {type(error).__name__}: "
+                                 f"{cut(str(error).splitlines()[0] if str(error) else '')}; full trace in {trace}; "
+                                 "please report it with that file"])
+        return EXIT_INTERNAL
+
+
+def _write_trace() -> str:
+    """Write the exception being handled, with its trace, to a new file; return the file's path."""
+    with tempfile.NamedTemporaryFile("w", prefix="scoremon-trace-", suffix=".txt", delete=False,
+                                     encoding="utf-8") as handle:
+        handle.write(traceback.format_exc())
+        return handle.name
 
 
 if __name__ == "__main__":

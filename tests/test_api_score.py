@@ -12,6 +12,7 @@ import pyarrow.parquet as pq
 import pytest
 
 from scoremon import api
+from scoremon.cli import main
 from scoremon.engines import DuckDBEngine
 from scoremon.errors import EngineError, InputError
 from scoremon.spec import fingerprint, load_spec
@@ -136,6 +137,24 @@ def test_every_misfit_is_listed_at_once(spec, engine):
     message = str(raised.value)
     assert "column 'age' (feature 'age') is not in the input" in message
     assert "column 'utilisation' (feature 'utilisation') is VARCHAR, not a number" in message
+    # the misfits stay a list, one per problem, so nothing has to split the message again
+    assert raised.value.message == "the input does not fit the spec"
+    assert [p.split(";")[0].split(",")[0] for p in raised.value.problems] == [
+        "column 'age' (feature 'age') is not in the input",
+        "column 'utilisation' (feature 'utilisation') is VARCHAR"]
+
+
+def test_the_cli_prints_each_misfit_on_its_own_line(spec, engine, tmp_path, capsys):
+    database = tmp_path / "book.duckdb"
+    with DuckDBEngine(str(database)) as book:
+        create_table(book, "applications", _with_column({"age": None, "utilisation": ("VARCHAR", ["x"] * 10)}))
+    code = main(["score", str(FIXTURES / "small.yaml"), "--db", str(database), "--table", "applications",
+                 "--key", "application_id", "--out-table", "scored"])
+    assert code == 2
+    lines = capsys.readouterr().err.splitlines()
+    assert lines[0] == "error: the input does not fit the spec"
+    assert lines[1].startswith("  - column 'age' (feature 'age') is not in the input")
+    assert lines[2].startswith("  - column 'utilisation' (feature 'utilisation') is VARCHAR, not a number")
 
 
 # ---------------------------------------------------------------- atomic writes
@@ -160,7 +179,7 @@ def test_failed_table_write_leaves_the_earlier_table_intact(spec, engine):
     engine.connection.execute("CREATE TABLE scored AS SELECT 'earlier run' AS note, 42 AS answer")
     before = tables(engine)
     with pytest.raises(EngineError) as raised:
-        api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_table="scored")
+        api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_table="scored", replace=True)
     assert "writing the scored table" in str(raised.value)
     assert "not a number" in str(raised.value)  # the driver's conversion error is kept
     assert tables(engine) == before
@@ -173,7 +192,7 @@ def test_failed_parquet_write_leaves_the_earlier_file_intact(spec, engine, tmp_p
     pq.write_table(pa.table({"note": ["earlier run"]}), target)
     earlier = target.read_bytes()
     with pytest.raises(EngineError) as raised:
-        api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_file=target)
+        api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_file=target, replace=True)
     assert "writing the scored Parquet file" in str(raised.value)
     assert target.read_bytes() == earlier
     assert sorted(p.name for p in tmp_path.iterdir()) == ["scored.parquet"]  # no partial file left
@@ -194,8 +213,8 @@ def test_successful_write_replaces_an_earlier_output_whole(spec, engine, sources
     target = tmp_path / "scored.parquet"
     pq.write_table(pa.table({"note": ["earlier run"]}), target)
     engine.connection.execute("CREATE TABLE scored AS SELECT 'earlier run' AS note")
-    api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_file=target)
-    api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_table="scored")
+    api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_file=target, replace=True)
+    api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_table="scored", replace=True)
     for where in ({"file": target}, {"table": "scored"}):
         names, rows = read_output(engine, where)
         assert names == expected_output_names(spec, KEYS)

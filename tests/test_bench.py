@@ -15,7 +15,7 @@ from scoremon.cli import main
 from scoremon.compiler import compile_model
 from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature
 
-EVERY_LINE = ["a", "b", "a+", "a-r", "a0", "c", "d", "d0", "d1", "f", "g", "e"]
+EVERY_LINE = ["a0", "a", "b", "a+", "a-r", "c", "d0", "d1", "d", "f", "g", "h", "i", "e"]
 
 
 @pytest.fixture(scope="module")
@@ -44,7 +44,10 @@ def test_every_comparison_is_reported_with_both_sides_and_a_goal(report):
         if line.unit == "s":
             assert line.second_value > 0 and line.rounds == 2, line
     goals = {line.key: line.goal.text for line in report.lines if line.goal}
-    assert goals == {"a": "≤ 6", "b": "≤ 1", "c": "≥ 10", "d": "≤ 1.2", "e": "< 2", "f": "≤ 2", "g": "≤ 4"}
+    ratio = {line.key: line.ratio for line in report.lines}
+    assert goals == {"a": f"≤ 1.35 × (a0) = {1.35 * ratio['a0']:.2f}", "b": "≤ 0.8", "c": "≥ 10",
+                     "d": f"≤ (d0) + (d1) + 0.5 = {ratio['d0'] + ratio['d1'] + 0.5:.2f}", "e": "< 2", "f": "≤ 2",
+                     "g": "≤ 4", "h": "≤ 6", "i": "≤ 4"}
     assert all(isinstance(line.goal_met, bool) for line in report.lines if line.goal)
     memory = report.lines[-1]
     assert memory.unit == "GiB" and "3,000 rows" in memory.detail
@@ -79,7 +82,7 @@ def test_cli_prints_every_line_and_its_verdict(tmp_path, capsys):
     code = main(["bench", "--rows", "2000", "--repeat", "1", "--skip-memory", "--folder", str(tmp_path)])
     printed = capsys.readouterr().out
     assert code in (0, 1)  # 1 when a goal is missed, which tiny inputs usually do
-    for key in ["(a)", "(b)", "(a+)", "(a-r)", "(a0)", "(c)", "(d)", "(d0)", "(d1)", "(f)"]:
+    for key in ["(a)", "(b)", "(a+)", "(a-r)", "(a0)", "(c)", "(d)", "(d0)", "(d1)", "(f)", "(g)", "(h)"]:
         assert key in printed
     assert "(e)" not in printed
     assert ("missed" in printed) == (code == 1)

@@ -1,20 +1,27 @@
 """The benchmark run: generate the rows, time each comparison side by side, measure memory.
 
 Comparisons, each a ratio of two timings taken in turns in this one run (see
-:mod:`scoremon.bench.timing`), six with the goal the project set and some for information:
+:mod:`scoremon.bench.timing`), nine with the goal the project set and some for information.
+Two goals are set by other lines of the same run, which measured DuckDB's floor for this work:
+finding the bins alone costs about five bare scans ((a0)), and writing the scored rows costs
+what copying costs ((d0)).
 
-(a) compiled scoring ÷ a bare scan of the same columns                          goal ≤ 6
-(b) compiled scoring ÷ a hand-written CASE chain                                goal ≤ 1.0
-(a+) and (a-r), for information: (a) with three reasons, and (a) with the points rounded per bin
 (a0) for information: the binning step alone (each feature's bin found, nothing more) ÷ bare scan
-(c) fetch into numpy and score there ÷ compiled scoring                         goal ≥ 10
-(d) scored output to Parquet ÷ copying the input columns to Parquet             goal ≤ 1.2
-(d0) the same, the rows scored beforehand into a table: the Parquet writer's share of (d)
-(d1) the binning step alone ÷ copying the input to Parquet: the least scoring adds to (d0)
-(e) peak memory of a fresh process scoring ``memory_rows`` rows to Parquet      goal < 2 GiB
-(f) monitoring a scored book of 24 months, every family ÷ scoring those rows     goal ≤ 2
-(g) one Newton step of `scoremon fit` (one model) ÷ bare scan of its columns    goal ≤ 4
+(a) compiled scoring ÷ a bare scan of the same columns                 goal ≤ 1.35 × (a0)
+    (what scoring adds beyond finding the bins stays under a third of it)
+(b) compiled scoring ÷ a hand-written CASE chain                       goal ≤ 0.8
+(a+) and (a-r), for information: (a) with three reasons, and (a) with the points rounded per bin
+(c) fetch into numpy and score there ÷ compiled scoring                goal ≥ 10
+(d0) for information: the rows scored beforehand into a table, written to Parquet ÷ copying
+(d1) for information: the binning step alone ÷ copying the input to Parquet
+(d) scored output to Parquet ÷ copying the input columns to Parquet    goal ≤ (d0) + (d1) + 0.5
+(f) monitoring a scored book of 24 months, every family ÷ scoring those rows   goal ≤ 2
+(g) ``scoremon --help`` ÷ ``python -c pass``, fresh processes          goal ≤ 4
+(h) ``scoremon check`` on the demo spec ÷ ``python -c pass``           goal ≤ 6
+(e) peak memory of a fresh process scoring ``memory_rows`` rows to Parquet     goal < 2 GiB
+(i) one Newton step of `scoremon fit` (one model) ÷ bare scan of its columns    goal ≤ 4
 
+The run exits 1 (``scoremon bench``) when a goal is missed.
 (a)–(c) time an aggregate over the scored rows (rows, mean score and mean PD per grade), so
 the comparison is about scoring, not about moving rows to Python. DuckDB drops whatever an
 aggregate does not use (labels, reasons); one more line, not a goal, times the reasons too.
@@ -38,7 +45,7 @@ from ..errors import InputError
 from ..sources import describe_source, float_columns
 from ..spec.model import Spec
 from ..trees import alias, case, column, integer, text
-from . import fitting, queries, workload
+from . import fitting, queries, startup, workload
 from .memory import measure_peak_memory
 from .numpy_scorer import GradeSummary, score_with_numpy
 from .timing import PairTiming, time_pair
@@ -48,6 +55,8 @@ TABLE = "input"
 BOOK, SCORED_BOOK, SCORED_ROWS = "book", "scored_book", "scored_rows"
 # (f): 24 months, 2024-01 … 2025-12; with the bench spec's 12-month window the first 12 are mature
 BOOK_AS_OF = date(2025, 12, 31)
+A_OVER_BINNING = 1.35  # (a) ≤ this × (a0): scoring adds under a third to finding the bins
+D_BEYOND_FLOOR = 0.5  # (d) ≤ (d0) + (d1) + this: labels, points, score and reasons cost under half a copy
 
 
 @dataclass(frozen=True)
@@ -65,11 +74,15 @@ class BenchSettings:
 
 @dataclass(frozen=True)
 class Goal:
-    """A bound on a ratio (or on GiB): ``at_most`` true means the value must stay at or below."""
+    """A bound on a ratio (or on GiB): ``at_most`` true means the value must stay at or below.
+
+    ``basis`` says how a bound taken from other lines of the same run was made, e.g.
+    ``1.35 × (a0)``; the bound is then that figure of this run."""
 
     bound: float
     at_most: bool
     strict: bool = False
+    basis: str = ""
 
     def met(self, value: float) -> bool:
         if self.at_most:
@@ -79,6 +92,8 @@ class Goal:
     @property
     def text(self) -> str:
         sign = ("<" if self.strict else "≤") if self.at_most else (">" if self.strict else "≥")
+        if self.basis:
+            return f"{sign} {self.basis} = {self.bound:.2f}"
         return f"{sign} {self.bound:g}"
 
 
@@ -177,12 +192,17 @@ class _Bench:
         bare = self.sql(queries.bare_scan(TABLE, numeric, workload.text_columns()))
         hand = self.sql(queries.grade_summary(queries.hand_written_score(self.spec, TABLE)))
         run = self.engine.query
+        # (a0) first: finding the bins, DuckDB's floor for this work, sets (a)'s goal in this run
+        floor = self.timed_line("a0", "binning step alone ÷ bare scan",
+                                "binning", lambda: run(self.binning_sql, "the binning step alone"),
+                                "bare scan", lambda: run(bare, "bare scan"), None)
         self.timed_line("a", "compiled scoring ÷ bare scan",
                         "compiled", lambda: run(compiled, "compiled scoring"),
-                        "bare scan", lambda: run(bare, "bare scan"), Goal(6.0, at_most=True))
+                        "bare scan", lambda: run(bare, "bare scan"),
+                        Goal(A_OVER_BINNING * floor.ratio, at_most=True, basis=f"{A_OVER_BINNING:g} × (a0)"))
         self.timed_line("b", "compiled ÷ hand-written CASE chain",
                         "compiled", lambda: run(compiled, "compiled scoring"),
-                        "hand-written", lambda: run(hand, "hand-written scoring"), Goal(1.0, at_most=True))
+                        "hand-written", lambda: run(hand, "hand-written scoring"), Goal(0.8, at_most=True))
         reasons = self.sql(queries.reason_summary(self.scoring, output_columns(self.spec).reasons))
         self.timed_line("a+", "compiled with 3 reasons ÷ bare scan",
                         "with reasons", lambda: run(reasons, "compiled scoring with reasons"),
@@ -193,9 +213,6 @@ class _Bench:
         per_bin = self.sql(queries.grade_summary(compile_model(rounded, queries.relation(TABLE), (), self.floats)))
         self.timed_line("a-r", "the same, points rounded per bin ÷ bare scan",
                         "per bin", lambda: run(per_bin, "compiled scoring rounded per bin"),
-                        "bare scan", lambda: run(bare, "bare scan"), None)
-        self.timed_line("a0", "binning step alone ÷ bare scan",
-                        "binning", lambda: run(self.binning_sql, "the binning step alone"),
                         "bare scan", lambda: run(bare, "bare scan"), None)
 
     def compare_numpy(self) -> None:
@@ -219,10 +236,7 @@ class _Bench:
         copy_sql = self.sql(queries.input_copy(TABLE, workload.input_columns()))
         scored_file, copy_file = self.folder / "scored.parquet", self.folder / "copy.parquet"
         write = self.engine.write_parquet
-        self.timed_line("d", "scored to Parquet ÷ input copy",
-                        "scored", lambda: write(scored_sql, scored_file, "writing scored Parquet"),
-                        "copy", lambda: write(copy_sql, copy_file, "copying the input to Parquet"),
-                        Goal(1.2, at_most=True))
+        # (d0) and (d1) first: together they are the least (d) can cost, and set its goal in this run
         # (d0) the writer's own share of (d): the same rows scored beforehand, only written
         with self.observer.stage("scoring the rows into a table for (d0)") as progress:
             self.engine.write_table(scored_sql, [SCORED_ROWS], "scoring the bench rows into a table", progress)
@@ -234,9 +248,11 @@ class _Bench:
         binning = self.timed_line("d1", "binning step alone ÷ input copy",
                                   "binning", lambda: self.engine.query(self.binning_sql, "the binning step alone"),
                                   "copy", lambda: write(copy_sql, copy_file, "copying the input to Parquet"), None)
-        self.notes.append(f"(d) cannot come much below (d0) + (d1) = {written.ratio + binning.ratio:.2f}: writing "
-                          "the scored rows costs (d0) and finding the bins costs (d1) before any label, points, "
-                          "score or reason is made")
+        self.timed_line("d", "scored to Parquet ÷ input copy",
+                        "scored", lambda: write(scored_sql, scored_file, "writing scored Parquet"),
+                        "copy", lambda: write(copy_sql, copy_file, "copying the input to Parquet"),
+                        Goal(written.ratio + binning.ratio + D_BEYOND_FLOOR, at_most=True,
+                             basis=f"(d0) + (d1) + {D_BEYOND_FLOOR:g}"))
         self.engine.execute(exp.Drop(tables=[queries.relation(SCORED_ROWS)], kind="TABLE"), "dropping the scored rows")
         scored_file.unlink(missing_ok=True)
         copy_file.unlink(missing_ok=True)
@@ -266,12 +282,20 @@ class _Bench:
         self.timed_line("f", "monitor 24 months, every family ÷ scoring", "monitor", monitor, "scoring", score,
                         Goal(2.0, at_most=True))
 
+    def compare_startup(self) -> None:
+        """(g) and (h): fresh ``scoremon`` processes ÷ a bare Python start, side by side."""
+        bare = startup.bare_start()
+        self.timed_line("g", "scoremon --help ÷ python -c pass", "--help", startup.help_start(),
+                        "python -c pass", bare, Goal(4.0, at_most=True))
+        self.timed_line("h", "scoremon check (demo spec) ÷ python -c pass", "check", startup.check_start(),
+                        "python -c pass", bare, Goal(6.0, at_most=True))
+
     def compare_newton_step(self) -> None:
         design = fitting.newton_design(self.spec, TABLE)
         step = self.sql(fitting.newton_step(design))
         bare = self.sql(queries.bare_scan(TABLE, *fitting.design_columns(design)))
         run = self.engine.query
-        self.timed_line("g", "one Newton step of the fit ÷ bare scan",
+        self.timed_line("i", "one Newton step of the fit ÷ bare scan",
                         "Newton step", lambda: run(step, "one Newton step"),
                         "bare scan", lambda: run(bare, "bare scan"), Goal(4.0, at_most=True))
 
@@ -340,7 +364,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
 
     >>> report = run_bench(BenchSettings(rows=2_000, repeat=1, skip_memory=True))
     >>> [line.key for line in report.lines]
-    ['a', 'b', 'a+', 'a-r', 'a0', 'c', 'd', 'd0', 'd1', 'f', 'g']
+    ['a0', 'a', 'b', 'a+', 'a-r', 'c', 'd0', 'd1', 'd', 'f', 'g', 'h', 'i']
     """
     _check_settings(settings)
     observer = observer or SilentObserver()
@@ -356,6 +380,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
             bench.compare_numpy()
             bench.compare_parquet()
             bench.compare_monitor()
+            bench.compare_startup()
             bench.compare_newton_step()
             threads = bench.threads()
         finally:

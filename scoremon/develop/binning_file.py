@@ -18,8 +18,6 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-import os
-import uuid
 from dataclasses import dataclass, field
 from importlib import metadata
 from pathlib import Path
@@ -28,15 +26,14 @@ from typing import Any, Union
 import yaml
 
 from ..errors import InputError, Problem, SpecError
+from ..files import check_output, write_text
 from ..spec.loading import validate_source
 from ..spec.model import CategoricalFeature, NumericFeature
 from ..spec.source import SpecSource, read_spec_file, read_spec_text
+from .settings import Settings
 from .woe import bin_evidence, event_rate
 
-TRENDS = ("increasing", "decreasing", "auto", "none")
 STATISTICS = ("rows", "events", "event_rate", "iv")  # woe is statistic and spec value at once
-# the dynamic programme's work grows with the cube of the fine classes (see coarse.py)
-MAX_FINE_CLASSES = 100
 DECIMALS = 6  # woe, iv and event rates are written rounded to this many decimals
 BinnedSpecFeature = Union[NumericFeature, CategoricalFeature]
 
@@ -46,29 +43,6 @@ def scoremon_version() -> str:
         return metadata.version("scoremon")
     except metadata.PackageNotFoundError:  # running from a source tree that was never installed
         return "unknown"
-
-
-@dataclass(frozen=True)
-class Settings:
-    """How the bins were made (the options of `scoremon bin`, with their defaults)."""
-
-    fine_classes: int = 20     # quantile classes per numeric characteristic
-    min_share: float = 0.05    # every bin holds at least this share of the table's rows
-    min_events: int = 30       # … and at least this many events
-    trend: str = "auto"        # WoE across numeric bins: increasing, decreasing, auto, none
-    max_bins: int = 8          # bins per characteristic, missing and catch-all not counted
-
-    def __post_init__(self):
-        if not 2 <= self.fine_classes <= MAX_FINE_CLASSES:
-            raise InputError(f"fine classes {self.fine_classes}: give a whole number from 2 to {MAX_FINE_CLASSES}")
-        if not 0 <= self.min_share < 1:
-            raise InputError(f"minimum share {self.min_share}: give a share from 0 to below 1, e.g. 0.05")
-        if self.min_events < 0:
-            raise InputError(f"minimum events {self.min_events}: give 0 or more")
-        if self.trend not in TRENDS:
-            raise InputError(f"trend {self.trend!r}: give one of {', '.join(TRENDS)}")
-        if self.max_bins < 1:
-            raise InputError(f"maximum bins {self.max_bins}: give 1 or more")
 
 
 @dataclass(frozen=True)
@@ -278,27 +252,16 @@ def _flow(value: Any) -> str:
 
 
 def write_binning(binning: Binning, path: str | Path, replace: bool = False) -> Path:
-    """Write ``binning`` to ``path``, whole or not at all.
+    """Write ``binning`` to ``path``, whole or not at all (:func:`scoremon.files.write_text`).
 
     Raises :class:`InputError` when ``path`` exists and ``replace`` is false, or its folder
     does not exist. The text is read back through :func:`read_binning`'s checks first, so a
     file that would not load is never written.
     """
-    path = Path(path)
-    if not path.parent.exists():
-        raise InputError(f"{path}: folder {path.parent} does not exist; create it or choose another path")
-    if path.exists() and not replace:
-        raise InputError(f"{path} exists; give another --out, or --replace to replace it")
+    path = check_output(path, "--out", replace)
     text = binning_text(binning)
     read_binning_text(text, str(path))  # a bug, never the user's input, if this raises
-    temporary = path.with_name(f".{path.name}.{uuid.uuid4().hex}.partial")
-    try:
-        temporary.write_text(text, encoding="utf-8")
-        os.replace(temporary, path)
-    finally:
-        if temporary.exists():
-            temporary.unlink()
-    return path
+    return write_text(path, text)
 
 
 # ---------------------------------------------------------------- reading

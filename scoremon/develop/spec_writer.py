@@ -25,7 +25,7 @@ from typing import Sequence
 import yaml
 
 from ..errors import InputError
-from ..files import write_whole
+from ..files import write_text
 from ..monitor.baseline import baseline_yaml
 from ..spec import parse_spec
 from ..spec.canonical import canonical_form
@@ -189,4 +189,4 @@ def write_spec(spec: Spec, path: str | Path, replace: bool = False, binning_file
     again = parse_spec(text, file=str(path))
     if canonical_form(again) != canonical_form(spec) or again.development != spec.development:
         raise RuntimeError("the written spec does not load to the fitted model")  # a bug, never an input error
-    return write_whole(path, text)
+    return write_text(path, text)

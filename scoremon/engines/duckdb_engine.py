@@ -1,26 +1,29 @@
 """DuckDB, embedded: a database file or memory, with Parquet/CSV read in place.
 
-Implements the :class:`~scoremon.engines.Engine` protocol, plus :meth:`DuckDBEngine.write_parquet`
-and a progress watcher (DuckDB reports the running query's progress to a second thread).
+Implements the :class:`~scoremon.engines.Engine` protocol, with :meth:`DuckDBEngine.write_file`
+(Parquet or CSV, written atomically through :mod:`scoremon.files`), and a progress watcher
+(DuckDB reports the running query's progress to a second thread).
 """
 from __future__ import annotations
 
-import os
 import threading
 import uuid
 from pathlib import Path
-from typing import Any, Sequence
+from typing import TYPE_CHECKING, Any, Sequence
 
 import duckdb
-import pandas as pd
 from sqlglot import exp
 
 from ..dialects import render_table
 from ..errors import EngineError, InputError
+from ..files import atomic_output
 from ..trees import INTERNAL, table_path
 from .columns import column_of
 from .protocol import Column, ColumnSpec, Engine, Progress, Query, Row, first_line, named_rows
 from .rows import arrow_table
+
+if TYPE_CHECKING:  # pandas is imported where a frame is made
+    import pandas as pd
 
 
 class DuckDBEngine(Engine):
@@ -104,22 +107,26 @@ class DuckDBEngine(Engine):
             self.connection.unregister(view)
 
     def write_parquet(self, tree: Query, path: str | Path, purpose: str, progress: Progress | None = None) -> None:
-        """Write the result of a query to a Parquet file; the file appears whole or not at all.
+        """Write the result of a query to a Parquet file; the file appears whole or not at all."""
+        self.write_file(tree, path, purpose, progress, "parquet")
 
-        A tree is rendered for Parquet (text constants as ENUM, see :mod:`scoremon.dialects`)."""
-        sql = self.prepare(tree, for_parquet=True).sql if isinstance(tree, exp.Expression) else self._sql(tree)
+    def write_file(self, tree: Query, path: str | Path, purpose: str, progress: Progress | None = None,
+                   file_format: str = "parquet") -> None:
+        """Write the result of a query to a ``parquet`` or ``csv`` (with a header) file, through
+        :func:`scoremon.files.atomic_output`: the file appears whole or not at all. A tree going
+        to Parquet is rendered for it (text constants as ENUM, see :mod:`scoremon.dialects`)."""
+        options = {"parquet": "FORMAT PARQUET", "csv": "FORMAT CSV, HEADER"}.get(file_format)
+        if options is None:
+            raise InputError(f"cannot write {file_format!r} files; write parquet or csv")
+        parquet = file_format == "parquet" and isinstance(tree, exp.Expression)
+        sql = self.prepare(tree, for_parquet=True).sql if parquet else self._sql(tree)
         path = Path(path)
         if not path.parent.exists():
             raise InputError(f"{path}: folder {path.parent} does not exist; create it or choose another path")
-        temporary = path.with_name(f".{path.name}.{uuid.uuid4().hex}.partial")
-        literal = "'" + str(temporary).replace("'", "''") + "'"
-        try:
-            self._watched(lambda: self.connection.execute(f"COPY ({sql}) TO {literal} (FORMAT PARQUET)"), purpose,
+        with atomic_output(path) as partial:
+            literal = "'" + str(partial).replace("'", "''") + "'"
+            self._watched(lambda: self.connection.execute(f"COPY ({sql}) TO {literal} ({options})"), purpose,
                           progress)
-            os.replace(temporary, path)
-        finally:
-            if temporary.exists():
-                temporary.unlink()
 
     def close(self) -> None:
         self.connection.close()
@@ -133,7 +140,22 @@ class DuckDBEngine(Engine):
                 self.connection.execute(statement)
             self.connection.execute("COMMIT")
         except BaseException:
-            self.connection.execute("ROLLBACK")
+            try:
+                self.connection.execute("ROLLBACK")
+            except duckdb.Error:
+                # a COMMIT that failed (a full disk) has already ended the transaction, and the
+                # ROLLBACK's "no transaction is active" would hide the first cause: show that one
+                pass
+            raise
+
+    def _run(self, work, purpose: str):
+        try:
+            return super()._run(work, purpose)
+        except RuntimeError as error:
+            # DuckDB swallows the KeyboardInterrupt of a Ctrl-C that stops a running query and
+            # raises RuntimeError("Query interrupted") instead: give the interrupt back
+            if str(error).strip() == "Query interrupted":
+                raise KeyboardInterrupt from error
             raise
 
     def _watched(self, work, purpose: str, progress: Progress | None):
@@ -145,7 +167,6 @@ class DuckDBEngine(Engine):
             return self._run(work, purpose)
         finally:
             watcher.stop()
-
 
 
 def _plain_size(text: str) -> str:

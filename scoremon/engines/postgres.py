@@ -8,25 +8,19 @@ the old table to the moment of the swap, so readers are not blocked while scorin
 """
 from __future__ import annotations
 
-import re
 import uuid
 from decimal import Decimal
-from typing import Any, Sequence
-
-import pandas as pd
+from typing import TYPE_CHECKING, Any, Sequence
 
 from ..dialects import render_name, render_table, render_type
 from ..errors import EngineError, InputError
 from ..trees import INTERNAL
 from .columns import column_of
 from .protocol import Column, ColumnSpec, Engine, Progress, Query, Row, first_line, named_rows
-_PASSWORD_IN_URL = re.compile(r"(://[^:/@]+:)[^@]*(@)")
-_PASSWORD_PARAMETER = re.compile(r"(password=)[^&\s]*", re.I)
+from .urls import redact
 
-
-def redact(url: str) -> str:
-    """``url`` with any password replaced by ``***``, for messages."""
-    return _PASSWORD_PARAMETER.sub(r"\1***", _PASSWORD_IN_URL.sub(r"\1***\2", url))
+if TYPE_CHECKING:  # pandas is imported where a frame is made
+    import pandas as pd
 
 
 class PostgresEngine(Engine):
@@ -73,6 +67,8 @@ class PostgresEngine(Engine):
         return named_rows(names, rows)
 
     def query_frame(self, tree: Query, purpose: str) -> pd.DataFrame:
+        import pandas as pd
+
         rows, names = self._run(lambda: self._query(self._sql(tree)), purpose)
         return pd.DataFrame.from_records(rows, columns=names)
 
@@ -104,7 +100,11 @@ class PostgresEngine(Engine):
             progress(1.0)
 
     def write_parquet(self, tree: Query, path, purpose: str, progress: Progress | None = None) -> None:
-        raise InputError("writing a Parquet file needs the DuckDB engine; write a table instead")
+        self.write_file(tree, path, purpose, progress)
+
+    def write_file(self, tree: Query, path, purpose: str, progress: Progress | None = None,
+                   file_format: str = "parquet") -> None:
+        raise InputError("writing a Parquet or CSV file needs the DuckDB engine; write a table instead")
 
     def write_rows(self, table: Sequence[str], columns: Sequence[ColumnSpec], rows: Sequence[Sequence[Any]],
                    purpose: str) -> None:

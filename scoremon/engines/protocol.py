@@ -142,7 +142,7 @@ class Engine(Protocol):
     # Capabilities: what the engine can do, declared, so that no caller asks which engine it is.
     is_transactional: bool  # execute_atomically and the writes are all or nothing
     reads_files: bool  # a query may read Parquet/CSV files in place (read_parquet, read_csv)
-    writes_parquet: bool  # write_parquet works
+    writes_parquet: bool  # write_parquet (and write_file, Parquet or CSV) works
 
     def execute(self, statement: Query, purpose: str) -> None:
         """Run one statement (a CREATE, a DROP, an INSERT); nothing is returned."""
@@ -169,6 +169,12 @@ class Engine(Protocol):
     def write_parquet(self, tree: Query, path: Any, purpose: str, progress: Progress | None = None) -> None:
         """Write the result of a query to a Parquet file, whole or not at all (only when
         :attr:`writes_parquet`; otherwise raises :class:`~scoremon.errors.InputError`)."""
+
+    def write_file(self, tree: Query, path: Any, purpose: str, progress: Progress | None = None,
+                   file_format: str = "parquet") -> None:
+        """Write the result of a query to a ``parquet`` or ``csv`` file, whole or not at all (only
+        when :attr:`writes_parquet`, which covers CSV too; otherwise raises
+        :class:`~scoremon.errors.InputError`)."""
 
     def execute_atomically(self, statements: Sequence[Query], purpose: str) -> None:
         """Run ``statements`` in order in one transaction: all take effect, or (on any error) none.

@@ -19,10 +19,9 @@ import logging
 import os
 import re
 import uuid
-from typing import Any, Mapping, Sequence
+from typing import TYPE_CHECKING, Any, Mapping, Sequence
 from urllib.parse import parse_qsl
 
-import pandas as pd
 from sqlglot import exp
 
 from ..dialects import render_table
@@ -31,6 +30,9 @@ from ..trees import INTERNAL, table_path
 from .columns import column_of
 from .protocol import Column, ColumnSpec, Engine, Progress, Query, Row, first_line, named_rows
 from .rows import arrow_table
+
+if TYPE_CHECKING:  # pandas is imported where a frame is made
+    import pandas as pd
 _LOCAL = re.compile(r"^local(\[(\d+|\*)\])?$")
 # Spark's session catalog accepts only these table and schema names (INVALID_SCHEMA_OR_RELATION_NAME)
 _CATALOG_NAME = re.compile(r"^[A-Za-z0-9_]+$")
@@ -138,6 +140,8 @@ class SparkEngine(Engine):
         return rows
 
     def query_frame(self, tree: Query, purpose: str) -> pd.DataFrame:
+        import pandas as pd
+
         sql = self._sql(tree)
 
         # built from collected rows: pyspark's toPandas does not yet support pandas 3
@@ -159,7 +163,11 @@ class SparkEngine(Engine):
         return "\n".join(str(row[0]) for row in rows)
 
     def write_parquet(self, tree: Query, path, purpose: str, progress: Progress | None = None) -> None:
-        raise InputError("writing a Parquet file needs the DuckDB engine; write a table instead")
+        self.write_file(tree, path, purpose, progress)
+
+    def write_file(self, tree: Query, path, purpose: str, progress: Progress | None = None,
+                   file_format: str = "parquet") -> None:
+        raise InputError("writing a Parquet or CSV file needs the DuckDB engine; write a table instead")
 
     def write_table(self, tree: Query, table: Sequence[str], purpose: str, progress: Progress | None = None) -> None:
         """Replace ``table`` with the result of a query, best-effort atomic (see the module docstring)."""

@@ -18,7 +18,7 @@ Only aggregate tables reach Python; the engine is reached through the
 :class:`~scoremon.engines.Engine` protocol only. The package's face is the run
 (:func:`monitor_table`, :func:`measure_development`) and what its callers hand it or get back.
 """
-from .baseline import spec_text_with_baseline
+from .baseline import spec_text_with_baseline, write_spec_with_baseline
 from .months import Month, parse_month
 from .records import MonitorReport, MonthResult
 from .run import measure_development, monitor_table
@@ -35,4 +35,5 @@ __all__ = [
     "monitor_table",
     "parse_month",
     "spec_text_with_baseline",
+    "write_spec_with_baseline",
 ]

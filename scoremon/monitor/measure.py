@@ -1,8 +1,9 @@
 """Measuring a book month by month: run the grouped passes, compute the statistics, set statuses.
 
 :func:`read_months` runs the month pass (volume, score and points sums, unseen values) and
-decides which months are reported: every month from the first to the last that has rows, up
-to the as-of date, a month without rows in between included (its volume is then zero).
+decides which months are reported: every month in range (:mod:`scoremon.monitor.months`) from
+the first to the last that has rows, up to the as-of date, a month without rows in between
+included (its volume is then zero); rows out of range are counted, not reported as months.
 :func:`measure_book` runs the other three passes once each — bins and score bands over every
 reported month, calibration and discrimination over the mature ones — and turns their small
 result tables into a :class:`~scoremon.monitor.records.MonitorReport`.
@@ -36,7 +37,6 @@ from datetime import date, datetime, timezone
 from statistics import median
 from typing import Any, Iterator, Sequence
 
-from scipy.stats import norm
 from sqlglot import exp
 
 from ..errors import InputError
@@ -44,7 +44,7 @@ from ..spec.model import Baseline, CategoricalFeature, LinearFeature, Spec
 from ..trees import identifier
 from . import queries
 from .baseline import band_edges, feature_bins
-from .months import Month, calendar_between, is_mature, month_of
+from .months import MONTHS_IN_RANGE, Month, calendar_between, is_mature, sort_months
 from .passes import BinCounts, GradeSums, bin_counts, grade_sums, histogram_sums, month_sums
 from .queries import MonitoredRows
 from .records import (
@@ -73,6 +73,7 @@ from .statistics import (
     rate_change_critical_value,
     shares_with_empty_bin_rule,
     spiegelhalter,
+    z_value,
 )
 from .thresholds import ALERT, OK, STATUS_ORDER, WATCH, Limit, Thresholds, worst
 
@@ -112,6 +113,7 @@ class BookMonths:
 
     months: tuple[MonthRow, ...]
     notes: tuple[str, ...] = ()
+    rows_out_of_range: int = 0  # rows of months before the range (see scoremon.monitor.months)
 
     def values_between(self, first: Month, last: Month) -> list:
         return [m.value for m in self.months if first <= m.month <= last and m.rows > 0]
@@ -125,35 +127,23 @@ def read_months(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expressio
     month column holds something that is not a month, or when no month is on or before ``as_of``.
     """
     result = month_sums(engine, spec, rows, relation, None, "counting rows per month")
-    notes: list[str] = []
     invalid = sum(r.invalid_outcomes for r in result)
     if invalid:
         raise InputError(f"the outcome column holds {invalid:,} values that are neither 1, 0 nor NULL; "
                          "fix the outcome column (1 = event, 0 = no event, NULL = not known yet)")
     features = len(spec.features)
+    sorted_months = sort_months(result, month_column, as_of)
     found: dict[Month, MonthRow] = {}
-    later = 0
-    for r in result:
-        if r.value is None:
-            notes.append(f"{r.rows:,} rows have no month and are left out")
-            continue
-        month = month_of(r.value, month_column)
-        if month in found:
-            raise InputError(f"month column {month_column!r} holds several values for {month} "
-                             f"({found[month].value!r}, {r.value!r}); give one value per month")
-        if month.first_day > as_of:
-            later += r.rows
-            continue
+    for month, r in sorted_months.kept.items():
         found[month] = MonthRow(month, r.value, r.rows, r.score_sum, r.points_sums, r.unseen_rows, r.outcome_rows)
-    if later:
-        notes.append(f"{later:,} rows are in months after the as-of date {as_of} and are left out")
     if not found:
-        raise InputError(f"no rows have a month on or before the as-of date {as_of}; check --as-of and --month-column")
+        raise InputError(f"no rows have a month on or before the as-of date {as_of} and in range (the "
+                         f"{MONTHS_IN_RANGE} months ending then); check --as-of and --month-column")
     ordered = sorted(found)
     months = []
     for month in calendar_between(ordered[0], ordered[-1]):
         months.append(found.get(month) or MonthRow(month, None, 0, 0.0, (0.0,) * features, {}, 0))
-    return BookMonths(tuple(months), tuple(notes))
+    return BookMonths(tuple(months), tuple(sorted_months.notes(as_of)), sorted_months.rows_out_of_range)
 
 
 def _material_and_real(value: float | None, limit: Limit, critical_watch: float | None,
@@ -287,6 +277,7 @@ def measure_book(
         drifts=tuple(drifts),
         notes=tuple(notes),
         status=status,
+        rows_out_of_range=book.rows_out_of_range,
     )
 
 
@@ -464,7 +455,7 @@ def _discrimination(sums: HistogramSums | None, baseline: Baseline, thresholds: 
     status = None
     if change is not None:
         critical = [None if found.auc_standard_error is None else
-                    float(norm.ppf(0.5 + level / 2.0)) * found.auc_standard_error
+                    z_value(level) * found.auc_standard_error
                     for level in (thresholds.psi_confidence.watch, thresholds.psi_confidence.alert)]
         status = _material_and_real(-change, thresholds.auc_drop, *critical)
     return Discrimination(int(sums.events), int(sums.non_events), found.auc, found.auc_lower, found.auc_upper,

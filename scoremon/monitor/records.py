@@ -168,6 +168,7 @@ class MonitorReport:
     drifts: tuple[Drift, ...]
     notes: tuple[str, ...] = field(default_factory=tuple)
     status: str | None = None
+    rows_out_of_range: int = 0  # rows in months before the range (scoremon.monitor.months), left out
 
     @property
     def has_alert(self) -> bool:

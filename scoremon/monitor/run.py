@@ -18,7 +18,7 @@ from ..errors import InputError
 from ..sources import check_columns, describe_source, float_columns, source_relation
 from ..spec.canonical import fingerprint
 from ..spec.model import Baseline, Spec
-from .baseline import measure_baseline
+from .baseline import measure_baseline, small_baseline_warning
 from .history import write_history
 from .measure import measure_book, monitored_relation, read_months
 from .months import Month
@@ -72,6 +72,9 @@ def monitor_table(
         else:
             baseline = spec.baseline
             baseline_source = f"the spec's baseline ({baseline.computed_from or 'source not recorded'})"
+        warning = small_baseline_warning(baseline.rows)
+        if warning:
+            notes.append(warning.removeprefix("warning: "))
         report = measure_book(engine, spec, rows, relation, book, as_of=as_of, month_column=month_column,
                               baseline=baseline, baseline_source=baseline_source, thresholds=thresholds,
                               source=f"table {table}", notes=notes, fingerprint=fingerprint(spec))

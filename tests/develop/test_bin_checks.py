@@ -145,8 +145,8 @@ def test_command_writes_summarises_and_never_overwrites(tmp_path, capsys):
     before = out.read_text()
     code = main(["bin", "--db", db, "--table", "development", "--outcome", "bad", "--out", str(out)])
     assert code == 2
-    assert capsys.readouterr().err.strip() == (f"error: --out {out} exists; give another file name, or --replace "
-                                               "to replace it")
+    assert capsys.readouterr().err.strip() == (f"error: --out {out} exists; give --replace to replace it, or "
+                                               "choose another name")
     assert out.read_text() == before
 
 

@@ -53,7 +53,7 @@ def test_existing_file_is_kept_unless_replace(tmp_path):
     binning = read_binning(FIXTURE)
     target = tmp_path / "bins.yaml"
     target.write_text("precious\n")
-    with pytest.raises(InputError, match="exists; give another --out, or --replace"):
+    with pytest.raises(InputError, match="exists; give --replace to replace it, or choose another name"):
         write_binning(binning, target)
     assert target.read_text() == "precious\n"
     write_binning(binning, target, replace=True)

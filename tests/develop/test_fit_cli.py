@@ -65,7 +65,7 @@ def test_an_existing_spec_is_never_replaced_unless_asked(development, tmp_path, 
     out = tmp_path / "model.yaml"
     out.write_text("keep me\n")
     code, printed = _fit(capsys, url, bins, out)
-    assert code == 2 and f"--out {out} exists; give another file name, or --replace to replace it" in printed.err
+    assert code == 2 and f"--out {out} exists; give --replace to replace it, or choose another name" in printed.err
     assert out.read_text() == "keep me\n"
     code, _ = _fit(capsys, url, bins, out, "--replace", "--folds", "1")
     assert code == 0 and load_spec(out).development is not None

@@ -14,7 +14,7 @@ from sqlglot import exp
 
 from scoremon import api
 from scoremon.compiler import output_columns
-from scoremon.dialects import table_path
+from scoremon.trees import table_path
 from scoremon.engines import DuckDBEngine
 from scoremon.spec import parse_spec
 from tests.conftest import FIXTURES

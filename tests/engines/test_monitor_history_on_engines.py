@@ -11,7 +11,7 @@ from datetime import date
 from sqlglot import exp
 
 from scoremon import api
-from scoremon.dialects import table_path
+from scoremon.trees import table_path
 from scoremon.monitor.history import METRICS_TABLE, RUNS_TABLE
 from scoremon.monitor.months import Month
 from tests.monitor.book import SPEC_PATH, load_book, make_book

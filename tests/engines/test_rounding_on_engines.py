@@ -12,7 +12,7 @@ from sqlglot import exp
 
 from scoremon.compiler import round_half_away_sql
 from scoremon.trees import column
-from scoremon.dialects import table_path
+from scoremon.trees import table_path
 from scoremon.spec.terms import round_half_away
 
 
