@@ -114,8 +114,12 @@ def fit_binning(engine: Engine, source: exp.Expression, table: str, binning: Bin
         plain = None
         warnings.append(f"no standard errors: {_named(error, features)}")
     inference = plain is not None and plain.status == CONVERGED
-    if plain is not None and plain.status != CONVERGED:
+    if plain is not None and plain is not final and plain.status != CONVERGED:
         warnings.append(f"unpenalised fit: {plain.reason}")
+    if (facts.rows, facts.events) != (binning.rows, binning.events):
+        warnings.append(f"the binning file counted {binning.rows:,} rows and {binning.events:,} events, the table "
+                        f"now holds {facts.rows:,} and {facts.events:,}: its WoE may no longer fit; recount it "
+                        "(scoremon bin --recount)")
     errors = plain.standard_errors() if inference else None
 
     vif = variance_inflation(correlation[np.ix_(index, index)])

@@ -101,3 +101,15 @@ def test_alpha_belongs_to_the_elastic_net_only(tmp_path, capsys):
     code = main(["fit", str(bins), "--db", url, "--out", str(tmp_path / "a.yaml"), "--penalty", "elastic",
                  "--alpha", "1"])
     assert code == 2 and "strictly between 0 (ridge) and 1 (lasso)" in capsys.readouterr().err
+
+
+def test_a_table_that_changed_since_binning_is_a_warning(tmp_path, capsys):
+    rows = fitdata.table(rows=1200, seed=12)
+    url, bins = _binned(tmp_path, rows, min_events=10)
+    engine = api.open_engine(url)
+    engine.write_rows(["dev"], fitdata.COLUMNS, rows[:1000], "loading fewer rows")
+    engine.close()
+    code = main(["fit", str(bins), "--db", url, "--out", str(tmp_path / "t.yaml"), "--folds", "3"])
+    printed = " ".join(capsys.readouterr().out.split())
+    assert code == 0
+    assert "the binning file counted 1,200 rows and" in printed and "the table now holds 1,000 and" in printed
