@@ -249,3 +249,24 @@ def read_binning_text_from(lines, folder):
     path = folder / "edited.yaml"
     path.write_text("\n".join(lines) + "\n")
     return read_binning(path, counted=False)
+
+
+@pytest.mark.parametrize("option, value, message", [
+    ("--min-share", "1.5", "minimum share 1.5: give a share from 0 to below 1, e.g. 0.05"),
+    ("--fine-classes", "500", "fine classes 500: give a whole number from 2 to 100"),
+    ("--min-events", "-1", "minimum events -1: give 0 or more"),
+    ("--max-bins", "0", "maximum bins 0: give 1 or more"),
+])
+def test_settings_out_of_range_are_refused_before_any_work(tmp_path, capsys, option, value, message):
+    db = database(tmp_path, good_frame())
+    assert main(["bin", "--db", db, "--table", "development", "--outcome", "bad", "--out",
+                 str(tmp_path / "b.yaml"), option, value]) == 2
+    assert capsys.readouterr().err.strip() == f"error: {message}"
+    assert not (tmp_path / "b.yaml").exists()
+
+
+def test_progress_runs_from_start_to_whole(tmp_path):
+    shares = []
+    with open_engine(database(tmp_path, good_frame())) as engine:
+        api.bin_development(engine, "development", "bad", key="application_id", progress=shares.append)
+    assert shares and shares == sorted(shares) and shares[-1] == 1.0

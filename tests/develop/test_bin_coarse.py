@@ -124,3 +124,14 @@ def test_many_rare_values_go_to_other_unlisted():
     assert coarse.binned.feature.other.values == []
     assert (coarse.binned.counts[-2].rows, coarse.binned.counts[-2].events) == (120, 60)
     assert coarse.notes == ("60 rare values in other (not listed)",)
+
+
+def test_constraints_no_partition_meets_give_one_bin_and_say_so():
+    # 40 events in all, 30 asked per bin: two bins cannot both have 30, one bin can
+    fine = _numeric([100, 100, 100], [10, 15, 15], [1.0, 2.0])
+    coarse = numeric_bins(fine, 300, 40, Settings(min_share=0.0, min_events=30))
+    assert len(coarse.binned.feature.bins) == 1
+    # 20 events in all: not even one bin of everything holds 30
+    short = numeric_bins(_numeric([100, 100], [10, 10], [1.0]), 200, 20, Settings(min_share=0.0, min_events=30))
+    assert len(short.binned.feature.bins) == 1
+    assert short.notes[0] == "cannot split into bins of 0% of rows (0) and 30 events: one bin"
