@@ -154,6 +154,8 @@ def build_parser() -> argparse.ArgumentParser:
     chosen.add_argument("--features", nargs="+", metavar="COLUMN", help="bin only these columns (default: every "
                                                                           "number and text column but the outcome, key and month)")
     chosen.add_argument("--exclude", nargs="+", metavar="COLUMN", help="bin every column but these")
+    bin_.add_argument("--categorical", nargs="+", metavar="COLUMN", default=(),
+                      help="whole-number columns to bin as categories (codes), not as numbers")
     bin_.add_argument("--out", required=True, metavar="BINS.yaml", help="the binning file to write")
     bin_.add_argument("--replace", action="store_true", help="replace --out if it exists")
     bin_.add_argument("--recount", metavar="BINS.yaml", help="count the bins of this (hand-edited) binning file "

@@ -187,7 +187,8 @@ def bin_(args) -> int:
     edited = None
     if args.recount:
         edited = api.read_binning(args.recount, counted=False)
-        given = [name for name, value in (("--features", args.features), ("--exclude", args.exclude)) if value]
+        given = [name for name, value in (("--features", args.features), ("--exclude", args.exclude),
+                                          ("--categorical", args.categorical)) if value]
         if given:
             raise InputError(f"{', '.join(given)}: a recount counts the features of {args.recount} as written; "
                              "remove them from the file instead")
@@ -206,7 +207,8 @@ def bin_(args) -> int:
                                              progress)
             else:
                 report = api.bin_development(engine, args.table, args.outcome, args.key, args.month_column,
-                                             args.features, args.exclude or (), settings, progress)
+                                             args.features, args.exclude or (), settings, progress,
+                                             args.categorical)
     finally:
         engine.close()
     written = api.write_binning(report.binning, out, replace=args.replace)

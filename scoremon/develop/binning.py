@@ -16,7 +16,7 @@ from sqlglot import exp
 
 from ..compiler import compile_model
 from ..engines import Engine
-from ..engines.protocol import TEXT
+from ..engines.protocol import INTEGER, TEXT
 from ..errors import InputError
 from ..spec.model import Grade, Identity, Reasons, Scaling, Spec
 from ..spec.checks import suggest
@@ -41,13 +41,16 @@ class BinReport:
 
 def bin_table(engine: Engine, source: exp.Expression, table: str, outcome: str, key: str | None = None,
               month_column: str | None = None, features: Sequence[str] | None = None, exclude: Sequence[str] = (),
-              settings: Settings = Settings(), progress: Progress | None = None) -> BinReport:
+              settings: Settings = Settings(), progress: Progress | None = None,
+              categorical: Sequence[str] = ()) -> BinReport:
     """Bin every characteristic of the development table ``source`` (named ``table``).
 
-    Raises :class:`InputError` (before any counting) for a missing column or a bad outcome,
-    key or month; see :mod:`.outcome`.
+    ``categorical`` names whole-number columns to bin as categories (codes). Raises
+    :class:`InputError` (before any counting) for a missing column or a bad outcome, key or
+    month; see :mod:`.outcome`.
     """
-    plan = plan_columns(describe_columns(engine, source), table, outcome, key, month_column, features, exclude)
+    plan = plan_columns(describe_columns(engine, source), table, outcome, key, month_column, features, exclude,
+                        categorical)
     facts = check_rows(engine, source, plan, table)
     event = event_expression(plan.outcome)
     fine = fine_classes(engine, source, plan.numeric, plan.categorical, event, settings.fine_classes, progress)
@@ -91,10 +94,15 @@ def recount_table(engine: Engine, source: exp.Expression, table: str, edited: Bi
         if name not in columns:
             raise InputError(f"column {name!r} (feature {binned.name!r} of {edited.file or 'the binning file'}) is "
                              f"not in table {table}{suggest(name, list(columns))}")
-        wanted = NUMBER_KINDS if binned.feature.type == "numeric" else (TEXT,)
+        if binned.feature.type == "numeric":
+            wanted, noun = NUMBER_KINDS, "a number"
+        elif any(isinstance(v, int) for g in binned.feature.groups for v in g.values):
+            wanted, noun = (INTEGER,), "whole numbers (its categories are)"
+        else:
+            wanted, noun = (TEXT,), "text"
         if columns[name].kind not in wanted:
             raise InputError(f"column {name!r} (feature {binned.name!r}) is {columns[name].type_name}; a "
-                             f"{binned.feature.type} feature needs {'a number' if wanted != (TEXT,) else 'text'}")
+                             f"{binned.feature.type} feature needs {noun}")
     plan = plan_columns(columns, table, outcome, key, month_column, features=names)
     facts = check_rows(engine, source, plan, table)
     counted = count_bins(engine, source, edited.features, plan)

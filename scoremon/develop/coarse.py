@@ -214,13 +214,13 @@ def _infeasible(settings: Settings, total_rows: int) -> str:
             f"{settings.min_events} events: one bin")
 
 
-def _group_labels(runs: list[list[str]]) -> list[str]:
+def _group_labels(runs: list[list[str | int]]) -> list[str]:
     """A label per group: its value, or its values joined with '/' (shortened), unique, never
     'other' or 'missing' (the catch-all's and the missing bin's)."""
     taken = {"other", "missing"}
     labels = []
     for run in runs:
-        shown = [v if v.strip() else repr(v) for v in run]
+        shown = [str(v) if not isinstance(v, str) else v if v.strip() else repr(v) for v in run]
         label = "/".join(shown)
         if len(label) > LABEL_LENGTH:
             label = f"{shown[0][:LABEL_LENGTH // 2]} and {len(run) - 1} more"

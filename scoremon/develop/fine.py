@@ -61,10 +61,11 @@ class NumericClasses:
 
 @dataclass(frozen=True)
 class CategoricalClasses:
-    """The fine classes of a categorical characteristic: per value (text) its rows and events."""
+    """The fine classes of a categorical characteristic: per value (text, or a whole-number code)
+    its rows and events."""
 
     name: str
-    values: tuple[tuple[str, int, int], ...]  # (value, rows, events), sorted by value
+    values: tuple[tuple[str | int, int, int], ...]  # (value, rows, events), sorted by value
     missing: Count
 
 
@@ -334,8 +335,8 @@ def count_special(engine: Engine, source: exp.Expression, names: Sequence[str],
 
 def categorical_classes(engine: Engine, source: exp.Expression, names: Sequence[str],
                         event: exp.Expression) -> list[CategoricalClasses]:
-    """The rows and events of every value of each text column in ``names``."""
-    values: list[list[tuple[str, int, int]]] = [[] for _ in names]
+    """The rows and events of every value of each text (or whole-number code) column in ``names``."""
+    values: list[list[tuple[str | int, int, int]]] = [[] for _ in names]
     missing: list[Count] = [(0, 0) for _ in names]
     for row in engine.query(category_query(source, names, event), "counting the values of text columns"):
         i = next(i for i in range(len(names)) if row[f"g_{i}"] == 0)
@@ -343,7 +344,7 @@ def categorical_classes(engine: Engine, source: exp.Expression, names: Sequence[
         if value is None:
             missing[i] = (count, events)
         else:
-            values[i].append((str(value), count, events))
+            values[i].append((value if isinstance(value, int) else str(value), count, events))
     return [CategoricalClasses(name, tuple(sorted(v)), m) for name, v, m in zip(names, values, missing)]
 
 

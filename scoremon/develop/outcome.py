@@ -66,9 +66,12 @@ def _missing(role: str, name: str, columns: dict[str, Column], table: str) -> In
 
 def plan_columns(columns: dict[str, Column], table: str, outcome: str, key: str | None = None,
                  month_column: str | None = None, features: Sequence[str] | None = None,
-                 exclude: Sequence[str] = ()) -> ColumnPlan:
+                 exclude: Sequence[str] = (), categorical: Sequence[str] = ()) -> ColumnPlan:
     """The part each column plays; raises :class:`InputError` (one line) for a name not in the
-    table, an outcome or feature of a kind that cannot serve, or a column given two parts."""
+    table, an outcome or feature of a kind that cannot serve, or a column given two parts.
+
+    Number columns are numeric characteristics and text columns categorical ones, but for the
+    whole-number columns named in ``categorical`` (codes such as a region number)."""
     for role, name in (("outcome", outcome), ("key", key), ("month", month_column)):
         if name is not None and name not in columns:
             raise _missing(role, name, columns, table)
@@ -94,6 +97,13 @@ def plan_columns(columns: dict[str, Column], table: str, outcome: str, key: str 
         chosen = [name for name in dict.fromkeys(features) if name not in exclude]
     else:
         chosen = [name for name in columns if name not in roles and name not in exclude]
+    for name in categorical:
+        if name not in columns:
+            raise _missing("--categorical", name, columns, table)
+        if columns[name].kind not in (INTEGER, TEXT):
+            raise InputError(f"--categorical column {name!r} is {columns[name].type_name}; categories are whole "
+                             "numbers or text")
+    coded = set(categorical)
     numeric, categorical, left_out, names = [], [], [], []
     taken: set[str] = set()
     for name in chosen:
@@ -106,7 +116,7 @@ def plan_columns(columns: dict[str, Column], table: str, outcome: str, key: str 
                 raise InputError(f"feature column {name!r} cannot be binned: {why}")
             left_out.append((name, why))
             continue
-        (numeric if column_kind in NUMBER_KINDS else categorical).append(name)
+        (categorical if column_kind == TEXT or name in coded else numeric).append(name)
         # a spec compares feature names ignoring case, as SQL engines do: 'Age' after 'age' is named 'Age_2'
         feature, number = name, 2
         while feature.casefold() in taken:

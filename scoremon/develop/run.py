@@ -27,11 +27,12 @@ from .spec_writer import Naming, build_spec, grades_from_deciles, grades_from_pd
 
 def bin_development(engine: Engine, table: str, outcome: str, key: str | None = None, month_column: str | None = None,
                     features: Sequence[str] | None = None, exclude: Sequence[str] = (),
-                    settings: Settings | None = None, progress: Progress | None = None) -> BinReport:
+                    settings: Settings | None = None, progress: Progress | None = None,
+                    categorical: Sequence[str] = ()) -> BinReport:
     """Fine and coarse classes of every characteristic of a development table (``scoremon bin``);
     see :mod:`scoremon.develop.binning`. Write the result with :func:`write_binning`."""
     return bin_table(engine, source_relation(table=table), table, outcome, key, month_column, features, exclude,
-                     settings or Settings(), progress)
+                     settings or Settings(), progress, categorical)
 
 
 def recount_binning(engine: Engine, binning: Binning, table: str | None = None, outcome: str | None = None,

@@ -187,3 +187,23 @@ def test_engine_percentiles_pass_the_whole_number_check(each_engine):
                               row["min_0"], row["max_0"])
     assert checked is not None
     assert checked == numeric_classes(each_engine, source, "score", event, 20, special["score"])
+
+
+def test_whole_number_codes_binned_as_categories(each_engine):
+    # region codes 1…4 (4 rare): as categories, each code its own group or the catch-all, and a
+    # recount reads them back as whole numbers
+    rng = np.random.default_rng(8)
+    region = rng.choice([1, 2, 3, 4], size=600, p=[0.5, 0.3, 0.18, 0.02])
+    bad = (rng.random(600) < np.array([0.1, 0.2, 0.3, 0.3])[region - 1]).astype(int)
+    each_engine.write_rows(["coded"], [("region", "BIGINT"), ("bad", "BIGINT")],
+                           [(int(r), int(b)) for r, b in zip(region, bad)], "loading region codes")
+    report = api.bin_development(each_engine, "coded", "bad", settings=Settings(min_events=5),
+                                 categorical=["region"])
+    feature = report.binning.feature("region").feature
+    assert feature.type == "categorical" and feature.other.values == [4]
+    assert sorted(v for g in feature.groups for v in g.values) == [1, 2, 3]
+    counts = {g.values[0]: c for g, c in zip(feature.groups, report.binning.feature("region").counts)}
+    for code in (1, 2, 3):  # counted as pandas counts them
+        assert (counts[code].rows, counts[code].events) == (int((region == code).sum()), int(bad[region == code].sum()))
+    again = api.recount_binning(each_engine, read_binning_text(binning_text(report.binning), "coded.yaml"))
+    assert again.binning.features == report.binning.features
