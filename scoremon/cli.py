@@ -181,7 +181,7 @@ def build_parser() -> argparse.ArgumentParser:
                     "L2, L1 or elastic-net penalty whose weight λ is chosen by K-fold cross-validation over a path "
                     "from λ_max down, and write a new spec with scaling, grades, one reason per characteristic, "
                     "the baseline and a development record. Only sums leave the database.",
-        epilog="exit codes: 0 written; 2 invalid input, one line per problem",
+        epilog="exit codes: 0 written; 2 invalid input, one line per problem; 3 internal error; 130 interrupted",
     )
     fit.add_argument("binning", metavar="BINS.yaml", help="the binning file (from scoremon bin)")
     fit.add_argument("--db", required=True, help=f"engine URL holding --table: {ENGINE_URLS}")
