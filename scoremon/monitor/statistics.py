@@ -117,6 +117,20 @@ def jeffreys_p(rows: int, events: int, pd: float) -> float | None:
     return float(stats.beta.cdf(pd, events + 0.5, rows - events + 0.5))
 
 
+def jeffreys_interval(rows: int, events: int, confidence: float = 0.95) -> tuple[float, float] | None:
+    """Equal-tailed Jeffreys interval of an event rate: the Beta(D+½, N−D+½) quantiles at
+    (1 ∓ confidence)/2, with the lower end 0 when D = 0 and the upper end 1 when D = N
+    (Brown, Cai & DasGupta, Statistical Science 16(2), 2001). ``None`` without rows."""
+    from scipy import stats
+
+    if rows <= 0:
+        return None
+    tail = (1.0 - confidence) / 2.0
+    lower = 0.0 if events <= 0 else float(stats.beta.ppf(tail, events + 0.5, rows - events + 0.5))
+    upper = 1.0 if events >= rows else float(stats.beta.ppf(1.0 - tail, events + 0.5, rows - events + 0.5))
+    return lower, upper
+
+
 def binomial_p(rows: int, events: int, pd: float) -> float | None:
     """One-sided binomial p-value P(X ≥ D) for X ~ Bin(N, PD); small when events exceed the PD."""
     from scipy import stats
