@@ -207,3 +207,18 @@ def test_whole_number_codes_binned_as_categories(each_engine):
         assert (counts[code].rows, counts[code].events) == (int((region == code).sum()), int(bad[region == code].sum()))
     again = api.recount_binning(each_engine, read_binning_text(binning_text(report.binning), "coded.yaml"))
     assert again.binning.features == report.binning.features
+
+
+def test_recount_honours_a_nan_route_the_modeller_adds(each_engine):
+    # The spec's `nan:` key sends NaN to a named bin instead of the missing bin; a recount counts it there.
+    frame = development_rows()
+    load(each_engine, frame)
+    report = api.bin_development(each_engine, "development", "bad", settings=Settings(min_share=0.05, min_events=5))
+    score = report.binning.feature("score")
+    top = score.feature.bin_label(score.feature.bins[-1])
+    text = binning_text(report.binning).replace("  - name: score\n", f"  - name: score\n    nan: {top!r}\n", 1)
+    again = api.recount_binning(each_engine, read_binning_text(text, "routed.yaml", counted=False)).binning
+    before, after = score.counts, again.feature("score").counts
+    nan_rows = (3, int(frame.loc[[2, 3, 4], "bad"].sum()))  # rows 2, 3, 4 hold NaN
+    assert (after[-2].rows, after[-2].events) == (before[-2].rows + nan_rows[0], before[-2].events + nan_rows[1])
+    assert (after[-1].rows, after[-1].events) == (before[-1].rows - nan_rows[0], before[-1].events - nan_rows[1])
