@@ -214,8 +214,7 @@ def bin_(args) -> int:
             raise InputError(f"give {' and '.join(missing)} (or --recount FILE to recount a binning file)")
         settings = api.Settings(fine_classes=args.fine_classes, min_share=args.min_share, min_events=args.min_events,
                                 trend=args.trend, max_bins=args.max_bins)
-    outputs.require_database_file(args.db)
-    engine = api.open_engine(args.db)
+    engine = api.open_engine(args.db, read_only=True)  # the bins go to a file, not the database
     try:
         with terminal.progress_bar("recounting" if edited else "binning") as progress:
             if edited is not None:
@@ -247,8 +246,7 @@ def fit(args) -> int:
     naming = api.Naming(name=args.name or (args.table or binning.table), version=args.model_version,
                         owner=args.owner, event=args.event or "",
                         performance_window_months=args.performance_window)
-    outputs.require_database_file(args.db)
-    engine = api.open_engine(args.db)
+    engine = api.open_engine(args.db, read_only=True)  # the model goes to a spec file, not the database
     try:
         report = api.fit_development(engine, binning, settings, naming, out, args.table, args.outcome,
                                      args.month_column, args.replace)

@@ -55,7 +55,8 @@ def files_of(database: Path) -> dict[str, str]:
     ["monitor", str(MONITOR_SPEC), "--table", "book", "--month-column", "application_month", "--outcome", "bad",
      "--baseline-table", "development", "--as-of", "2024-12-31", "--no-history"],
     ["score", str(SPEC), "--table", "apps", "--out", "OUT.parquet"],
-], ids=["diff", "baseline", "monitor --no-history", "score --out FILE"])
+    ["bin", "--table", "development", "--outcome", "bad", "--month-column", "application_month", "--out", "OUT"],
+], ids=["diff", "baseline", "monitor --no-history", "score --out FILE", "bin"])
 def test_a_read_never_changes_the_database_file(logged, tmp_path, command, capsys):
     before = files_of(logged)
     command = [str(tmp_path / f"out{part[3:] or '.yaml'}") if part.startswith("OUT") else part for part in command]
@@ -83,5 +84,19 @@ def test_a_pack_never_changes_the_database_file(tmp_path, capsys):
     assert database.name + ".wal" in before
     capsys.readouterr()
     code = main(["pack", str(MONITOR_SPEC), "--db", str(database), "--html", str(tmp_path / "pack.html")])
+    assert code == 0, capsys.readouterr().err
+    assert files_of(database) == before
+
+
+def test_a_fit_never_changes_the_database_file(tmp_path, capsys):
+    database = tmp_path / "book.duckdb"
+    make_database(database)
+    bins = tmp_path / "bins.yaml"  # the binning the fit reads, made before the writer leaves its log
+    assert main(["bin", "--db", str(database), "--table", "development", "--outcome", "bad", "--out", str(bins)]) == 0
+    subprocess.run([sys.executable, "-c", _DIE_BEFORE_CHECKPOINT, str(database)], check=True)
+    before = files_of(database)
+    assert database.name + ".wal" in before
+    code = main(["fit", str(bins), "--db", str(database), "--out", str(tmp_path / "model.yaml"), "--folds", "1",
+                 "--penalty", "none"])
     assert code == 0, capsys.readouterr().err
     assert files_of(database) == before
