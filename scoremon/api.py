@@ -26,6 +26,7 @@ from .diff import DiffReport, Impact, ModelDiff, diff_models, impact_query, summ
 from .diff.impact import check_outcome_type
 from .engines import DuckDBEngine, Engine, Progress, open_engine
 from .errors import InputError
+from .exact import exact_columns
 from .monitor import (
     DEFAULT_THRESHOLDS,
     Month,
@@ -167,7 +168,7 @@ def score(
         raise InputError("the input does not fit the spec:\n" + "\n".join(f"  - {p}" for p in problems))
     output_columns(spec, keys)  # a key colliding with an output column is an input error, found now
     floats = [name for name, kind in columns.items() if FLOAT_TYPE.match(kind)]
-    scoring = compile_model(spec, source, keys, floats)
+    scoring = compile_model(spec, source, keys, floats, exact_columns(columns))
     started = time.perf_counter()
     if out_table is not None:
         sql = render_sql(scoring, engine.dialect, pretty=False)
@@ -236,7 +237,7 @@ def measure_impact(
         raise InputError("the input does not fit the specs:\n" + "\n".join(f"  - {p}" for p in problems))
     cutoffs = None if cutoff is None else (float(cutoff), float(cutoff if new_cutoff is None else new_cutoff))
     floats = [name for name, kind in columns.items() if FLOAT_TYPE.match(kind)]
-    query = impact_query(old, new, source, floats, outcome, outcome_is_boolean, cutoffs)
+    query = impact_query(old, new, source, floats, outcome, outcome_is_boolean, cutoffs, exact_columns(columns))
     rows = engine.fetch(render_sql(query.tree, engine.dialect, pretty=False),
                         "scoring the population under both versions", progress)
     return summarise_impact(query.columns, rows, old, new, population, outcome, cutoffs)

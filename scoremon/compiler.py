@@ -45,11 +45,12 @@ from __future__ import annotations
 import math
 import struct
 from dataclasses import dataclass
-from typing import Iterable, Sequence
+from typing import Iterable, Mapping, Sequence
 
 from sqlglot import exp
 
 from .errors import InputError
+from .exact import FixedPoint, exact_test, literal_text
 from .spec.canonical import fingerprint
 from .spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
 from .spec.terms import (
@@ -190,6 +191,7 @@ def compile_model(
     source: exp.Expression,
     keys: Sequence[str] = (),
     float_columns: Iterable[str] | None = None,
+    exact_columns: Mapping[str, FixedPoint] | None = None,
 ) -> exp.Select:
     """The scoring query for ``spec`` over ``source`` as an engine-neutral sqlglot tree.
 
@@ -207,6 +209,7 @@ def compile_model(
     """
     names = output_columns(spec, keys)
     floats = None if float_columns is None else set(float_columns)
+    exact = dict(exact_columns or {})
     terms = [feature_terms(spec, f) for f in spec.features]
     fp = fingerprint(spec)
 
@@ -224,17 +227,18 @@ def compile_model(
         source_column = feature.column or feature.name
         x = column(source_column)
         may_be_odd = floats is None or source_column in floats
+        kind = exact.get(source_column)
         if isinstance(feature, LinearFeature):
             binned.append(exp.alias_(_linear_bin(feature, x, may_be_odd), bin_col[i], quoted=True))
             binned.append(exp.alias_(_linear_value(feature, x), value_col[i], quoted=True))
         elif follows[i] is None:
             numbers = [integer(b) for b in range(len(terms[i].bins))]
-            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, numbers), bin_col[i], quoted=True))
+            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, numbers, kind), bin_col[i], quoted=True))
         else:
             labels = [text(t.label) for t in terms[i].bins]
             values = [number(t.log_odds if follows[i] == LOG_ODDS else t.points) for t in terms[i].bins]
-            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, labels), names.features[i][0], quoted=True))
-            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, values), value_col[i], quoted=True))
+            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, labels, kind), names.features[i][0], quoted=True))
+            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, values, kind), value_col[i], quoted=True))
     binned_query = exp.select(*binned).from_(source.copy())
 
     # pointed: labels, points and η
@@ -331,15 +335,15 @@ def _one_number(spec: Spec, terms: FeatureTerms) -> str | None:
 
 
 def _bin_choice(feature, terms: FeatureTerms, x: exp.Expression, may_be_odd: bool,
-                outcomes: Sequence[exp.Expression]) -> exp.Case:
+                outcomes: Sequence[exp.Expression], kind: FixedPoint | None = None) -> exp.Case:
     """The CASE that finds a row's bin, yielding ``outcomes[b]`` for bin ``b``."""
     if isinstance(feature, NumericFeature):
-        return _numeric_bin(feature, terms, x, may_be_odd, outcomes)
+        return _numeric_bin(feature, terms, x, may_be_odd, outcomes, kind)
     return _categorical_bin(feature, terms, x, outcomes)
 
 
 def _numeric_bin(feature: NumericFeature, terms: FeatureTerms, x: exp.Expression, may_be_odd: bool,
-                 outcomes: Sequence[exp.Expression]) -> exp.Case:
+                 outcomes: Sequence[exp.Expression], kind: FixedPoint | None = None) -> exp.Case:
     """The bin's outcome: the half-open comparisons first, the rare values' tests after them.
 
     Most rows stop at a comparison, so testing NULL and NaN last saves two passes over every
@@ -348,7 +352,8 @@ def _numeric_bin(feature: NumericFeature, terms: FeatureTerms, x: exp.Expression
     number (DuckDB, PostgreSQL, Spark) or unordered (IEEE engines), and +inf is above every
     inner edge, which are finite. Only −inf passes a comparison (the first, bin 0), so its
     test goes first when the spec sends it elsewhere; +inf needs a test only when it does not
-    go to the top bin, the ELSE.
+    go to the top bin, the ELSE. A column of exact type ``kind`` is compared exactly
+    (:func:`_below`).
     """
     missing = len(terms.bins) - 1
     ordered = numeric_bins_in_order(feature)
@@ -361,9 +366,25 @@ def _numeric_bin(feature: NumericFeature, terms: FeatureTerms, x: exp.Expression
         last.append((_is_odd(x, "NaN"), outcomes[routes["nan"]].copy()))
         if routes["positive_infinity"] != top:
             last.append((_is_odd(x, "Infinity"), outcomes[routes["positive_infinity"]].copy()))
-    compare = exp.LT if feature.closed == "lower" else exp.LTE
-    below = [compare(this=x.copy(), expression=number(b.upper)) for b in ordered[:-1]]  # below[i]: in bin i or lower
+    below = [_below(x, b.upper, feature.closed, kind) for b in ordered[:-1]]  # below[i]: in bin i or lower
     return case(first + _runs(below, outcomes) + last, outcomes[top].copy())
+
+
+def _below(x: exp.Expression, edge: float, closed: str, kind: FixedPoint | None) -> exp.Expression:
+    """``x < edge`` (bins closed on the lower side) or ``x <= edge``; on a column of exact type
+    ``kind`` against a literal of that kind, worked out by :func:`scoremon.exact.exact_test`
+    (a double would round a BIGINT above 2**53 or a DECIMAL of 16 digits before comparing)."""
+    if kind is None:
+        compare = exp.LT if closed == "lower" else exp.LTE
+        return compare(this=x.copy(), expression=number(edge))
+    test = exact_test(edge, closed, kind)
+    if isinstance(test, bool):
+        return exp.true() if test else exp.false()
+    inclusive, value = test
+    literal: exp.Expression = exp.Literal.number(literal_text(value))
+    if value < 0:
+        literal = exp.Neg(this=literal)
+    return (exp.LTE if inclusive else exp.LT)(this=x.copy(), expression=literal)
 
 
 def _runs(below: Sequence[exp.Expression], outcomes: Sequence[exp.Expression]) -> list[tuple[exp.Expression, exp.Expression]]:

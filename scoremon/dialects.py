@@ -60,7 +60,7 @@ DIALECTS: dict[str, bool] = {
 }
 
 # The portable column kinds engines can create tables with (see Engine.write_rows).
-COLUMN_KINDS = ("DOUBLE", "BIGINT", "VARCHAR", "BOOLEAN", "DATE")
+COLUMN_KINDS = ("DOUBLE", "BIGINT", "DECIMAL(18,6)", "VARCHAR", "BOOLEAN", "DATE")
 
 
 def dialects_help() -> str:

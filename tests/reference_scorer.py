@@ -15,6 +15,8 @@ points, scores, grades and reasons can be compared with the SQL exactly:
   ``-(factor * (coefficient / scale)) * (clip(x) - center)``;
 * base points = offset − factor · intercept; score = base points + Σ points in feature
   order; η = intercept + Σ contributions in feature order; PD = 1 / (1 + e^(−η));
+* a whole-number or DECIMAL value is compared with the bin edges exactly, as the spec writes
+  them (the shortest decimal of each edge's double); a DOUBLE value with the edges' doubles;
 * rounding is half away from zero after holding 12 decimals: per bin (each bin's points,
   each row's linear points and the base points) or on the total score;
 * a reason statement's shortfall = reference − (its features' points summed in listed
@@ -131,6 +133,10 @@ class ReferenceScorer:
 
     @staticmethod
     def _inside(x, lower: float, upper: float, closed: str) -> bool:
+        if isinstance(x, (int, Decimal)) and not isinstance(x, bool):
+            # an exact value (whole number, DECIMAL) meets the edges as the spec writes them;
+            # Python compares int and Decimal with these exactly, never through a float
+            lower, upper = (Decimal(repr(e)) if math.isfinite(e) else e for e in (lower, upper))
         if closed == "lower":
             return lower <= x < upper
         return lower < x <= upper

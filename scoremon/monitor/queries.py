@@ -40,6 +40,7 @@ from sqlglot import exp
 
 from ..compiler import case, column, compile_model, identifier, integer, number, text
 from ..errors import InputError
+from ..exact import exact_columns
 from ..spec.model import CategoricalFeature, Reasons, Spec
 
 MONTH, OUTCOME, SCORE, PD, GRADE, SCORE_BAND, ROWS = "month", "outcome", "score", "pd", "grade", "score_band", "rows"
@@ -109,7 +110,7 @@ def monitored_rows(
                 keys.append(name)
         # monitoring reads no reasons, so the scoring steps that rank them are left out
         scoring_only = spec.model_copy(update={"reasons": Reasons(count=0, statements=[])})
-        scoring = compile_model(scoring_only, source, keys, float_columns)
+        scoring = compile_model(scoring_only, source, keys, float_columns, exact_columns(columns))
         relation = exp.Subquery(this=scoring, alias=exp.TableAlias(this=identifier("scored")))
 
     selected: list[exp.Expression] = []
