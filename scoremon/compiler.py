@@ -15,7 +15,9 @@ The query reads the source once and runs through four steps (CTEs):
 ``pointed``  labels, points and contributions to η (from the number, or looked up by bin
              number), and η = intercept + Σ contributions;
 ``totalled`` the score (base points + Σ points, rounded as the spec says) and, per reason
-             statement, its shortfall = reference − points of its features;
+             statement, its shortfall = reference − points of its features, held as a whole
+             number of billionths of a point (:data:`~scoremon.spec.terms.SHORTFALL_UNITS`), so
+             that shortfalls apart only in a double's last bits tie;
 ``best_k`` / ``picked_k``, for each reason slot k = 1..N: the largest shortfall not yet
              picked (GREATEST over the shortfalls, with those picked for slots 1..k−1 set
              to 0), then the first statement in declaration order holding it — so ties go
@@ -55,6 +57,7 @@ from .spec.canonical import fingerprint
 from .spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
 from .spec.terms import (
     ROUND_UP_FROM,
+    SHORTFALL_UNITS,
     FeatureTerms,
     base_points,
     feature_terms,
@@ -277,7 +280,7 @@ def compile_model(
             for name in statement.features[1:]:
                 reference = reference + max_of[name]
         shortfall = exp.Sub(this=number(reference), expression=exp.paren(total([points_of[n].copy() for n in statement.features]), copy=False))
-        totalled.append(exp.alias_(shortfall, short_col[r], quoted=True))
+        totalled.append(exp.alias_(_held(shortfall), short_col[r], quoted=True))
     totalled_query = exp.select(*totalled).from_(exp.to_table(identifier("pointed")))
 
     steps = [("binned", binned_query), ("pointed", pointed_query), ("totalled", totalled_query)]
@@ -475,6 +478,17 @@ def _contribution(feature, terms: FeatureTerms, b: exp.Expression, value: exp.Ex
         linear = exp.Mul(this=number(linear_slope(feature)), expression=_centred(feature, value))
         return case([(exp.EQ(this=b, expression=integer(LINEAR_MISSING)), number(terms.bins[0].log_odds))], linear)
     return by_bin(b, [number(t.log_odds) for t in terms.bins])
+
+
+def _held(shortfall: exp.Expression) -> exp.Expression:
+    """A shortfall as the whole billionths of a point it is ranked by, 0 when not positive
+    (the rule is stated beside :data:`scoremon.spec.terms.SHORTFALL_UNITS`)."""
+    units = exp.Mul(this=exp.paren(shortfall, copy=False), expression=number(SHORTFALL_UNITS))
+    # Spark's FLOOR of a double is a BIGINT: back to DOUBLE (exact below 2**52)
+    rounded = exp.Cast(this=exp.Floor(this=exp.Add(this=units.copy(), expression=number(0.5))),
+                       to=exp.DataType.build("DOUBLE"))
+    return case([(exp.GTE(this=units.copy(), expression=number(2.0 ** 52)), units.copy()),
+                 (exp.LT(this=units.copy(), expression=number(0.5)), number(0.0))], rounded)
 
 
 def _not_picked(r: int, picks: Sequence[str]) -> list[exp.Expression]:

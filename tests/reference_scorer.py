@@ -21,8 +21,9 @@ points, scores, grades and reasons can be compared with the SQL exactly:
   each row's linear points and the base points) or on the total score;
 * a reason statement's shortfall = reference − (its features' points summed in listed
   order); the reference defaults to the sum, in listed order, of each feature's largest
-  possible points; positive shortfalls are ranked, largest first, ties to the statement
-  listed first.
+  possible points; shortfalls are held to whole billionths of a point (round(shortfall ×
+  10⁹), half up; 0 below half a billionth) and the positive ones ranked, largest first, ties to the
+  statement listed first.
 
 Input values: ``None`` or ``pd.NA`` is SQL NULL; a float NaN is NaN (so a NULL in a numeric
 column needs an ``object`` column).
@@ -215,7 +216,10 @@ class ReferenceScorer:
             own = points_of[statement.features[0]]
             for name in statement.features[1:]:
                 own = own + points_of[name]
-            shortfalls.append((self.reference(statement) - own, position, statement.code))
+            # ranked held to whole billionths of a point, rounded half up (0 below half a billionth)
+            units = (self.reference(statement) - own) * 1e9
+            held = units if units >= 2.0 ** 52 else (0.0 if units < 0.5 else float(math.floor(units + 0.5)))
+            shortfalls.append((held, position, statement.code))
         ranked = sorted((s for s in shortfalls if s[0] > 0), key=lambda s: (-s[0], s[1]))
         for k in range(1, min(self.spec.reasons.count, len(shortfalls)) + 1):
             result[f"reason_{k}"] = ranked[k - 1][2] if k <= len(ranked) else None

@@ -47,6 +47,14 @@ def _smallest_double_from(bound: Decimal) -> float:
 ROUND_UP_FROM = _smallest_double_from(Decimal("0.5") - Decimal("0.5").scaleb(-ROUNDING_DECIMALS))
 
 
+# Reason shortfalls are compared in whole billionths of a point, rounded half up: shortfalls
+# equal in exact arithmetic but apart in a double's last bits tie, and the tie goes to the
+# statement listed first. Below 2**52 billionths ``v + 0.5`` is exact, so FLOOR(v + 0.5) is the
+# rounding on every engine; from 2**52 on every double is whole already. A shortfall below half
+# a billionth holds as 0 and gives no reason.
+SHORTFALL_UNITS = 1e9
+
+
 @dataclass(frozen=True)
 class BinTerm:
     """One bin: its label, what it adds to η and what it adds to the score."""
