@@ -33,7 +33,7 @@ Portable choices, and why:
   the top bin.
 * Every number is ``CAST(<literal> AS DOUBLE)``: a bare ``0.1`` is DECIMAL on DuckDB and Spark,
   and sums of DECIMALs would not give the same bits as double arithmetic.
-* Rounding is FLOOR and a comparison in doubles (:func:`round_half_away_sql`): ROUND on a
+* Rounding is FLOOR and exact comparisons in doubles (:func:`round_half_away_sql`): ROUND on a
   double rounds half to even on PostgreSQL and half away from zero on DuckDB, and a DECIMAL
   cast is not exact on DuckDB.
 * Reasons take successive maxima rather than ranking every pair of statements: with ten
@@ -56,8 +56,10 @@ from .exact import FixedPoint, exact_test, literal_text
 from .spec.canonical import fingerprint
 from .spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
 from .spec.terms import (
-    ROUND_UP_FROM,
+    HOLD_FLOOR_SIZE,
+    HOLD_RELATIVE,
     SHORTFALL_UNITS,
+    WHOLE_FROM,
     FeatureTerms,
     base_points,
     feature_terms,
@@ -133,19 +135,27 @@ def total(terms: Sequence[exp.Expression]) -> exp.Expression:
 def round_half_away_sql(value: exp.Expression) -> exp.Expression:
     """:func:`scoremon.spec.terms.round_half_away` in double arithmetic, the same on every engine.
 
-    Below 2**52 a double splits exactly into ``whole = FLOOR(|x|)`` and ``|x| − whole``, and
-    the rule goes up exactly when that fraction is at least ``ROUND_UP_FROM``; from 2**52 on
-    every double is whole already. No DECIMAL: DuckDB converts a double to DECIMAL by a
-    multiplication in floating point, which misplaced values next to a 12-decimal half, and a
-    DECIMAL(38, 12) cannot hold 1e26. ``0 − rounded`` for negatives gives +0.0, not −0.0.
+    Below 2**52 a double splits exactly into ``whole = FLOOR(|x|)`` and ``|x| − whole``; the
+    value goes up when ``0.5 − (|x| − whole) <= hold``, with ``hold = max(|x|, 128) · 2**-48``.
+    Each step is exact, so the test is the definition's exact comparison: the fraction is a
+    double in [0, 1), ``0.5 − fraction`` is exact from a fraction of 0.25 up (Sterbenz) and
+    above 0.25 (beyond any hold) below it, and scaling by a power of two is exact. From 2**52
+    on every double is whole already. No DECIMAL: DuckDB converts a double to DECIMAL by a
+    multiplication in floating point, and a DECIMAL(38, 12) cannot hold 1e26. ``0 − rounded``
+    for negatives gives +0.0, not −0.0.
     """
     size = exp.Abs(this=value.copy())
     # Spark's FLOOR of a double is a BIGINT: back to DOUBLE (exact below 2**52)
     whole = exp.Cast(this=exp.Floor(this=size.copy()), to=exp.DataType.build("DOUBLE"))
-    goes_up = exp.GTE(this=exp.Sub(this=size.copy(), expression=whole.copy()), expression=number(ROUND_UP_FROM))
+    # a CASE, not GREATEST: engines differ on GREATEST with NULL
+    hold = case([(exp.LT(this=size.copy(), expression=number(HOLD_FLOOR_SIZE)),
+                  number(HOLD_FLOOR_SIZE * HOLD_RELATIVE))],
+                exp.Mul(this=size.copy(), expression=number(HOLD_RELATIVE)))
+    short_of_half = exp.Sub(this=number(0.5), expression=exp.paren(exp.Sub(this=size.copy(), expression=whole.copy()), copy=False))
+    goes_up = exp.LTE(this=short_of_half, expression=hold)
     rounded = case([(goes_up, exp.Add(this=whole.copy(), expression=number(1.0)))], whole.copy())
     return case([
-        (exp.GTE(this=size.copy(), expression=number(2.0 ** 52)), value.copy()),
+        (exp.GTE(this=size.copy(), expression=number(WHOLE_FROM)), value.copy()),
         (exp.LT(this=value.copy(), expression=number(0.0)), exp.Sub(this=number(0.0), expression=rounded.copy())),
     ], rounded)
 

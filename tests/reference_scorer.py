@@ -17,7 +17,8 @@ points, scores, grades and reasons can be compared with the SQL exactly:
   order; η = intercept + Σ contributions in feature order; PD = 1 / (1 + e^(−η));
 * a whole-number or DECIMAL value is compared with the bin edges exactly, as the spec writes
   them (the shortest decimal of each edge's double); a DOUBLE value with the edges' doubles;
-* rounding is half away from zero after holding 12 decimals: per bin (each bin's points,
+* rounding is half away from zero, a fraction short of the half by at most
+  max(|value|, 128) · 2⁻⁴⁸ counting as the half: per bin (each bin's points,
   each row's linear points and the base points) or on the total score;
 * a reason statement's shortfall = reference − (its features' points summed in listed
   order); the reference defaults to the sum, in listed order, of each feature's largest
@@ -32,20 +33,26 @@ from __future__ import annotations
 
 import math
 import numbers
-from decimal import ROUND_HALF_UP, Decimal
+from decimal import ROUND_FLOOR, Decimal, localcontext
 
 import pandas as pd
 
 from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
 
-HELD_DECIMALS = Decimal("1e-12")
-WHOLE = Decimal(1)
 
 
 def round_half_away(value: float) -> float:
-    """Half away from zero (Decimal's ROUND_HALF_UP), after holding 12 decimals of the exact double."""
-    held = Decimal(value).quantize(HELD_DECIMALS, rounding=ROUND_HALF_UP)
-    return float(held.quantize(WHOLE, rounding=ROUND_HALF_UP))
+    """Half away from zero, a fraction short of the half by at most max(|value|, 128) · 2⁻⁴⁸
+    counting as the half (README, "The spec", scaling); exact, with Decimal."""
+    size = Decimal(abs(value))  # the exact double
+    if size >= 2 ** 52:
+        return value
+    with localcontext() as context:
+        context.prec = 200  # enough for every step below to be exact
+        whole = size.to_integral_value(rounding=ROUND_FLOOR)
+        hold = max(size, Decimal(128)) * Decimal(2.0 ** -48)
+        rounded = whole + 1 if Decimal("0.5") - (size - whole) <= hold else whole
+    return float(rounded if value > 0 else -rounded) + 0.0
 
 
 def is_null(value) -> bool:
