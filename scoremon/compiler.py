@@ -24,7 +24,8 @@ The query reads the source once and runs through four steps (CTEs):
              to the statement declared first, and a slot is NULL once no positive
              shortfall is left;
 then the final SELECT adds PD = 1 / (1 + e^(−η)) with η clamped to ±700 (EXP overflows to an
-error on PostgreSQL), the grade, reason 1..N (the picked statements' codes) and the model's
+error on PostgreSQL) — η itself, or with ``pd_from: score`` the η the score stands for,
+(offset − score) / factor — the grade, reason 1..N (the picked statements' codes) and the model's
 identity.
 
 Portable choices, and why:
@@ -309,7 +310,13 @@ def compile_model(
 
     # final
     final = [c.copy() for c in carried] + [column("score")]
-    final.append(exp.alias_(_probability(column(eta)), "pd", quoted=True))
+    if spec.scaling.reported_pd == "score":
+        # the η the (rounded) score stands for, so rows with one score carry one PD
+        stood_for = exp.Div(this=exp.paren(exp.Sub(this=number(spec.scaling.offset), expression=column("score")), copy=False),
+                            expression=number(spec.scaling.factor))
+        final.append(exp.alias_(_probability(stood_for), "pd", quoted=True))
+    else:
+        final.append(exp.alias_(_probability(column(eta)), "pd", quoted=True))
     final.append(exp.alias_(_grade(spec, column("score")), "grade", quoted=True))
     codes = [text(s.code) for s in spec.reasons.statements]
     for pick, name in zip(picks, names.reasons):

@@ -14,7 +14,8 @@ points, scores, grades and reasons can be compared with the SQL exactly:
 * a linear feature adds ``(coefficient / scale) * (clip(x) - center)`` to η and scores
   ``-(factor * (coefficient / scale)) * (clip(x) - center)``;
 * base points = offset − factor · intercept; score = base points + Σ points in feature
-  order; η = intercept + Σ contributions in feature order; PD = 1 / (1 + e^(−η));
+  order; η = intercept + Σ contributions in feature order; PD = 1 / (1 + e^(−η)), from η, or
+  with ``pd_from: score`` (the default when the score is rounded) from (offset − score) / factor;
 * a whole-number or DECIMAL value is compared with the bin edges exactly, as the spec writes
   them (the shortest decimal of each edge's double); a DOUBLE value with the edges' doubles;
 * rounding is half away from zero, a fraction short of the half by at most
@@ -216,7 +217,10 @@ class ReferenceScorer:
         if self.on_total:
             score = round_half_away(score)
         result["score"] = score
-        result["pd"] = logistic(eta)
+        # the PD from the score when the spec says so (its default for a rounded score): the η
+        # the score stands for, (offset − score) / factor
+        pd_from = self.spec.scaling.pd_from or ("log_odds" if self.spec.scaling.rounding == "none" else "score")
+        result["pd"] = logistic(eta if pd_from == "log_odds" else (self.offset - score) / self.factor)
         result["grade"] = self.grade(score)
         shortfalls = []
         for position, statement in enumerate(self.spec.reasons.statements):

@@ -186,7 +186,7 @@ CASES = [
         "25:11: features[1].type: unknown feature type 'categorial'; did you mean 'categorical'?",
     ]),
     ('unknown_key_no_match', [
-        "15:3: scaling.colour: unknown key 'colour'; valid keys here: base_score, base_odds, pdo, rounding",
+        "15:3: scaling.colour: unknown key 'colour'; valid keys here: base_score, base_odds, pdo, rounding, pd_from",
     ]),
     ('unknown_key_typo', [
         "18:5: features[0].coeficient: unknown key 'coeficient'; did you mean 'coefficient'?",
