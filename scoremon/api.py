@@ -326,13 +326,19 @@ def monitor(
     baseline_table: str | None = None,
     baseline_months: tuple[Month, Month] | None = None,
     record_history: bool = True,
+    expected_rows: str | float = "trailing",
+    two_sided: bool = False,
 ) -> MonitorReport:
     """Monitor ``table`` month by month against a baseline; append the run to the history.
 
     The baseline is the spec's own, or one measured now from ``baseline_table`` or from the
     months ``baseline_months`` (first, last) of ``table``. ``table`` may be scored already (it
     has the scored columns, and ``month_column`` / ``outcome`` kept as keys) or raw (it is
-    scored on the fly). Raises :class:`InputError` for anything the user can fix; the history
+    scored on the fly). ``expected_rows`` is what each month's volume is judged against:
+    ``"trailing"`` (default: the median of the book's own previous six months), a monthly
+    count, or ``"development"`` (the baseline's rows per month). ``two_sided`` makes the
+    calibration tests two-sided (default one-sided: only more events than the PD predicts is
+    flagged). Raises :class:`InputError` for anything the user can fix; the history
     is written last, in one transaction, so a failing run leaves it unchanged.
     """
     if baseline_table is not None and baseline_months is not None:
@@ -362,7 +368,8 @@ def monitor(
             baseline_source = f"the spec's baseline ({baseline.computed_from or 'source not recorded'})"
         report = measure_book(engine, spec, rows, relation, book, as_of=as_of, month_column=month_column,
                               baseline=baseline, baseline_source=baseline_source, thresholds=thresholds,
-                              source=f"table {table}", notes=notes, fingerprint=fingerprint(spec))
+                              source=f"table {table}", notes=notes, fingerprint=fingerprint(spec),
+                              expected_rows=expected_rows, two_sided=two_sided)
     if record_history:
         write_history(engine, report)
     return report

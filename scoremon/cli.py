@@ -169,7 +169,8 @@ def _monitor(args) -> int:
     engine = api.open_engine(args.db)
     try:
         report = api.monitor(spec, engine, args.table, args.month_column, as_of, args.outcome, thresholds,
-                             args.baseline_table, months, record_history=not args.no_history)
+                             args.baseline_table, months, record_history=not args.no_history,
+                             expected_rows=_expected_rows(args.expected_rows), two_sided=args.two_sided)
     finally:
         engine.close()
     monitor_view.print_monitor_report(report, history_written=not args.no_history)
@@ -177,6 +178,19 @@ def _monitor(args) -> int:
         json_file.write_text(to_json(report) + "\n", encoding="utf-8")
         terminal.print_text(f"wrote {json_file}")
     return EXIT_FOUND if report.has_alert else EXIT_OK
+
+
+def _expected_rows(text: str) -> str | float:
+    if text in ("trailing", "development"):
+        return text
+    try:
+        value = float(text.replace(",", "").replace("_", ""))
+    except ValueError:
+        value = 0.0
+    if not value > 0 or value == float("inf"):
+        raise InputError(f"--expected-rows {text!r}: give trailing, development or a positive monthly count, "
+                         "e.g. 12000")
+    return value
 
 
 def _date(text: str, option: str):
@@ -318,6 +332,13 @@ def build_parser() -> argparse.ArgumentParser:
                                                                    "of the spec's")
     against.add_argument("--baseline-months", metavar="FROM:TO", help="measure the baseline from these months of "
                                                                       "--table, e.g. 2024-05:2025-04")
+    monitor.add_argument("--expected-rows", default="trailing", metavar="RULE",
+                         help="what each month's volume is judged against: trailing (default: the median of the "
+                              "book's own previous 6 months), a monthly count such as 12000, or development "
+                              "(the baseline's rows per month)")
+    monitor.add_argument("--two-sided", action="store_true",
+                         help="calibration tests both ways (default one-sided: only more events than the PD "
+                              "predicts is flagged, so an over-estimating model reads ok)")
     monitor.add_argument("--json", metavar="FILE", help="also write every figure as JSON to FILE")
     monitor.add_argument("--no-history", action="store_true",
                          help="do not append this run to the history tables (e.g. a trial run, or an engine "

@@ -1,8 +1,9 @@
 """Measuring a book month by month: run the grouped passes, compute the statistics, set statuses.
 
 :func:`read_months` runs the month pass (volume, score and points sums, unseen values) and
-decides which months are reported: every month from the first to the last that has rows, up
-to the as-of date, a month without rows in between included (its volume is then zero).
+decides which months are reported: every month from the first that has rows to the as-of
+month, a month without rows in between or after the last month with rows included (its volume
+is then zero, and it is on alert).
 :func:`measure_book` runs the other three passes once each — bins and score bands over every
 reported month, calibration and discrimination over the mature ones — and turns their small
 result tables into a :class:`~scoremon.monitor.records.MonitorReport`.
@@ -13,12 +14,16 @@ Statuses (thresholds in :mod:`scoremon.monitor.thresholds`):
   the sample-size-aware critical value at the watch confidence; ``alert`` likewise with the
   alert levels. A shift must be both material and more than sampling would produce.
 * volume: its drop (1 − rows / expected rows) and its rise (rows / expected rows − 1), each with
-  its own levels, the expected rows being the baseline's rows per month;
+  its own levels. The expected rows are, by default, the median rows of the book's own
+  previous :data:`TRAILING_MONTHS` months (reported months, empty ones counting 0; the first
+  month has none and no volume figure); or a monthly count the user gives; or, when asked,
+  the development rows per month. A month without rows is on alert whatever it is judged against;
 * missing rate, unseen-category rate, catch-all share: |month − baseline|, and, as for PSI,
   only when the change also exceeds what sampling produces at the ``psi_confidence`` levels
   (z·√(r(1−r)(1/M + 1/N)), r the baseline rate);
 * calibration of a month: the traffic light of its Jeffreys p-value (the month as one pool,
-  at its mean PD; ECB 2019 §2.5), raised to ``alert`` when the grade-level chi-square is at
+  at its mean PD; ECB 2019 §2.5; one-sided by default, so a model that over-estimates reads
+  ok, or two-sided when asked), raised to ``alert`` when the grade-level chi-square is at
   alert. The chi-square and each grade's Jeffreys test also get their own traffic lights,
   shown by grade: with a test per grade every month, a yellow light somewhere is routine and
   belongs to the grade table, not to the month's headline;
@@ -74,6 +79,9 @@ from .statistics import (
     spiegelhalter,
 )
 from .thresholds import ALERT, OK, STATUS_ORDER, WATCH, Limit, Thresholds, worst
+
+TRAILING_MONTHS = 6  # the book's own earlier months a month's volume is judged against
+TRAILING, DEVELOPMENT = "trailing", "development"
 
 
 @contextmanager
@@ -154,7 +162,7 @@ def read_months(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expressio
         raise InputError(f"no rows have a month on or before the as-of date {as_of}; check --as-of and --month-column")
     ordered = sorted(found)
     months = []
-    for month in calendar_between(ordered[0], ordered[-1]):
+    for month in calendar_between(ordered[0], Month(as_of.year, as_of.month)):
         months.append(found.get(month) or MonthRow(month, None, 0, 0.0, (0.0,) * features, {}, 0))
     return BookMonths(tuple(months), tuple(notes))
 
@@ -235,8 +243,15 @@ def measure_book(
     source: str,
     notes: Sequence[str] = (),
     fingerprint: str,
+    expected_rows: str | float = TRAILING,
+    two_sided: bool = False,
 ) -> MonitorReport:
-    """Every figure for every reported month of ``book``, with statuses (see the module docstring)."""
+    """Every figure for every reported month of ``book``, with statuses (see the module docstring).
+
+    ``expected_rows`` is what a month's volume is judged against: ``"trailing"`` (the default,
+    the book's own earlier months), ``"development"`` (the baseline's rows per month) or a
+    monthly count. ``two_sided`` makes the Jeffreys and binomial tests two-sided.
+    """
     notes = list(notes) + list(book.notes)
     window = spec.model.performance_window_months
     edges = band_edges(baseline.score_bands)
@@ -272,11 +287,10 @@ def measure_book(
             if month is not None:
                 passes.histograms[month] = HistogramSums(*[float(v) for v in r[1:]])
 
-    expected_rows = baseline.rows_per_month
-    if expected_rows is None:
-        expected_rows = median([m.rows for m in with_rows])
+    expected, volume_rule = _expected_rows(book, baseline, expected_rows, with_rows)
+    if expected_rows == DEVELOPMENT and baseline.rows_per_month is None:
         notes.append(f"the baseline has no rows per month; volume is compared with this run's median month "
-                     f"({expected_rows:,.0f} rows)")
+                     f"({expected[0]:,.0f} rows)")
     missing_baseline = [f.name for f in spec.features if f.name not in baseline.feature_shares]
     if missing_baseline:
         notes.append(f"the baseline has no bin shares for {', '.join(missing_baseline)}: no PSI for them")
@@ -287,9 +301,9 @@ def measure_book(
         notes.append(f"the raw column of {', '.join(unreadable)} is not in the table: no unseen-category rate for it")
 
     results = []
-    for m in book.months:
-        results.append(_month_result(spec, m, baseline, expected_rows, thresholds, passes,
-                                     is_mature(m.month, window, as_of), rows))
+    for m, month_expected in zip(book.months, expected):
+        results.append(_month_result(spec, m, baseline, month_expected, thresholds, passes,
+                                     is_mature(m.month, window, as_of), rows, two_sided))
     drifts = _drifts(spec, results)
     status = worst(*(r.status for r in results)) or OK
     return MonitorReport(
@@ -303,23 +317,45 @@ def measure_book(
         source=source,
         baseline_source=baseline_source,
         baseline_rows=baseline.rows,
-        expected_monthly_rows=expected_rows,
+        expected_monthly_rows=None if expected_rows == TRAILING else expected[0],
         thresholds=thresholds.as_dict(),
         months=tuple(results),
         drifts=tuple(drifts),
         notes=tuple(notes),
         status=status,
+        volume_rule=volume_rule,
+        calibration_test="two-sided" if two_sided else "one-sided",
     )
 
 
-def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: float, thresholds: Thresholds,
-                  passes: _Passes, mature: bool, rows: MonitoredRows) -> MonthResult:
-    volume_change = _ratio(m.rows, expected_rows)
+def _expected_rows(book: BookMonths, baseline: Baseline, given: str | float,
+                   with_rows: Sequence[MonthRow]) -> tuple[list[float | None], str]:
+    """The rows each reported month is judged against, and the rule in words."""
+    if given == TRAILING:
+        counts = [m.rows for m in book.months]
+        expected = [float(median(counts[max(0, k - TRAILING_MONTHS):k])) if k else None for k in range(len(counts))]
+        return expected, (f"volume against the median of the book's own previous {TRAILING_MONTHS} months "
+                          "(trailing; the first month has none)")
+    if given == DEVELOPMENT:
+        rows = baseline.rows_per_month
+        if rows is None:
+            rows = float(median([m.rows for m in with_rows]))
+        return [rows] * len(book.months), f"volume against the development rows per month ({rows:,.0f})"
+    if isinstance(given, bool) or not isinstance(given, (int, float)) or not given > 0:
+        raise InputError(f"expected rows {given!r}: give 'trailing', 'development' or a positive monthly count")
+    return [float(given)] * len(book.months), f"volume against the expected {float(given):,.0f} rows a month (given)"
+
+
+def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: float | None, thresholds: Thresholds,
+                  passes: _Passes, mature: bool, rows: MonitoredRows, two_sided: bool = False) -> MonthResult:
+    volume_change = None if expected_rows is None else _ratio(m.rows, expected_rows)
     volume_change = None if volume_change is None else volume_change - 1.0
     volume_status = None
     if volume_change is not None:
         volume_status = worst(thresholds.volume_drop.status(max(-volume_change, 0.0)),
                               thresholds.volume_rise.status(max(volume_change, 0.0)))
+    if not m.rows:
+        volume_status = ALERT  # a month without rows is a finding whatever it is judged against
 
     # score bands
     bands = sorted(baseline.score_bands, key=lambda b: b.lower)
@@ -339,7 +375,7 @@ def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: fl
 
     calibration = discrimination_record = None
     if mature and rows.has_outcome and m.rows:
-        calibration = _calibration(spec, passes.grades.get(m.month, {}), m, thresholds)
+        calibration = _calibration(spec, passes.grades.get(m.month, {}), m, thresholds, two_sided)
         discrimination_record = _discrimination(passes.histograms.get(m.month), baseline, thresholds)
 
     stability_status = worst(score_psi_status, *(c.status for c in characteristics))
@@ -350,6 +386,7 @@ def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: fl
         month=m.month.label,
         rows=m.rows,
         maturity=MATURE if mature else IMMATURE,
+        expected_rows=expected_rows,
         volume_change=volume_change,
         volume_status=volume_status,
         score_psi=shift.psi,
@@ -432,7 +469,8 @@ def _quality(feature, m: MonthRow, counts: dict[str, int], baseline: Baseline, t
                           worst(missing_status, unseen_status, catch_all_status))
 
 
-def _calibration(spec: Spec, grades: dict[str, tuple], m: MonthRow, thresholds: Thresholds) -> Calibration:
+def _calibration(spec: Spec, grades: dict[str, tuple], m: MonthRow, thresholds: Thresholds,
+                 two_sided: bool = False) -> Calibration:
     limit = thresholds.calibration_p_value
     records = []
     total_rows = total_events = 0
@@ -441,9 +479,9 @@ def _calibration(spec: Spec, grades: dict[str, tuple], m: MonthRow, thresholds: 
         n, d, p_sum, z_sum, z_variance, se_sum = grades.get(grade.name, (0, 0, 0.0, 0.0, 0.0, 0.0))
         n, d = int(n), int(d or 0)
         mean_pd = _ratio(float(p_sum or 0.0), n)
-        jeffreys = jeffreys_p(n, d, mean_pd) if n else None
+        jeffreys = jeffreys_p(n, d, mean_pd, two_sided) if n else None
         records.append(GradeCalibration(grade.name, n, d, mean_pd, _ratio(d, n), jeffreys,
-                                        binomial_p(n, d, mean_pd) if n else None, limit.status(jeffreys)))
+                                        binomial_p(n, d, mean_pd, two_sided) if n else None, limit.status(jeffreys)))
         total_rows += n
         total_events += d
         pd_sum += float(p_sum or 0.0)
@@ -451,7 +489,7 @@ def _calibration(spec: Spec, grades: dict[str, tuple], m: MonthRow, thresholds: 
         variance += float(z_variance or 0.0)
         squared_error += float(se_sum or 0.0)
     mean_pd = _ratio(pd_sum, total_rows)
-    jeffreys = jeffreys_p(total_rows, total_events, mean_pd) if total_rows else None
+    jeffreys = jeffreys_p(total_rows, total_events, mean_pd, two_sided) if total_rows else None
     chi = grade_chi_square([g.rows for g in records], [g.events for g in records], [g.mean_pd for g in records])
     z = spiegelhalter(numerator, variance) if total_rows else None
     chi_p = chi.p_value if chi else None
@@ -461,7 +499,7 @@ def _calibration(spec: Spec, grades: dict[str, tuple], m: MonthRow, thresholds: 
         mean_pd=mean_pd,
         event_rate=_ratio(total_events, total_rows),
         jeffreys_p=jeffreys,
-        binomial_p=binomial_p(total_rows, total_events, mean_pd) if total_rows else None,
+        binomial_p=binomial_p(total_rows, total_events, mean_pd, two_sided) if total_rows else None,
         chi_square=chi.statistic if chi else None,
         chi_square_df=chi.degrees_of_freedom if chi else None,
         chi_square_p=chi_p,

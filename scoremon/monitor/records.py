@@ -111,6 +111,7 @@ class MonthResult:
     month: str
     rows: int
     maturity: str
+    expected_rows: float | None  # what the month's rows are judged against (see MonitorReport.volume_rule)
     volume_change: float | None  # rows / expected rows − 1
     volume_status: str | None
     score_psi: float | None
@@ -169,6 +170,8 @@ class MonitorReport:
     drifts: tuple[Drift, ...]
     notes: tuple[str, ...] = field(default_factory=tuple)
     status: str | None = None
+    volume_rule: str = ""  # what each month's volume is judged against, in words
+    calibration_test: str = "one-sided"  # or "two-sided": the Jeffreys and binomial p-values
 
     @property
     def has_alert(self) -> bool:
