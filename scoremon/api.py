@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import os
 import re
+from difflib import get_close_matches
 import time
 import uuid
 from dataclasses import dataclass, field
@@ -61,7 +62,9 @@ INTEGER_TYPE = re.compile(r"^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|UTINYINT|U
 # Types that can hold NaN or ±infinity: the floats, and PostgreSQL's NUMERIC (NaN, and ±Infinity
 # since PostgreSQL 14); DuckDB's and Spark's DECIMAL cannot.
 FLOAT_TYPE = re.compile(r"^(FLOAT|DOUBLE|REAL|DOUBLE PRECISION|FLOAT\d|NUMERIC(\(.*\))?)$", re.I)
-TEXT_TYPE = re.compile(r"^(VARCHAR|TEXT|STRING|CHAR|BPCHAR|CHARACTER|CHARACTER VARYING)(\(.*\))?$", re.I)
+# Text-like types, categorical features' columns: DuckDB's ENUM, PostgreSQL's CITEXT and NAME too.
+TEXT_TYPE = re.compile(r"^(VARCHAR|TEXT|STRING|CHAR|BPCHAR|CHARACTER|CHARACTER VARYING|NVARCHAR|CITEXT|NAME|ENUM)"
+                       r"(\(.*\))?$", re.I)
 
 
 def table_name(name: str) -> list[str]:
@@ -89,10 +92,28 @@ def source_relation(table: str | None = None, file: str | Path | None = None) ->
     return exp.Anonymous(this=reader, expressions=[exp.Literal.string(str(path))])
 
 
-def describe_source(engine: Engine, source: exp.Expression) -> dict[str, str]:
-    """Column name → SQL type of a source."""
+def describe_source(engine: Engine, source: exp.Expression, wanted: Sequence[str] = ()) -> dict[str, str]:
+    """Column name → SQL type of a source.
+
+    Where the engine matches column names ignoring case (DuckDB; Spark unless
+    ``spark.sql.caseSensitive`` is on), a ``wanted`` name that the source spells in another
+    case is listed under the wanted spelling, which is how the compiled SQL names it.
+    """
     query = exp.select(exp.Star()).from_(source.copy())
-    return dict(engine.describe(render_sql(query, engine.dialect, pretty=False), "reading the input's columns"))
+    columns = dict(engine.describe(render_sql(query, engine.dialect, pretty=False), "reading the input's columns"))
+    if getattr(engine, "ignores_column_case", False):
+        for name in wanted:
+            if name in columns:
+                continue
+            matches = [actual for actual in columns if actual.casefold() == name.casefold()]
+            if len(matches) == 1:
+                columns[name] = columns.pop(matches[0])
+    return columns
+
+
+def spec_columns(spec: Spec) -> list[str]:
+    """The input columns a spec reads, in feature order."""
+    return list(dict.fromkeys(feature.column or feature.name for feature in spec.features))
 
 
 def check_columns(spec: Spec, columns: dict[str, str], keys: Sequence[str]) -> list[str]:
@@ -105,7 +126,7 @@ def check_columns(spec: Spec, columns: dict[str, str], keys: Sequence[str]) -> l
         name = feature.column or feature.name
         kind = columns.get(name)
         if kind is None:
-            problems.append(f"column {name!r} (feature {feature.name!r}) is not in the input{suggest(name, list(columns))}")
+            problems.append(_missing_column(feature, list(columns)))
             continue
         if isinstance(feature, CategoricalFeature):
             values = [v for g in feature.groups for v in g.values] + list(feature.other.values)
@@ -120,6 +141,18 @@ def check_columns(spec: Spec, columns: dict[str, str], keys: Sequence[str]) -> l
             problems.append(f"column {name!r} (feature {feature.name!r}) is {kind}, not a number; "
                             f"a {feature.type} feature needs a numeric column")
     return problems
+
+
+def _missing_column(feature, columns: Sequence[str]) -> str:
+    """A feature's column is not in the input: the nearest input column, and the spec key to edit."""
+    name = feature.column or feature.name
+    where = "its `column:` in the spec" if feature.column else "read by its name; give it `column:` in the spec"
+    problem = f"column {name!r} (feature {feature.name!r}, {where}) is not in the input"
+    nearest = get_close_matches(name.casefold(), {c.casefold(): c for c in columns}, n=1, cutoff=0.0)
+    if not nearest:
+        return problem + "; it has no columns"
+    actual = {c.casefold(): c for c in columns}[nearest[0]]
+    return f"{problem}; the nearest is {actual!r}: rename that column or set `column: {actual}` in the spec"
 
 
 def compile_sql(spec: Spec, dialect: str = "duckdb", table: str = "input", keys: Sequence[str] = (),
@@ -150,25 +183,27 @@ def score(
     out_table: str | None = None,
     out_file: str | Path | None = None,
     progress: Progress | None = None,
+    reason_text: bool = False,
 ) -> ScoreResult:
     """Score every row of ``source`` inside ``engine`` and write the result atomically.
 
     Exactly one of ``out_table`` (a table in the engine's database, replaced whole) and
     ``out_file`` (a Parquet file, replaced whole) is given. The input's columns are checked
     against the spec before any work starts; :class:`InputError` lists every misfit.
+    ``reason_text`` puts each reason's statement text beside its code (``reason_k_text``).
     """
     if (out_table is None) == (out_file is None):
         raise InputError("give either an output table or an output file, not both and not neither")
     if not isinstance(source, exp.Table) and not isinstance(engine, DuckDBEngine):
         raise InputError(f"reading a Parquet or CSV file needs the DuckDB engine, not {engine.dialect}; "
                          "load the file into a table in that engine and score the table")
-    columns = describe_source(engine, source)
+    columns = describe_source(engine, source, spec_columns(spec) + list(keys))
     problems = check_columns(spec, columns, keys)
     if problems:
         raise InputError("the input does not fit the spec:\n" + "\n".join(f"  - {p}" for p in problems))
-    output_columns(spec, keys)  # a key colliding with an output column is an input error, found now
+    output_columns(spec, keys, reason_text)  # a key colliding with an output column is an input error, found now
     floats = [name for name, kind in columns.items() if FLOAT_TYPE.match(kind)]
-    scoring = compile_model(spec, source, keys, floats, exact_columns(columns))
+    scoring = compile_model(spec, source, keys, floats, exact_columns(columns), reason_text)
     started = time.perf_counter()
     if out_table is not None:
         sql = render_sql(scoring, engine.dialect, pretty=False)
@@ -223,7 +258,7 @@ def measure_impact(
     """
     if new_cutoff is not None and cutoff is None:
         raise InputError("a cut-off for the new version needs one for the old version too; give --cutoff")
-    columns = describe_source(engine, source)
+    columns = describe_source(engine, source, spec_columns(old) + spec_columns(new) + ([outcome] if outcome else []))
     problems = []
     for side, spec in (("old", old), ("new", new)):
         problems += [f"{side} version: {p}" for p in check_columns(spec, columns, ())]
@@ -249,7 +284,7 @@ def measure_impact(
 def _monitored(spec: Spec, engine: Engine, source: exp.Expression, month_column: str | None,
                outcome: str | None) -> tuple[MonitoredRows, list[str]]:
     """The monitored rows over ``source`` (scored already, or scored on the fly), and notes."""
-    columns = describe_source(engine, source)
+    columns = describe_source(engine, source, spec_columns(spec) + [name for name in (month_column, outcome) if name])
     notes = []
     if is_scored(spec, columns):
         if "model_fingerprint" in columns:

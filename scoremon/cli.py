@@ -54,7 +54,8 @@ def _score(args) -> int:
     try:
         source = api.source_relation(table=args.table, file=args.input)
         with terminal.progress_bar("scoring") as progress:
-            result = api.score(spec, engine, source, args.key or (), args.out_table, args.out, progress)
+            result = api.score(spec, engine, source, args.key or (), args.out_table, args.out, progress,
+                               reason_text=args.reason_text)
     finally:
         engine.close()
     score_view.print_score_result(result)
@@ -236,6 +237,8 @@ def build_parser() -> argparse.ArgumentParser:
     score.add_argument("--key", action="append", help="a column passed through to the output (repeatable)")
     score.add_argument("--out-table", help="write the scores to this table in --db (replaced whole)")
     score.add_argument("--out", help="write the scores to this Parquet file (replaced whole)")
+    score.add_argument("--reason-text", action="store_true",
+                       help="put each reason's statement text beside its code (reason_1_text, …), e.g. for letters")
     score.add_argument("--threads", type=int, default=None,
                        help="DuckDB threads, or the cores of a spark://local session (default: all cores for DuckDB)")
     score.set_defaults(run=_score)

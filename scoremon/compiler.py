@@ -170,6 +170,7 @@ class OutputColumns:
     keys: tuple[str, ...]
     features: tuple[tuple[str, str], ...]  # (bin column, points column) per feature
     reasons: tuple[str, ...]
+    reason_texts: tuple[str, ...] = ()  # reason_k_text beside each reason_k, when asked for
 
     FIXED = ("score", "pd", "grade")
     IDENTITY = ("model_name", "model_version", "model_fingerprint")
@@ -177,14 +178,17 @@ class OutputColumns:
     @property
     def all(self) -> tuple[str, ...]:
         flat = [name for pair in self.features for name in pair]
-        return self.keys + tuple(flat) + self.FIXED + self.reasons + self.IDENTITY
+        reasons = [name for pair in zip(self.reasons, self.reason_texts) for name in pair] if self.reason_texts \
+            else list(self.reasons)
+        return self.keys + tuple(flat) + self.FIXED + tuple(reasons) + self.IDENTITY
 
 
-def output_columns(spec: Spec, keys: Sequence[str] = ()) -> OutputColumns:
-    """The output column names for ``spec``; raises :class:`InputError` if a key collides."""
+def output_columns(spec: Spec, keys: Sequence[str] = (), reason_text: bool = False) -> OutputColumns:
+    """The output column names for ``spec``; raises :class:`InputError` if a key collides.
+    ``reason_text`` adds ``reason_k_text`` (the statement's text) beside each ``reason_k``."""
     features = tuple((f"{f.name}_bin", f"{f.name}_points") for f in spec.features)
     reasons = tuple(f"reason_{k}" for k in range(1, min(spec.reasons.count, len(spec.reasons.statements)) + 1))
-    columns = OutputColumns(tuple(keys), features, reasons)
+    columns = OutputColumns(tuple(keys), features, reasons, tuple(f"{r}_text" for r in reasons) if reason_text else ())
     seen: dict[str, str] = {}
     for name in columns.all:
         folded = name.casefold()
@@ -206,6 +210,7 @@ def compile_model(
     keys: Sequence[str] = (),
     float_columns: Iterable[str] | None = None,
     exact_columns: Mapping[str, FixedPoint] | None = None,
+    reason_text: bool = False,
 ) -> exp.Select:
     """The scoring query for ``spec`` over ``source`` as an engine-neutral sqlglot tree.
 
@@ -221,7 +226,7 @@ def compile_model(
     >>> sql.startswith("WITH")
     True
     """
-    names = output_columns(spec, keys)
+    names = output_columns(spec, keys, reason_text)
     floats = None if float_columns is None else set(float_columns)
     exact = dict(exact_columns or {})
     terms = [feature_terms(spec, f) for f in spec.features]
@@ -319,10 +324,14 @@ def compile_model(
         final.append(exp.alias_(_probability(column(eta)), "pd", quoted=True))
     final.append(exp.alias_(_grade(spec, column("score")), "grade", quoted=True))
     codes = [text(s.code) for s in spec.reasons.statements]
-    for pick, name in zip(picks, names.reasons):
+    texts = [text(s.text) for s in spec.reasons.statements]
+    for k, (pick, name) in enumerate(zip(picks, names.reasons)):
         # no ELSE: a slot left empty (pick NULL) has no reason
         reason = case([(exp.EQ(this=column(pick), expression=integer(r)), code) for r, code in enumerate(codes)])
         final.append(exp.alias_(reason, name, quoted=True))
+        if names.reason_texts:
+            words = case([(exp.EQ(this=column(pick), expression=integer(r)), t.copy()) for r, t in enumerate(texts)])
+            final.append(exp.alias_(words, names.reason_texts[k], quoted=True))
     final.append(exp.alias_(text(spec.model.name), "model_name", quoted=True))
     final.append(exp.alias_(text(spec.model.version), "model_version", quoted=True))
     final.append(exp.alias_(text(fp), "model_fingerprint", quoted=True))

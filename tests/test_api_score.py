@@ -112,7 +112,7 @@ def _with_column(changes: dict) -> dict:
 
 @pytest.mark.parametrize("output", ["table", "parquet"])
 @pytest.mark.parametrize("changes, expected", [
-    ({"region_code": None}, "column 'region_code' (feature 'region') is not in the input"),
+    ({"region_code": None}, "column 'region_code' (feature 'region', its `column:` in the spec) is not in the input"),
     ({"age": ("VARCHAR", ["30"] * 10)}, "column 'age' (feature 'age') is VARCHAR, not a number"),
     ({"region_code": ("BIGINT", list(range(10)))},
      "column 'region_code' (feature 'region') is BIGINT but the spec lists text categories"),
@@ -134,7 +134,7 @@ def test_every_misfit_is_listed_at_once(spec, engine):
     with pytest.raises(InputError) as raised:
         api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_table="scored")
     message = str(raised.value)
-    assert "column 'age' (feature 'age') is not in the input" in message
+    assert "column 'age' (feature 'age', read by its name; give it `column:` in the spec) is not in the input" in message
     assert "column 'utilisation' (feature 'utilisation') is VARCHAR, not a number" in message
 
 

@@ -31,6 +31,7 @@ class DuckDBEngine:
     """
 
     dialect = "duckdb"
+    ignores_column_case = True  # DuckDB matches names ignoring case, quoted or not
 
     def __init__(self, database: str = ":memory:", threads: int | None = None, memory_limit: str | None = None):
         self._duckdb = duckdb

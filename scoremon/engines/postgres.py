@@ -37,6 +37,7 @@ class PostgresEngine:
     """
 
     dialect = "postgres"
+    ignores_column_case = False  # a quoted name matches only its own spelling
 
     def __init__(self, url: str):
         # psycopg is an optional extra (``scoremon[engines]``): imported only when a PostgreSQL URL

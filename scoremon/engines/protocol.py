@@ -26,6 +26,7 @@ class Engine(Protocol):
     """
 
     dialect: str
+    ignores_column_case: bool  # a query's column names match the table's ignoring case (DuckDB, Spark by default)
 
     def execute(self, sql: str, purpose: str) -> None:
         """Run one statement; nothing is returned."""
