@@ -297,8 +297,10 @@ def _findings(report) -> None:
     runs.sort(key=lambda r: (FAMILY_ORDER.index(r["family"]), r["first"], r["what"]))
     _emit(Text(f"findings by month range ({len(runs)})", style="bold"), indent=0)
     figure_width = max(len(r["figure"]) for r in runs)
-    table = _table(("months", "left", 15), ("family", "left", 14), ("what", "left"), ("worst", "right", figure_width),
+    table = _table(("months", "left", 15), ("family", "left", 12), ("what", "left"), ("worst", "right", figure_width),
                    ("status", "left", 6))
+    what = table.columns[2]
+    what.no_wrap, what.overflow = False, "fold"  # a long feature name wraps rather than losing its end
     for r in runs[:MOST_FINDINGS]:
         months = r["first"] if r["first"] == r["last"] else f"{r['first']}–{r['last']}"
         table.add_row(months, r["family"], r["what"], r["figure"] or "–", _status(r["status"]))
