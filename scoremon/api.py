@@ -22,12 +22,13 @@ from typing import Sequence
 from sqlglot import exp
 
 from .compiler import compile_model, identifier, output_columns
-from .dialects import render_sql
+from .dialects import comment_line, render_sql
 from .diff import DiffReport, Impact, ModelDiff, diff_models, impact_query, summarise_impact
 from .diff.impact import check_outcome_type
 from .engines import DuckDBEngine, Engine, Progress, open_engine
 from .errors import InputError
 from .exact import exact_columns
+from .version import VERSION
 from .monitor import (
     DEFAULT_THRESHOLDS,
     Month,
@@ -157,9 +158,12 @@ def _missing_column(feature, columns: Sequence[str]) -> str:
 
 def compile_sql(spec: Spec, dialect: str = "duckdb", table: str = "input", keys: Sequence[str] = (),
                 float_columns: Sequence[str] | None = None, pretty: bool = True) -> str:
-    """The scoring SQL for ``spec`` reading ``table``, as text for ``dialect``."""
+    """The scoring SQL for ``spec`` reading ``table``, as text for ``dialect``, beginning with a
+    comment naming the model, its version and fingerprint, and scoremon's version."""
     tree = compile_model(spec, source_relation(table=table), keys, float_columns)
-    return render_sql(tree, dialect, pretty=pretty)
+    stamp = comment_line(f"{spec.model.name} version {spec.model.version}, fingerprint {fingerprint(spec)}; "
+                         f"compiled by scoremon {VERSION}")
+    return stamp + "\n" + render_sql(tree, dialect, pretty=pretty)
 
 
 @dataclass(frozen=True)

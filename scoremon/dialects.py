@@ -98,6 +98,14 @@ def render_table(parts: Sequence[str], dialect: str) -> str:
     return render_sql(table_path(parts), dialect, pretty=False)
 
 
+def comment_line(words: str) -> str:
+    """``/* words */`` on one line, to stand before a statement. ``words`` may hold text from a
+    spec (a model's name), so it can neither end the comment nor break the line: ``*/`` and
+    ``/*`` are split and control characters become spaces."""
+    flat = "".join(" " if ord(ch) < 32 or ord(ch) == 127 else ch for ch in words)
+    return "/* " + flat.replace("*/", "* /").replace("/*", "/ *") + " */"
+
+
 def render_name(name: str, dialect: str) -> str:
     """One column or table name as a quoted identifier for ``dialect``."""
     return render_sql(exp.to_identifier(name, quoted=True), dialect, pretty=False)

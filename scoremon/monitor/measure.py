@@ -324,6 +324,7 @@ def measure_book(
         notes=tuple(notes),
         status=status,
         volume_rule=volume_rule,
+        rows=sum(m.rows for m in book.months),
         calibration_test="two-sided" if two_sided else "one-sided",
     )
 

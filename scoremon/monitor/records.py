@@ -10,6 +10,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from datetime import date
 
+from ..version import VERSION
+
 MATURE, IMMATURE = "mature", "immature"
 FAMILIES = ("stability", "data_quality", "calibration", "discrimination")
 
@@ -171,6 +173,8 @@ class MonitorReport:
     notes: tuple[str, ...] = field(default_factory=tuple)
     status: str | None = None
     volume_rule: str = ""  # what each month's volume is judged against, in words
+    rows: int = 0  # rows of the book in the reported months
+    scoremon_version: str = VERSION
     calibration_test: str = "one-sided"  # or "two-sided": the Jeffreys and binomial p-values
 
     @property

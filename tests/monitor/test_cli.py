@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import json
+from importlib.metadata import version
 
 import pytest
 
@@ -171,3 +172,12 @@ def test_the_calibration_test_says_its_sides_and_volume_its_rule(quiet, tmp_path
     monitor(quiet, spec, "--two-sided", "--expected-rows", "development")
     out = capsys.readouterr().out
     assert "tests two-sided" in out and "volume against the development rows per month (300)" in out
+
+
+def test_the_json_carries_scoremon_version_and_the_row_count(quiet, tmp_path, capsys):
+    spec = baseline_spec(quiet, tmp_path, capsys)
+    json_path = tmp_path / "run.json"
+    monitor(quiet, spec, "--json", str(json_path))
+    data = json.loads(json_path.read_text())
+    assert data["scoremon_version"] == version("scoremon")  # the distribution's own metadata
+    assert data["rows"] == 12 * 300  # the book: 12 months of 300 rows
