@@ -177,6 +177,7 @@ class ScoreResult:
     model_version: str
     model_fingerprint: str
     grade_counts: dict[str, int] = field(default_factory=dict)
+    pd_source: str = ""  # which PD the rows report, in words (the spec's scaling.pd_from)
 
 
 def score(
@@ -225,7 +226,7 @@ def score(
     seconds = time.perf_counter() - started
     counts = grade_counts(engine, written)
     return ScoreResult(sum(counts.values()), seconds, target, spec.model.name, spec.model.version,
-                       fingerprint(spec), counts)
+                       fingerprint(spec), counts, spec.scaling.reported_pd_words)
 
 
 def grade_counts(engine: Engine, scored: exp.Expression) -> dict[str, int]:

@@ -11,7 +11,9 @@ import math
 
 import pytest
 
+from scoremon.cli import main
 from scoremon.diff import diff_models
+from scoremon.engines import DuckDBEngine
 from scoremon.spec import fingerprint, parse_spec
 from tests.compiler.through_sql import score_columns
 from tests.conftest import FIXTURES
@@ -73,3 +75,15 @@ def test_diff_shows_the_choice():
     changes = diff_models(small("per_bin"), small("per_bin", "log_odds")).changes
     (change,) = [c for c in changes if c.subject == "scaling.pd_from"]
     assert "PD from the exact log-odds (was from the rounded score)" in change.summary
+
+
+def test_score_says_which_pd_the_rows_report(tmp_path, capsys):
+    database = tmp_path / "book.duckdb"
+    engine = DuckDBEngine(str(database))
+    engine.write_rows(["book"], [("age", "DOUBLE"), ("region_code", "VARCHAR"), ("utilisation", "DOUBLE")],
+                      [(30.0, "N1", 0.5)], "loading")
+    engine.close()
+    spec = tmp_path / "rounded.yaml"
+    spec.write_text(SMALL.replace("  rounding: none", "  rounding: per_bin"), encoding="utf-8")
+    assert main(["score", str(spec), "--db", str(database), "--table", "book", "--out-table", "scored"]) == 0
+    assert "; PD from the rounded score" in capsys.readouterr().out
