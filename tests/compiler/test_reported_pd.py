@@ -86,4 +86,4 @@ def test_score_says_which_pd_the_rows_report(tmp_path, capsys):
     spec = tmp_path / "rounded.yaml"
     spec.write_text(SMALL.replace("  rounding: none", "  rounding: per_bin"), encoding="utf-8")
     assert main(["score", str(spec), "--db", str(database), "--table", "book", "--out-table", "scored"]) == 0
-    assert "; PD from the rounded score" in capsys.readouterr().out
+    assert "pd: PD from the rounded score (the spec's scaling.pd_from)" in capsys.readouterr().out.splitlines()
