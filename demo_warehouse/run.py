@@ -19,7 +19,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Callable
 
-from scoremon import api
+from scoremon import api, files
 from scoremon.api import ScoreResult
 from scoremon.errors import InputError
 from scoremon.monitor.history import METRICS_TABLE, RUNS_TABLE
@@ -103,7 +103,7 @@ def score_book(run: DemoRun) -> StepOutcome:
     try:
         with terminal.progress_bar("scoring the book") as progress:
             run.scored = api.score(run.spec, engine, api.source_relation(table=generate.APPLICATIONS),
-                                   keys=SCORED_KEYS, out_table=SCORED, progress=progress)
+                                   keys=SCORED_KEYS, out_table=SCORED, progress=progress, replace=True)
     finally:
         engine.close()
     run.tables.append(SCORED)
@@ -122,13 +122,14 @@ def monitor_book(run: DemoRun) -> StepOutcome:
         baseline = api.measure_development(run.spec, engine, api.source_relation(table=generate.DEVELOPMENT),
                                            generate.OUTCOME_COLUMN, generate.MONTH_COLUMN,
                                            f"table {generate.DEVELOPMENT}")
-        spec_path = api.write_spec_with_baseline(run.spec_path, baseline, run.folder / BASELINE_SPEC_FILE)
+        spec_path = api.write_spec_with_baseline(run.spec_path, baseline, run.folder / BASELINE_SPEC_FILE,
+                                                replace=True)
         report = api.monitor(api.load_spec(spec_path), engine, generate.APPLICATIONS, generate.MONTH_COLUMN,
                              generate.AS_OF, generate.OUTCOME_COLUMN)
     finally:
         engine.close()
     figures = run.folder / MONITOR_JSON_FILE
-    figures.write_text(to_json(report) + "\n", encoding="utf-8")
+    files.write_text(figures, to_json(report) + "\n")
     run.tables += [RUNS_TABLE, METRICS_TABLE]
     mature = sum(1 for m in report.months if m.maturity == "mature")
     flagged = "; ".join(f"{words} {_month_ranges(report, family)}" for words, family in (
@@ -171,7 +172,7 @@ def diff_versions(run: DemoRun) -> StepOutcome:
         engine.close()
     report = api.DiffReport(diff, impact, datetime.now(timezone.utc).isoformat(timespec="seconds"))
     audit = run.folder / DIFF_AUDIT_FILE
-    audit.write_text(diff_markdown(report) + "\n", encoding="utf-8")
+    files.write_text(audit, diff_markdown(report) + "\n")
     cells = {cell.name: cell for cell in impact.swap_set.cells}
     return StepOutcome((
         f"version {diff.old.version} → {diff.new.version}: {len(diff.changes)} changes, class "

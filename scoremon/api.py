@@ -9,11 +9,9 @@ True
 """
 from __future__ import annotations
 
-import os
 import re
-from difflib import get_close_matches
 import time
-import uuid
+from difflib import get_close_matches
 from dataclasses import dataclass, field
 from datetime import date
 from pathlib import Path
@@ -21,12 +19,13 @@ from typing import Sequence
 
 from sqlglot import exp
 
+from . import files, outputs
 from .compiler import compile_model, identifier, output_columns
 from .dialects import comment_line, render_sql
 from .diff import DiffReport, Impact, ModelDiff, diff_models, impact_query, summarise_impact
 from .diff.impact import check_outcome_type
 from .engines import DuckDBEngine, Engine, Progress, open_engine
-from .errors import InputError
+from .errors import EngineError, InputError
 from .exact import exact_columns
 from .version import VERSION
 from .monitor import (
@@ -44,6 +43,7 @@ from .monitor import (
     spec_text_with_baseline,
     write_history,
 )
+from .monitor.baseline import small_baseline_warning
 from .monitor.measure import monitored_relation
 from .monitor.queries import fingerprints_pass, is_scored, months_in
 
@@ -189,12 +189,17 @@ def score(
     out_file: str | Path | None = None,
     progress: Progress | None = None,
     reason_text: bool = False,
+    replace: bool = False,
+    allow_empty: bool = False,
 ) -> ScoreResult:
     """Score every row of ``source`` inside ``engine`` and write the result atomically.
 
     Exactly one of ``out_table`` (a table in the engine's database, replaced whole) and
-    ``out_file`` (a Parquet file, replaced whole) is given. The input's columns are checked
-    against the spec before any work starts; :class:`InputError` lists every misfit.
+    ``out_file`` (a ``.parquet`` or ``.csv`` file, replaced whole) is given. Before any work
+    starts, :class:`InputError` refuses: an output that exists unless ``replace``, an output
+    that is the input or a monitoring history table (:mod:`scoremon.outputs`), an input
+    without rows unless ``allow_empty``, and input columns that do not fit the spec (every
+    misfit listed).
     ``reason_text`` puts each reason's statement text beside its code (``reason_k_text``).
     """
     if (out_table is None) == (out_file is None):
@@ -202,11 +207,28 @@ def score(
     if not isinstance(source, exp.Table) and not isinstance(engine, DuckDBEngine):
         raise InputError(f"reading a Parquet or CSV file needs the DuckDB engine, not {engine.dialect}; "
                          "load the file into a table in that engine and score the table")
+    if out_file is not None:
+        if not isinstance(engine, DuckDBEngine):
+            raise InputError("writing a Parquet or CSV file needs the DuckDB engine; write a table instead")
+        file_format = outputs.file_format(out_file)
+        outputs.refuse_file(out_file, "--out", [("the input file", _source_file(source))])
+        files.check_output(out_file, "--out", replace)
+    else:
+        input_table = None
+        if isinstance(source, exp.Table):
+            input_table = ".".join(part.name for part in (source.args.get("db"), source.this) if part)
+        outputs.refuse_table(out_table, "--out-table", engine.dialect, input_table)
+        if not replace and _table_exists(engine, out_table):
+            raise InputError(f"--out-table {out_table} exists; give --replace to replace it, or choose another name")
     columns = describe_source(engine, source, spec_columns(spec) + list(keys))
     problems = check_columns(spec, columns, keys)
     if problems:
         raise InputError("the input does not fit the spec:\n" + "\n".join(f"  - {p}" for p in problems))
     output_columns(spec, keys, reason_text)  # a key colliding with an output column is an input error, found now
+    if not allow_empty and not engine.fetch(render_sql(exp.select(exp.Literal.number(1)).from_(source.copy()).limit(1),
+                                                       engine.dialect, pretty=False), "looking for a first input row"):
+        raise InputError("the input holds no rows; scoring it would write an empty output (replacing any "
+                         "previous one); give --allow-empty to write it anyway")
     floats = [name for name, kind in columns.items() if FLOAT_TYPE.match(kind)]
     scoring = compile_model(spec, source, keys, floats, exact_columns(columns), reason_text)
     started = time.perf_counter()
@@ -217,16 +239,31 @@ def score(
         written = exp.Table(this=identifier(parts[-1]), db=identifier(parts[0]) if len(parts) == 2 else None)
         target = out_table
     else:
-        if not isinstance(engine, DuckDBEngine):
-            raise InputError("writing a Parquet file needs the DuckDB engine; write a table instead")
-        engine.write_parquet(render_sql(scoring, engine.dialect, pretty=False, for_parquet=True), out_file,
-                             "writing the scored Parquet file", progress)
+        engine.write_file(render_sql(scoring, engine.dialect, pretty=False, for_parquet=file_format == "parquet"),
+                          out_file, f"writing the scored {'Parquet' if file_format == 'parquet' else 'CSV'} file",
+                          progress, file_format)
         written = source_relation(file=out_file)
         target = str(out_file)
     seconds = time.perf_counter() - started
     counts = grade_counts(engine, written)
     return ScoreResult(sum(counts.values()), seconds, target, spec.model.name, spec.model.version,
                        fingerprint(spec), counts, spec.scaling.reported_pd_words)
+
+
+def _source_file(source: exp.Expression) -> str | None:
+    """The file a :func:`source_relation` over a file reads, or None for a table."""
+    if isinstance(source, exp.Anonymous) and source.expressions and isinstance(source.expressions[0], exp.Literal):
+        return source.expressions[0].this
+    return None
+
+
+def _table_exists(engine: Engine, name: str) -> bool:
+    # describing a missing table is the one portable question every engine answers (with an error)
+    try:
+        describe_source(engine, source_relation(table=name))
+    except EngineError:
+        return False
+    return True
 
 
 def grade_counts(engine: Engine, scored: exp.Expression) -> dict[str, int]:
@@ -327,32 +364,26 @@ def measure_development(spec: Spec, engine: Engine, source: exp.Expression, outc
         return measure_baseline(engine, spec, rows, relation, None, computed_from)
 
 
-def write_spec_with_baseline(spec_path: str | Path, baseline: Baseline, out_path: str | Path) -> Path:
+def write_spec_with_baseline(spec_path: str | Path, baseline: Baseline, out_path: str | Path,
+                             replace: bool = False) -> Path:
     """Write a copy of the spec at ``spec_path`` with ``baseline`` as its baseline section to ``out_path``.
 
-    Every other line is kept as written. The file appears whole or not at all. Raises
-    :class:`InputError` when ``out_path`` is the spec itself (a spec is never overwritten in
-    place) or its folder does not exist.
+    Every other line is kept as written. The file appears whole or not at all
+    (:mod:`scoremon.files`). Raises :class:`InputError` when ``out_path`` is the spec itself
+    (a spec is never overwritten in place), when its folder does not exist, or when it exists
+    and ``replace`` is false.
     """
     spec_path, out_path = Path(spec_path), Path(out_path)
-    if out_path.exists() and out_path.resolve() == spec_path.resolve():
+    if outputs.is_same_file(out_path, spec_path):
         raise InputError(f"--out {out_path} is the spec itself; a spec is never overwritten in place, "
                          "give a new file name (e.g. one with the version in it)")
-    if not out_path.parent.exists():
-        raise InputError(f"{out_path}: folder {out_path.parent} does not exist; create it or choose another path")
+    files.check_output(out_path, "--out", replace)
     original = spec_path.read_text(encoding="utf-8")
     text = spec_text_with_baseline(original, baseline)
     written = parse_spec(text, file=str(out_path))
     if fingerprint(written) != fingerprint(parse_spec(original, file=str(spec_path))):
         raise RuntimeError("writing the baseline changed the model's fingerprint")  # a bug, never an input error
-    temporary = out_path.with_name(f".{out_path.name}.{uuid.uuid4().hex}.partial")
-    try:
-        temporary.write_text(text, encoding="utf-8")
-        os.replace(temporary, out_path)
-    finally:
-        if temporary.exists():
-            temporary.unlink()
-    return out_path
+    return files.write_text(out_path, text)
 
 
 def monitor(
@@ -406,6 +437,9 @@ def monitor(
         else:
             baseline = spec.baseline
             baseline_source = f"the spec's baseline ({baseline.computed_from or 'source not recorded'})"
+        warning = small_baseline_warning(baseline.rows)
+        if warning:
+            notes.append(warning.removeprefix("warning: "))
         report = measure_book(engine, spec, rows, relation, book, as_of=as_of, month_column=month_column,
                               baseline=baseline, baseline_source=baseline_source, thresholds=thresholds,
                               source=f"table {table}", notes=notes, fingerprint=fingerprint(spec),

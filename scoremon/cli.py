@@ -1,21 +1,28 @@
 """The command line: arguments, calls into :mod:`scoremon.api`, printing, exit codes.
 
 Exit codes: 0 success; 1 the run found what it looks for (an alert, a difference);
-2 invalid input (a spec, a table, a column, an option), with one line per problem.
+2 invalid input (a spec, a table, a column, an option), with one line per problem;
+3 an internal error (a bug in scoremon: one line, the full trace written to a file);
+130 interrupted (Ctrl-C), nothing written.
 """
 from __future__ import annotations
 
 import argparse
 import sys
-from datetime import datetime, timezone
+import tempfile
+import traceback
+from datetime import date, datetime, timezone
 from pathlib import Path
 
-from . import api
+from . import api, files, outputs
 from .bench import BenchSettings, run_bench
 from .bench.engines import EngineBenchSettings, run_engine_bench
 from .dialects import DIALECTS, dialects_help
 from .engines import ENGINE_URLS
-from .errors import InputError, ScoremonError, SpecError
+from .engines.urls import redact
+from .errors import InputError, ScoremonError, SpecError, cut
+from .monitor.baseline import small_baseline_warning
+from .monitor.months import out_of_range_note
 from .report import terminal
 from .report.json import to_json
 from .report.markdown import diff_markdown
@@ -26,7 +33,7 @@ from .report.terminal import score as score_view
 from .spec import fingerprint
 from .spec.schema import schema_text
 
-EXIT_OK, EXIT_FOUND, EXIT_INVALID = 0, 1, 2
+EXIT_OK, EXIT_FOUND, EXIT_INVALID, EXIT_INTERNAL, EXIT_INTERRUPTED = 0, 1, 2, 3, 130
 
 
 def _check(args) -> int:
@@ -36,10 +43,11 @@ def _check(args) -> int:
 
 
 def _compile(args) -> int:
+    out = _file_output(args.out, "--out", args.replace, [("the spec", args.spec)])
     spec = api.load_spec(args.spec)
     sql = api.compile_sql(spec, args.dialect, args.table, args.key or ())
-    if args.out:
-        Path(args.out).write_text(sql + ";\n", encoding="utf-8")
+    if out:
+        files.write_text(out, sql + ";\n")
         terminal.print_text(f"wrote {args.out}")
     else:
         terminal.print_text(sql + ";")
@@ -47,15 +55,22 @@ def _compile(args) -> int:
 
 
 def _score(args) -> int:
-    spec = api.load_spec(args.spec)
     if (args.out_table is None) == (args.out is None):
-        raise InputError("give --out-table NAME (a table in --db) or --out FILE.parquet, one of the two")
+        raise InputError("give --out-table NAME (a table in --db) or --out FILE.parquet (or .csv), one of the two")
+    if args.out is not None:
+        outputs.file_format(args.out)
+        _file_output(args.out, "--out", args.replace, [("the spec", args.spec), ("the input file", args.input),
+                                                         *outputs.kept_database(args.db)])
+    spec = api.load_spec(args.spec)
+    source = api.source_relation(table=args.table, file=args.input)
+    if args.input is None or args.out_table is None:  # only writing a table may start a new database
+        outputs.require_database_file(args.db)
     engine = api.open_engine(args.db, threads=args.threads)
     try:
-        source = api.source_relation(table=args.table, file=args.input)
         with terminal.progress_bar("scoring") as progress:
             result = api.score(spec, engine, source, args.key or (), args.out_table, args.out, progress,
-                               reason_text=args.reason_text)
+                               reason_text=args.reason_text, replace=args.replace,
+                               allow_empty=args.allow_empty)
     finally:
         engine.close()
     score_view.print_score_result(result)
@@ -64,8 +79,9 @@ def _score(args) -> int:
 
 
 def _schema(args) -> int:
-    if args.out:
-        Path(args.out).write_text(schema_text(), encoding="utf-8")
+    out = _file_output(args.out, "--out", args.replace, [])
+    if out:
+        files.write_text(out, schema_text())
         terminal.print_text(f"wrote {args.out}")
     else:
         terminal.print_text(schema_text())
@@ -85,13 +101,12 @@ def _load_both(old_path: str, new_path: str):
     return specs
 
 
-def _writable(path: str | None) -> Path | None:
+def _file_output(path: str | None, option: str, replace: bool, kept) -> Path | None:
+    """``path`` once it is known that writing there destroys nothing (see :mod:`scoremon.outputs`)."""
     if path is None:
         return None
-    target = Path(path)
-    if not target.parent.exists():
-        raise InputError(f"{target}: folder {target.parent} does not exist; create it or choose another path")
-    return target
+    outputs.refuse_file(path, option, kept)
+    return files.check_output(path, option, replace)
 
 
 def _diff(args) -> int:
@@ -103,15 +118,19 @@ def _diff(args) -> int:
             raise InputError(f"{', '.join(given)} describe the population; also give --table (with --db) or --input")
     if args.table is not None and args.db is None:
         raise InputError("--table names a table in a database; give the database with --db (or use --input FILE)")
-    json_file, markdown_file = _writable(args.json), _writable(args.markdown)
+    kept = [("the old spec", args.old), ("the new spec", args.new), ("the input file", args.input),
+            *outputs.kept_database(args.db)]
+    json_file = _file_output(args.json, "--json", args.replace, kept)
+    markdown_file = _file_output(args.markdown, "--markdown", args.replace, kept)
     old, new = _load_both(args.old, args.new)
     diff = api.diff_models(old, new, args.old, args.new)
     impact = None
     if population:
+        outputs.require_database_file(args.db)
         engine = api.open_engine(args.db)
         try:
             source = api.source_relation(table=args.table, file=args.input)
-            where = f"table {args.table} in {args.db}" if args.table is not None else f"file {args.input}"
+            where = f"table {args.table} in {redact(args.db)}" if args.table is not None else f"file {args.input}"
             with terminal.progress_bar("scoring both versions") as progress:
                 impact = api.measure_impact(old, new, engine, source, where, args.outcome, args.cutoff,
                                             args.new_cutoff, progress)
@@ -121,7 +140,7 @@ def _diff(args) -> int:
     diff_view.print_diff(report)
     for target, text in ((json_file, lambda: to_json(report)), (markdown_file, lambda: diff_markdown(report))):
         if target is not None:
-            target.write_text(text() + "\n", encoding="utf-8")
+            files.write_text(target, text() + "\n")
             terminal.print_text(f"wrote {target}")
     return EXIT_OK if diff.is_equivalent else EXIT_FOUND
 
@@ -140,10 +159,12 @@ def _bench(args) -> int:
 
 
 def _baseline(args) -> int:
+    if outputs.is_same_file(args.out, args.spec):
+        raise InputError(f"--out {args.out} is the spec itself; a spec is never overwritten in place, give a new "
+                         "file name")
+    out = _file_output(args.out, "--out", args.replace, outputs.kept_database(args.db))
     spec = api.load_spec(args.spec)
-    out = Path(args.out)
-    if out.exists() and out.resolve() == Path(args.spec).resolve():
-        raise InputError(f"--out {out} is the spec itself; a spec is never overwritten in place, give a new file name")
+    outputs.require_database_file(args.db)
     engine = api.open_engine(args.db)
     try:
         source = api.source_relation(table=args.table)
@@ -151,8 +172,13 @@ def _baseline(args) -> int:
                                            computed_from=f"table {args.table}")
     finally:
         engine.close()
-    written = api.write_spec_with_baseline(args.spec, baseline, out)
+    written = api.write_spec_with_baseline(args.spec, baseline, out, replace=args.replace)
     monitor_view.print_baseline_written(str(written), baseline, fingerprint(spec))
+    warning = small_baseline_warning(baseline.rows)
+    if warning:
+        terminal.print_problems([warning])
+    if baseline.rows_out_of_range:
+        terminal.print_problems([f"note: {out_of_range_note(baseline.rows_out_of_range, date.today())}"])
     return EXIT_OK
 
 
@@ -166,7 +192,10 @@ def _monitor(args) -> int:
         months = (api.parse_month(first, "--baseline-months start"), api.parse_month(last or first, "--baseline-months end"))
         if months[1] < months[0]:
             raise InputError(f"--baseline-months {args.baseline_months}: the end comes before the start")
-    json_file = _writable(args.json)
+    json_file = _file_output(args.json, "--json", args.replace, [("the spec", args.spec),
+                                                                 ("the thresholds file", args.thresholds),
+                                                                 *outputs.kept_database(args.db)])
+    outputs.require_database_file(args.db)
     engine = api.open_engine(args.db)
     try:
         report = api.monitor(spec, engine, args.table, args.month_column, as_of, args.outcome, thresholds,
@@ -176,7 +205,7 @@ def _monitor(args) -> int:
         engine.close()
     monitor_view.print_monitor_report(report, history_written=not args.no_history)
     if json_file is not None:
-        json_file.write_text(to_json(report) + "\n", encoding="utf-8")
+        files.write_text(json_file, to_json(report) + "\n")
         terminal.print_text(f"wrote {json_file}")
     return EXIT_FOUND if report.has_alert else EXIT_OK
 
@@ -211,7 +240,8 @@ def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="scoremon",
         description="Keep a logistic-regression scoring model as a YAML spec, score with SQL, monitor it.",
-        epilog="exit codes: 0 ok; 1 something found (alert, difference); 2 invalid input",
+        epilog="exit codes: 0 ok; 1 something found (alert, difference); 2 invalid input; "
+               "3 internal error (a bug; the trace goes to a file); 130 interrupted",
     )
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
@@ -226,6 +256,7 @@ def build_parser() -> argparse.ArgumentParser:
     compile_.add_argument("--table", default="input", help="table the SQL reads (default: input)")
     compile_.add_argument("--key", action="append", help="a column passed through to the output (repeatable)")
     compile_.add_argument("--out", help="write the SQL to this file instead of printing it")
+    compile_.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
     compile_.set_defaults(run=_compile)
 
     score = commands.add_parser("score", help="score a table (DuckDB, PostgreSQL or Spark) or a Parquet/CSV file (DuckDB)")
@@ -235,8 +266,11 @@ def build_parser() -> argparse.ArgumentParser:
     source.add_argument("--table", help="table in --db to score (NAME or SCHEMA.NAME)")
     source.add_argument("--input", help="Parquet or CSV file to score")
     score.add_argument("--key", action="append", help="a column passed through to the output (repeatable)")
-    score.add_argument("--out-table", help="write the scores to this table in --db (replaced whole)")
-    score.add_argument("--out", help="write the scores to this Parquet file (replaced whole)")
+    score.add_argument("--out-table", help="write the scores to this table in --db (written whole, atomically)")
+    score.add_argument("--out", help="write the scores to this file: FILE.parquet (Parquet) or FILE.csv (CSV)")
+    score.add_argument("--replace", action="store_true", help="replace --out-table or --out when it exists (without it, an existing output is an error)")
+    score.add_argument("--allow-empty", action="store_true",
+                       help="write the output even when the input holds no rows (refused without it)")
     score.add_argument("--reason-text", action="store_true",
                        help="put each reason's statement text beside its code (reason_1_text, …), e.g. for letters")
     score.add_argument("--threads", type=int, default=None,
@@ -245,6 +279,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     schema = commands.add_parser("schema", help="print the spec's JSON Schema (for editors)")
     schema.add_argument("--out", help="write it to this file")
+    schema.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
     schema.set_defaults(run=_schema)
 
     diff = commands.add_parser(
@@ -254,7 +289,8 @@ def build_parser() -> argparse.ArgumentParser:
                     "under both versions in one query and show the score and PD change, the grade migration, "
                     "the swap set at a cut-off and how often the first reason changes.",
         epilog="exit codes: 0 the specs are the same model (equal fingerprints); 1 they differ; "
-               "2 invalid input (a spec, a table, a column, an option), one line per problem",
+               "2 invalid input (a spec, a table, a column, an option), one line per problem; 3 internal error "
+               "(a bug in scoremon, never a difference); 130 interrupted",
     )
     diff.add_argument("old", help="the old version's spec file (YAML)")
     diff.add_argument("new", help="the new version's spec file (YAML)")
@@ -268,6 +304,7 @@ def build_parser() -> argparse.ArgumentParser:
                       help="the new version's cut-off when it differs from --cutoff (e.g. after a rescaling)")
     diff.add_argument("--json", metavar="FILE", help="also write the result as JSON to FILE")
     diff.add_argument("--markdown", metavar="FILE", help="also write an audit document (Markdown) to FILE")
+    diff.add_argument("--replace", action="store_true", help="replace --json and --markdown files when it exists (without it, an existing output is an error)")
     diff.set_defaults(run=_diff)
 
     bench = commands.add_parser(
@@ -275,7 +312,7 @@ def build_parser() -> argparse.ArgumentParser:
         description="Generate synthetic rows for a scorecard of realistic shape in DuckDB, then time compiled "
                     "scoring against a bare scan, a hand-written CASE chain, an export to numpy and a Parquet "
                     "copy, in alternating rounds of one run, and measure a fresh process's peak memory.",
-        epilog="exit codes: 0 every goal met; 1 a goal missed; 2 invalid input",
+        epilog="exit codes: 0 every goal met; 1 a goal missed; 2 invalid input; 3 internal error; 130 interrupted",
     )
     bench.add_argument("--rows", type=int, default=10_000_000, help="rows to score (default 10,000,000)")
     bench.add_argument("--repeat", type=int, default=5, help="timed rounds per comparison (default 5)")
@@ -299,7 +336,7 @@ def build_parser() -> argparse.ArgumentParser:
                     "development score's deciles) and per feature bin, volume, mean score and points, "
                     "unseen-category rates, and with an outcome the event rate, AUC and KS. Writes a copy of "
                     "the spec with the baseline section filled; the spec itself is never overwritten.",
-        epilog="exit codes: 0 written; 2 invalid input, one line per problem",
+        epilog="exit codes: 0 written; 2 invalid input, one line per problem; 3 internal error; 130 interrupted",
     )
     baseline.add_argument("spec", help="the spec file (YAML)")
     baseline.add_argument("--db", required=True, help="engine URL holding --table: a DuckDB file, postgresql://… or spark://…")
@@ -307,6 +344,7 @@ def build_parser() -> argparse.ArgumentParser:
     baseline.add_argument("--outcome", help="0/1 outcome column (NULL: not known), for event rate, AUC and KS")
     baseline.add_argument("--month-column", help="month column, for the development rows per month")
     baseline.add_argument("--out", required=True, metavar="NEW_SPEC", help="the new spec file to write")
+    baseline.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
     baseline.set_defaults(run=_baseline)
 
     monitor = commands.add_parser(
@@ -316,7 +354,8 @@ def build_parser() -> argparse.ArgumentParser:
                     "on mature months calibration (Jeffreys, binomial, grade chi-square, Spiegelhalter, Brier) "
                     "and discrimination (AUC, Gini, KS). The table may be scored already or raw (scored on the "
                     "fly). Every run is appended to the history tables in the same database.",
-        epilog="exit codes: 0 nothing on alert; 1 something on alert; 2 invalid input, one line per problem",
+        epilog="exit codes: 0 nothing on alert; 1 something on alert; 2 invalid input, one line per problem; "
+               "3 internal error (a bug in scoremon, never an alert); 130 interrupted, nothing written",
     )
     monitor.add_argument("spec", help="the spec file (YAML) with a baseline section, unless one is given below")
     monitor.add_argument("--db", required=True, help="engine URL holding --table (the history goes there): a DuckDB file, "
@@ -343,6 +382,7 @@ def build_parser() -> argparse.ArgumentParser:
                          help="calibration tests both ways (default one-sided: only more events than the PD "
                               "predicts is flagged, so an over-estimating model reads ok)")
     monitor.add_argument("--json", metavar="FILE", help="also write every figure as JSON to FILE")
+    monitor.add_argument("--replace", action="store_true", help="replace --json when it exists (without it, an existing output is an error)")
     monitor.add_argument("--no-history", action="store_true",
                          help="do not append this run to the history tables (e.g. a trial run, or an engine "
                               "without transactions)")
@@ -368,7 +408,21 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_INVALID
     except KeyboardInterrupt:
         terminal.print_problems(["interrupted; nothing was written"])
-        return 130
+        return EXIT_INTERRUPTED
+    except Exception as error:  # noqa: BLE001 - a bug: one line for the user, the trace for the report
+        trace = _write_trace()
+        terminal.print_problems([f"internal error (a bug in scoremon): {type(error).__name__}: "
+                                 f"{cut(str(error).splitlines()[0] if str(error) else '')}; full trace in {trace}; "
+                                 "please report it with that file"])
+        return EXIT_INTERNAL
+
+
+def _write_trace() -> str:
+    """Write the exception being handled, with its trace, to a new file; return the file's path."""
+    with tempfile.NamedTemporaryFile("w", prefix="scoremon-trace-", suffix=".txt", delete=False,
+                                     encoding="utf-8") as handle:
+        handle.write(traceback.format_exc())
+        return handle.name
 
 
 if __name__ == "__main__":

@@ -125,8 +125,29 @@ def by_bin(bin_column: exp.Expression, values: Sequence[exp.Expression]) -> exp.
     return case(((exp.EQ(this=bin_column.copy(), expression=integer(i)), v) for i, v in enumerate(values[:-1])), values[-1])
 
 
+SUM_RUN = 64  # terms a sum adds in one left-to-right run
+
+
 def total(terms: Sequence[exp.Expression]) -> exp.Expression:
-    """a + b + c, evaluated left to right (the order fixes the floating-point result)."""
+    """a + b + c, evaluated left to right (the order fixes the floating-point result).
+
+    A sum of more than :data:`SUM_RUN` terms adds runs of that many left to right, then the
+    runs' totals pairwise, as a balanced tree. A left-to-right chain is as deep as it is long,
+    and engines cap expression depth (DuckDB at 1000 by default): with runs the depth is
+    :data:`SUM_RUN` + log2 of the number of runs, about 70 for 1,200 features. Up to
+    :data:`SUM_RUN` terms, the order (and so the result, to the last bit) is the plain one.
+    """
+    runs = [_chain(terms[start:start + SUM_RUN]) for start in range(0, len(terms), SUM_RUN)]
+    while len(runs) > 1:
+        # parentheses on both sides: without them `(a + b) + (c + d)` renders as a + b + c + d,
+        # which every engine parses back into one long chain
+        paired = [exp.Add(this=exp.paren(a, copy=False), expression=exp.paren(b, copy=False))
+                  for a, b in zip(runs[0::2], runs[1::2])]
+        runs = paired + ([runs[-1]] if len(runs) % 2 else [])
+    return runs[0]
+
+
+def _chain(terms: Sequence[exp.Expression]) -> exp.Expression:
     result = terms[0]
     for term in terms[1:]:
         result = exp.Add(this=result, expression=term)

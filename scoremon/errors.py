@@ -7,10 +7,34 @@ Python exceptions. The hierarchy::
     ├── SpecError                 a spec file is unreadable or invalid; carries every problem
     ├── InputError                a table, file or column does not fit the spec
     └── EngineError               the database refused a query; names the purpose and engine
+
+:func:`cut` is how every message shows a value it quotes: long values are cut, so that one
+hostile value (a number 5,000 digits long) cannot turn a message into a page.
 """
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
+
+
+SHOWN_LENGTH = 80  # characters of a value a message shows
+
+
+def cut(text: str, length: int = SHOWN_LENGTH) -> str:
+    """``text`` itself, or its first ``length`` − 1 characters and "…" when it is longer.
+
+    >>> cut("1" * 100, 10)
+    '111111111…'
+    """
+    return text if len(text) <= length else text[:length - 1] + "…"
+
+
+_LONG_WORD = re.compile(r"\S{%d,}" % (SHOWN_LENGTH + 1))
+
+
+def cut_long_words(text: str) -> str:
+    """``text`` with every run of more than :data:`SHOWN_LENGTH` non-blank characters :func:`cut`."""
+    return _LONG_WORD.sub(lambda match: cut(match.group(0)), text)
 
 
 class ScoremonError(Exception):
@@ -31,8 +55,10 @@ class Problem:
     file: str = "<spec>"
 
     def __str__(self) -> str:
+        # a value quoted in the message (a number 5,000 digits long, a key a page wide) is cut
         where = f"{self.file}:{self.line}:{self.column}"
-        return f"{where}: {self.path}: {self.message}" if self.path else f"{where}: {self.message}"
+        message = cut_long_words(self.message)
+        return f"{where}: {cut(self.path)}: {message}" if self.path else f"{where}: {message}"
 
 
 class SpecError(ScoremonError):

@@ -2,7 +2,8 @@
 -- Generated from scoremon/monitor/history.py; regenerate with
 --   python -m scoremon.monitor.history > sql/monitor_history.sql
 -- Runs only ever add rows. status is ok, watch or alert; value is NULL when a figure
--- cannot be computed (no rows, no events).
+-- cannot be computed (no rows, no events). month is empty for a figure of the whole run
+-- (rows_out_of_range: rows whose month is out of range, left out).
 
 CREATE TABLE IF NOT EXISTS "scoremon_monitor_runs" (
   "run_id" TEXT NOT NULL,

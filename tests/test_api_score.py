@@ -160,7 +160,7 @@ def test_failed_table_write_leaves_the_earlier_table_intact(spec, engine):
     engine.connection.execute("CREATE TABLE scored AS SELECT 'earlier run' AS note, 42 AS answer")
     before = tables(engine)
     with pytest.raises(EngineError) as raised:
-        api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_table="scored")
+        api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_table="scored", replace=True)
     assert "writing the scored table" in str(raised.value)
     assert "not a number" in str(raised.value)  # the driver's conversion error is kept
     assert tables(engine) == before
@@ -173,7 +173,7 @@ def test_failed_parquet_write_leaves_the_earlier_file_intact(spec, engine, tmp_p
     pq.write_table(pa.table({"note": ["earlier run"]}), target)
     earlier = target.read_bytes()
     with pytest.raises(EngineError) as raised:
-        api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_file=target)
+        api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_file=target, replace=True)
     assert "writing the scored Parquet file" in str(raised.value)
     assert target.read_bytes() == earlier
     assert sorted(p.name for p in tmp_path.iterdir()) == ["scored.parquet"]  # no partial file left
@@ -194,8 +194,8 @@ def test_successful_write_replaces_an_earlier_output_whole(spec, engine, sources
     target = tmp_path / "scored.parquet"
     pq.write_table(pa.table({"note": ["earlier run"]}), target)
     engine.connection.execute("CREATE TABLE scored AS SELECT 'earlier run' AS note")
-    api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_file=target)
-    api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_table="scored")
+    api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_file=target, replace=True)
+    api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_table="scored", replace=True)
     for where in ({"file": target}, {"table": "scored"}):
         names, rows = read_output(engine, where)
         assert names == expected_output_names(spec, KEYS)

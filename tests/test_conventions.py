@@ -179,7 +179,7 @@ def test_parquet_output_needs_the_duckdb_engine(tmp_path):
         def describe(self, sql, purpose):
             return [("age", "DOUBLE PRECISION"), ("region_code", "TEXT"), ("utilisation", "DOUBLE PRECISION")]
 
-    with pytest.raises(InputError, match="writing a Parquet file needs the DuckDB engine"):
+    with pytest.raises(InputError, match="writing a Parquet or CSV file needs the DuckDB engine"):
         api.score(parse_spec(SMALL), Other(), api.source_relation(table="book"), out_file=tmp_path / "x.parquet")
 
 

@@ -1,11 +1,10 @@
 """DuckDB, embedded: a database file or memory, with Parquet/CSV read in place.
 
-Implements the :class:`~scoremon.engines.Engine` protocol, plus :meth:`DuckDBEngine.write_parquet`
-and a progress watcher (DuckDB reports the running query's progress to a second thread).
+Implements the :class:`~scoremon.engines.Engine` protocol, plus :meth:`DuckDBEngine.write_file`
+(Parquet or CSV, written atomically through :mod:`scoremon.files`) and a progress watcher (DuckDB reports the running query's progress to a second thread).
 """
 from __future__ import annotations
 
-import os
 import threading
 import uuid
 from pathlib import Path
@@ -16,6 +15,7 @@ import pandas as pd
 
 from ..dialects import render_table
 from ..errors import EngineError, InputError
+from ..files import atomic_output
 from .protocol import ColumnSpec, Progress
 from .rows import arrow_table
 
@@ -67,31 +67,12 @@ class DuckDBEngine:
         """Replace ``table`` with the result of ``sql`` in one transaction: all or nothing."""
         statement = f"CREATE OR REPLACE TABLE {render_table(table, self.dialect)} AS {sql}"
 
-        def work():
-            self.connection.execute("BEGIN TRANSACTION")
-            try:
-                self.connection.execute(statement)
-                self.connection.execute("COMMIT")
-            except BaseException:
-                self.connection.execute("ROLLBACK")
-                raise
-
-        self._run(work, purpose, progress)
+        self._run(lambda: self._in_transaction([statement]), purpose, progress)
 
     def execute_atomically(self, statements: Sequence[str], purpose: str) -> None:
         """Run ``statements`` in one transaction: all take effect, or (on any error) none."""
 
-        def work():
-            self.connection.execute("BEGIN TRANSACTION")
-            try:
-                for statement in statements:
-                    self.connection.execute(statement)
-                self.connection.execute("COMMIT")
-            except BaseException:
-                self.connection.execute("ROLLBACK")
-                raise
-
-        self._run(work, purpose)
+        self._run(lambda: self._in_transaction(statements), purpose)
 
     def write_rows(self, table: list[str], columns: Sequence[ColumnSpec], rows: Sequence[Sequence[Any]],
                    purpose: str) -> None:
@@ -106,22 +87,41 @@ class DuckDBEngine:
 
     def write_parquet(self, sql: str, path: str | Path, purpose: str, progress: Progress | None = None) -> None:
         """Write the result of ``sql`` to a Parquet file; the file appears whole or not at all."""
+        self.write_file(sql, path, purpose, progress, "parquet")
+
+    def write_file(self, sql: str, path: str | Path, purpose: str, progress: Progress | None = None,
+                   file_format: str = "parquet") -> None:
+        """Write the result of ``sql`` to a ``parquet`` or ``csv`` (with a header) file, through
+        :func:`scoremon.files.atomic_output`: the file appears whole or not at all."""
+        options = {"parquet": "FORMAT PARQUET", "csv": "FORMAT CSV, HEADER"}.get(file_format)
+        if options is None:
+            raise InputError(f"cannot write {file_format!r} files; write parquet or csv")
         path = Path(path)
         if not path.parent.exists():
             raise InputError(f"{path}: folder {path.parent} does not exist; create it or choose another path")
-        temporary = path.with_name(f".{path.name}.{uuid.uuid4().hex}.partial")
-        literal = "'" + str(temporary).replace("'", "''") + "'"
-        try:
-            self._run(lambda: self.connection.execute(f"COPY ({sql}) TO {literal} (FORMAT PARQUET)"), purpose, progress)
-            os.replace(temporary, path)
-        finally:
-            if temporary.exists():
-                temporary.unlink()
+        with atomic_output(path) as partial:
+            literal = "'" + str(partial).replace("'", "''") + "'"
+            self._run(lambda: self.connection.execute(f"COPY ({sql}) TO {literal} ({options})"), purpose, progress)
 
     def close(self) -> None:
         self.connection.close()
 
     # -- helpers
+
+    def _in_transaction(self, statements: Sequence[str]) -> None:
+        self.connection.execute("BEGIN TRANSACTION")
+        try:
+            for statement in statements:
+                self.connection.execute(statement)
+            self.connection.execute("COMMIT")
+        except BaseException:
+            try:
+                self.connection.execute("ROLLBACK")
+            except self._duckdb.Error:
+                # a COMMIT that failed (a full disk) has already ended the transaction, and the
+                # ROLLBACK's "no transaction is active" would hide the first cause: show that one
+                pass
+            raise
 
     def _run(self, work, purpose: str, progress: Progress | None = None):
         watcher = _ProgressWatcher(self.connection, progress) if progress else None
@@ -131,6 +131,12 @@ class DuckDBEngine:
             return work()
         except self._duckdb.Error as error:
             raise EngineError(purpose, "duckdb", str(error).splitlines()[0]) from error
+        except RuntimeError as error:
+            # DuckDB swallows the KeyboardInterrupt of a Ctrl-C that stops a running query and
+            # raises RuntimeError("Query interrupted") instead: give the interrupt back
+            if str(error).strip() == "Query interrupted":
+                raise KeyboardInterrupt from error
+            raise
         finally:
             if watcher:
                 watcher.stop()

@@ -8,7 +8,6 @@ the old table to the moment of the swap, so readers are not blocked while scorin
 """
 from __future__ import annotations
 
-import re
 import uuid
 from decimal import Decimal
 from typing import Any, Sequence
@@ -18,15 +17,9 @@ import pandas as pd
 from ..dialects import render_name, render_table, render_type
 from ..errors import EngineError, InputError
 from .protocol import ColumnSpec, Progress
+from .urls import redact
 
 INTERNAL = "__scoremon_"  # prefix of the names scoremon gives its own scratch tables
-_PASSWORD_IN_URL = re.compile(r"(://[^:/@]+:)[^@]*(@)")
-_PASSWORD_PARAMETER = re.compile(r"(password=)[^&\s]*", re.I)
-
-
-def redact(url: str) -> str:
-    """``url`` with any password replaced by ``***``, for messages."""
-    return _PASSWORD_PARAMETER.sub(r"\1***", _PASSWORD_IN_URL.sub(r"\1***\2", url))
 
 
 class PostgresEngine:

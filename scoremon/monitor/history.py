@@ -4,7 +4,9 @@
                               fingerprint, the as-of date, what was monitored against what,
                               the thresholds used (as JSON text), the run's status;
 ``scoremon_monitor_metrics``  one row per figure: run id, month, family, metric, subject
-                              (a feature, a grade, a score band, or empty), value, status.
+                              (a feature, a grade, a score band, or empty), value, status;
+                              a figure of the whole run (``rows_out_of_range``) has an
+                              empty month.
 
 A run only ever adds rows: re-running a month adds a run and leaves earlier runs alone. The
 tables are created if missing and the rows inserted in one transaction
@@ -92,7 +94,8 @@ def history_ddl_text(dialect: str = "duckdb") -> str:
               "-- Generated from scoremon/monitor/history.py; regenerate with\n"
               "--   python -m scoremon.monitor.history > sql/monitor_history.sql\n"
               "-- Runs only ever add rows. status is ok, watch or alert; value is NULL when a figure\n"
-              "-- cannot be computed (no rows, no events).\n")
+              "-- cannot be computed (no rows, no events). month is empty for a figure of the whole run\n"
+              "-- (rows_out_of_range: rows whose month is out of range, left out).\n")
     return header + "\n" + "\n\n".join(render_sql(s, dialect) + ";" for s in create_statements()) + "\n"
 
 
@@ -110,6 +113,9 @@ def _value(value) -> exp.Expression:
 def metric_rows(report: MonitorReport) -> list[MetricRow]:
     """Every figure of ``report`` that the history keeps, month by month."""
     rows: list[MetricRow] = []
+    if report.rows_out_of_range:
+        # a figure of the whole run, not of a month: its month is empty
+        rows.append(MetricRow("", "data_quality", "rows_out_of_range", "", report.rows_out_of_range))
     for m in report.months:
         def add(family: str, metric: str, value, status: str | None = None, subject: str = "") -> None:
             if value is not None or status is not None:

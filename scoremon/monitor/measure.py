@@ -1,9 +1,10 @@
 """Measuring a book month by month: run the grouped passes, compute the statistics, set statuses.
 
 :func:`read_months` runs the month pass (volume, score and points sums, unseen values) and
-decides which months are reported: every month from the first that has rows to the as-of
-month, a month without rows in between or after the last month with rows included (its volume
-is then zero, and it is on alert).
+decides which months are reported: every month in range (:mod:`scoremon.monitor.months`) from
+the first that has rows to the as-of month, a month without rows in between or after the last
+month with rows included (its volume is then zero, and it is on alert); rows out of range are
+counted, not reported as months.
 :func:`measure_book` runs the other three passes once each — bins and score bands over every
 reported month, calibration and discrimination over the mature ones — and turns their small
 result tables into a :class:`~scoremon.monitor.records.MonitorReport`.
@@ -49,7 +50,7 @@ from ..errors import InputError
 from ..spec.model import Baseline, CategoricalFeature, LinearFeature, Spec
 from . import queries
 from .baseline import band_edges, feature_bins, run
-from .months import Month, calendar_between, is_mature, month_of
+from .months import MONTHS_IN_RANGE, Month, calendar_between, is_mature, sort_months
 from .queries import MonitoredRows
 from .records import (
     IMMATURE,
@@ -121,6 +122,7 @@ class BookMonths:
 
     months: tuple[MonthRow, ...]
     notes: tuple[str, ...] = ()
+    rows_out_of_range: int = 0  # rows of months before the range (see scoremon.monitor.months)
 
     def values_between(self, first: Month, last: Month) -> list:
         return [m.value for m in self.months if first <= m.month <= last and m.rows > 0]
@@ -134,37 +136,25 @@ def read_months(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expressio
     month column holds something that is not a month, or when no month is on or before ``as_of``.
     """
     result = run(engine, queries.month_pass(relation, spec, rows), "counting rows per month")
-    notes: list[str] = []
     invalid = sum(int(r[-1] or 0) for r in result)
     if invalid:
         raise InputError(f"the outcome column holds {invalid:,} values that are neither 1, 0 nor NULL; "
                          "fix the outcome column (1 = event, 0 = no event, NULL = not known yet)")
     features = len(spec.features)
+    sorted_months = sort_months(result, month_column, as_of)
     found: dict[Month, MonthRow] = {}
-    later = 0
-    for r in result:
-        if r[0] is None:
-            notes.append(f"{int(r[1]):,} rows have no month and are left out")
-            continue
-        month = month_of(r[0], month_column)
-        if month in found:
-            raise InputError(f"month column {month_column!r} holds several values for {month} "
-                             f"({found[month].value!r}, {r[0]!r}); give one value per month")
-        if month.first_day > as_of:
-            later += int(r[1])
-            continue
+    for month, r in sorted_months.kept.items():
         unseen = {name: int(r[3 + features + i] or 0) for i, name in enumerate(rows.unseen_features)}
         found[month] = MonthRow(month, r[0], int(r[1]), float(r[2] or 0.0),
                                 tuple(float(r[3 + i] or 0.0) for i in range(features)), unseen, int(r[-2] or 0))
-    if later:
-        notes.append(f"{later:,} rows are in months after the as-of date {as_of} and are left out")
     if not found:
-        raise InputError(f"no rows have a month on or before the as-of date {as_of}; check --as-of and --month-column")
+        raise InputError(f"no rows have a month on or before the as-of date {as_of} and in range (the "
+                         f"{MONTHS_IN_RANGE} months ending then); check --as-of and --month-column")
     ordered = sorted(found)
     months = []
     for month in calendar_between(ordered[0], Month(as_of.year, as_of.month)):
         months.append(found.get(month) or MonthRow(month, None, 0, 0.0, (0.0,) * features, {}, 0))
-    return BookMonths(tuple(months), tuple(notes))
+    return BookMonths(tuple(months), tuple(sorted_months.notes(as_of)), sorted_months.rows_out_of_range)
 
 
 def _material_and_real(value: float | None, limit: Limit, critical_watch: float | None,
@@ -326,6 +316,7 @@ def measure_book(
         volume_rule=volume_rule,
         rows=sum(m.rows for m in book.months),
         calibration_test="two-sided" if two_sided else "one-sided",
+        rows_out_of_range=book.rows_out_of_range,
     )
 
 

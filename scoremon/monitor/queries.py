@@ -80,6 +80,7 @@ class MonitoredRows:
     has_month: bool
     has_outcome: bool
     unseen_features: tuple[str, ...]  # categorical features whose raw column could be read
+    month_column: str | None = None  # the source's month column, named in messages
 
 
 def monitored_rows(
@@ -126,7 +127,7 @@ def monitored_rows(
         selected.append(exp.alias_(_unseen_expression(feature), unseen_column(feature), quoted=True))
     select = exp.select(*selected).from_(relation)
     return MonitoredRows(select, not scored, month_column is not None, outcome_column is not None,
-                         tuple(f.name for f in readable))
+                         tuple(f.name for f in readable), month_column)
 
 
 def _month_kind(name: str, columns: Mapping[str, str]) -> str:

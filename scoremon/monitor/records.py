@@ -176,6 +176,7 @@ class MonitorReport:
     rows: int = 0  # rows of the book in the reported months
     scoremon_version: str = VERSION
     calibration_test: str = "one-sided"  # or "two-sided": the Jeffreys and binomial p-values
+    rows_out_of_range: int = 0  # rows in months before the range (scoremon.monitor.months), left out
 
     @property
     def has_alert(self) -> bool:

@@ -16,7 +16,8 @@ from typing import Any
 
 import yaml
 
-from ..errors import InputError
+from ..errors import InputError, cut
+from ..spec import limits
 
 OK, WATCH, ALERT = "ok", "watch", "alert"
 STATUS_ORDER = {None: 0, OK: 1, WATCH: 2, ALERT: 3}
@@ -88,7 +89,7 @@ def thresholds_from_data(data: Any, where: str) -> Thresholds:
         if name not in NAMES:
             close = get_close_matches(str(name), NAMES, n=1)
             hint = f"; did you mean {close[0]!r}?" if close else f"; known names: {', '.join(NAMES)}"
-            problems.append(f"{where}: {name}: unknown threshold{hint}")
+            problems.append(f"{where}: {cut(str(name))}: unknown threshold{hint}")
             continue
         limit = getattr(DEFAULT_THRESHOLDS, name)
         if not isinstance(given, dict) or not given or set(given) - {"watch", "alert"}:
@@ -99,7 +100,7 @@ def thresholds_from_data(data: Any, where: str) -> Thresholds:
         for level in ("watch", "alert"):
             value = given.get(level, getattr(limit, level))
             if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
-                problems.append(f"{where}: {name}.{level}: {value!r} is not a number")
+                problems.append(f"{where}: {name}.{level}: {cut(repr(value))} is not a number")
             else:
                 levels[level] = float(value)
         if len(levels) < 2:
@@ -134,13 +135,18 @@ def load_thresholds(path: str | Path | None) -> Thresholds:
         return DEFAULT_THRESHOLDS
     path = Path(path)
     try:
+        limits.check_file_size(path)
         text = path.read_text(encoding="utf-8")
+    except limits.LimitError as error:
+        raise InputError(f"{path}:{error.line}:{error.column}: {error}") from None
     except FileNotFoundError:
         raise InputError(f"{path}: no such thresholds file; check the path") from None
     except OSError as error:
         raise InputError(f"{path}: cannot read the thresholds file ({error.strerror})") from None
     try:
-        data = yaml.safe_load(text)
+        data = limits.load(text)
+    except limits.LimitError as error:
+        raise InputError(f"{path}:{error.line}:{error.column}: {error}") from None
     except yaml.YAMLError as error:
         mark = getattr(error, "problem_mark", None)
         where = f"{path}:{mark.line + 1}:{mark.column + 1}" if mark else str(path)

@@ -251,6 +251,9 @@ class Baseline(Part):
     computed_at: str = ""
     rows: int = Field(ge=0)
     rows_per_month: FiniteFloat | None = Field(default=None, ge=0, description="mean rows per month of development")
+    rows_out_of_range: int | None = Field(
+        default=None, ge=0, description="development rows left out because their month is out of range (README: "
+                                        "months out of range)")
     event_rate: FiniteFloat | None = None
     auc: FiniteFloat | None = None
     ks: FiniteFloat | None = None

@@ -4,7 +4,8 @@ PyYAML's composer keeps a mark on every node; we walk the node tree ourselves so
 path (``("features", 2, "bins", 1, "upper")``) maps to where it stands in the file. Validation
 errors are then reported at the exact key a user must edit.
 
-Syntax errors stop reading at once. A key given twice or a key that is not a plain name is
+Hostile files (an alias bomb, deep nesting, a huge file) are refused before any document is
+built (:mod:`scoremon.spec.limits`). Syntax errors stop reading at once. A key given twice or a key that is not a plain name is
 recorded in :attr:`SpecSource.problems` instead, so that validation can report it together
 with everything else.
 """
@@ -17,6 +18,7 @@ from typing import Any
 import yaml
 
 from ..errors import Problem, SpecError
+from . import limits
 
 
 @dataclass
@@ -76,7 +78,9 @@ def read_spec_text(text: str, file: str = "<spec>") -> SpecSource:
     Raises :class:`SpecError` when the text is not YAML or is empty.
     """
     try:
-        node = yaml.compose(text, Loader=yaml.SafeLoader)
+        node = limits.compose(text)
+    except limits.LimitError as error:
+        raise SpecError([Problem(error.line, error.column, "", str(error), file)]) from None
     except yaml.MarkedYAMLError as error:
         mark = error.problem_mark or error.context_mark
         line, column = (mark.line + 1, mark.column + 1) if mark else (1, 1)
@@ -121,7 +125,10 @@ def read_spec_file(path: str | Path) -> SpecSource:
     """Read and parse a spec file. Raises :class:`SpecError` when it is missing or not YAML."""
     path = Path(path)
     try:
+        limits.check_file_size(path)
         text = path.read_text(encoding="utf-8")
+    except limits.LimitError as error:
+        raise SpecError([Problem(error.line, error.column, "", str(error), str(path))]) from None
     except FileNotFoundError as error:
         raise SpecError([Problem(1, 1, "", "no such file; check the path", str(path))]) from error
     except (OSError, UnicodeDecodeError) as error:

@@ -53,7 +53,7 @@ def score_columns(spec: Spec, columns: dict[str, tuple[str, list]], key: str,
     try:
         engine.connection.execute('DROP TABLE IF EXISTS "applications"')
         create_table(engine, "applications", columns)
-        api.score(spec, engine, api.source_relation(table="applications"), keys=[key], out_table="scored")
+        api.score(spec, engine, api.source_relation(table="applications"), keys=[key], out_table="scored", replace=True)
         names, rows = fetch_table(engine, "scored", key)
     finally:
         if own:

@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 from sklearn.metrics import roc_auc_score
 
-from scoremon import api
+from scoremon import api, files
 from scoremon.errors import InputError
 from scoremon.spec import fingerprint, load_spec
 from tests.monitor.book import SPEC_PATH, load_book, make_book
@@ -46,7 +46,7 @@ def test_score_bands_are_deciles_of_the_development_score(engine, development):
     bands = baseline.score_bands
     assert len(bands) == 10 and bands[0].lower == -math.inf and bands[-1].upper == math.inf
     assert all(a.upper == b.lower for a, b in zip(bands, bands[1:]))
-    api.score(spec, engine, api.source_relation(table="development"), out_table="scored")
+    api.score(spec, engine, api.source_relation(table="development"), out_table="scored", replace=True)
     scores = np.sort(np.array([r[0] for r in engine.fetch('SELECT score FROM "scored"', "scores")]))
     for k, band in enumerate(bands[1:], start=1):
         # the edge is the lowest score with at least k/10 of the rows strictly below it
@@ -116,8 +116,8 @@ def test_no_partial_file_is_left_when_writing_fails(engine, development, tmp_pat
     def refuse(*args):
         raise OSError("disk full")
 
-    monkeypatch.setattr(api.os, "replace", refuse)
-    with pytest.raises(OSError):
+    monkeypatch.setattr(files.os, "replace", refuse)
+    with pytest.raises(InputError, match="cannot write .*out.yaml: disk full; nothing was written"):
         api.write_spec_with_baseline(SPEC_PATH, baseline, tmp_path / "out.yaml")
     assert list(tmp_path.iterdir()) == []
 

@@ -43,7 +43,7 @@ def loaded(engine, book):
 def scored_frame(engine, spec, table: str) -> pd.DataFrame:
     """The table scored by the compiler, as pandas (the reference side of the checks)."""
     api.score(spec, engine, api.source_relation(table=table), keys=("application_month", "bad", "region_code"),
-              out_table=f"{table}_scored")
+              out_table=f"{table}_scored", replace=True)
     return engine.fetch_frame(f'SELECT * FROM "{table}_scored"', "reading the scored rows")
 
 

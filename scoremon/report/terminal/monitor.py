@@ -125,6 +125,9 @@ def _header(report, history_written: bool) -> None:
     watches = sum(1 for m in report.months if m.status == "watch")
     verdict = Text.assemble(_status(report.status), f"  {len(report.months)} months: {alerts} on alert, "
                             f"{watches} on watch, {len(report.months) - alerts - watches} ok")
+    if report.rows_out_of_range:
+        verdict.append(f"; {report.rows_out_of_range:,} row{'s' if report.rows_out_of_range > 1 else ''} out of "
+                       "range (see notes)")
     facts.add_row("status", verdict)
     run = f"run {report.run_id[:12]}" + (" appended to the history" if history_written else " (history not written)")
     facts.add_row("history", run)
