@@ -68,91 +68,16 @@ from .spec.terms import (
     linear_slope,
     numeric_bins_in_order,
     special_routes,
+    statement_reference,
 )
+from .trees import INTERNAL, by_bin, case, category_literal, column, double_constant, identifier, integer, number, text, total
 
 ETA_CLAMP = 700.0  # e^700 is finite in double precision; e^710 is not
-INTERNAL = "__scoremon_"
 LINEAR_LOW, LINEAR_IN, LINEAR_HIGH, LINEAR_MISSING = 0, 1, 2, 3
 LOG_ODDS, POINTS = "log_odds", "points"  # see _one_number
 
 
-# ---------------------------------------------------------------- small tree builders
-
-def identifier(name: str) -> exp.Identifier:
-    return exp.to_identifier(name, quoted=True)
-
-
-def column(name: str, table: str | None = None) -> exp.Column:
-    return exp.Column(this=identifier(name), table=identifier(table) if table else None)
-
-
-def number(value: float) -> exp.Expression:
-    """A double literal: ``CAST(<repr> AS DOUBLE)`` (see the module docstring)."""
-    value = float(value)
-    text = repr(value)
-    literal = exp.Literal.number(text.lstrip("-"))
-    if text.startswith("-"):
-        literal = exp.Neg(this=literal)
-    return exp.Cast(this=literal, to=exp.DataType.build("DOUBLE"))
-
-
-def double_constant(name: str) -> exp.Expression:
-    """``CAST('NaN' AS DOUBLE)`` and friends."""
-    return exp.Cast(this=exp.Literal.string(name), to=exp.DataType.build("DOUBLE"))
-
-
-def integer(value: int) -> exp.Literal:
-    return exp.Literal.number(str(int(value)))
-
-
-def text(value: str) -> exp.Literal:
-    return exp.Literal.string(value)
-
-
-def category_literal(value) -> exp.Expression:
-    return integer(value) if isinstance(value, int) else text(value)
-
-
-def case(branches: Iterable[tuple[exp.Expression, exp.Expression]], default: exp.Expression | None = None) -> exp.Expression:
-    ifs = [exp.If(this=cond, true=value) for cond, value in branches]
-    if not ifs and default is not None:
-        return default  # a CASE needs at least one WHEN: `CASE ELSE x END` is a syntax error (e.g. a single grade)
-    return exp.Case(ifs=ifs, default=default)
-
-
-def by_bin(bin_column: exp.Expression, values: Sequence[exp.Expression]) -> exp.Case:
-    """``CASE bin WHEN 0 THEN v0 WHEN 1 THEN v1 … END`` as a searched CASE (portable everywhere)."""
-    return case(((exp.EQ(this=bin_column.copy(), expression=integer(i)), v) for i, v in enumerate(values[:-1])), values[-1])
-
-
-SUM_RUN = 64  # terms a sum adds in one left-to-right run
-
-
-def total(terms: Sequence[exp.Expression]) -> exp.Expression:
-    """a + b + c, evaluated left to right (the order fixes the floating-point result).
-
-    A sum of more than :data:`SUM_RUN` terms adds runs of that many left to right, then the
-    runs' totals pairwise, as a balanced tree. A left-to-right chain is as deep as it is long,
-    and engines cap expression depth (DuckDB at 1000 by default): with runs the depth is
-    :data:`SUM_RUN` + log2 of the number of runs, about 70 for 1,200 features. Up to
-    :data:`SUM_RUN` terms, the order (and so the result, to the last bit) is the plain one.
-    """
-    runs = [_chain(terms[start:start + SUM_RUN]) for start in range(0, len(terms), SUM_RUN)]
-    while len(runs) > 1:
-        # parentheses on both sides: without them `(a + b) + (c + d)` renders as a + b + c + d,
-        # which every engine parses back into one long chain
-        paired = [exp.Add(this=exp.paren(a, copy=False), expression=exp.paren(b, copy=False))
-                  for a, b in zip(runs[0::2], runs[1::2])]
-        runs = paired + ([runs[-1]] if len(runs) % 2 else [])
-    return runs[0]
-
-
-def _chain(terms: Sequence[exp.Expression]) -> exp.Expression:
-    result = terms[0]
-    for term in terms[1:]:
-        result = exp.Add(this=result, expression=term)
-    return result
-
+# ---------------------------------------------------------------- rounding
 
 def round_half_away_sql(value: exp.Expression) -> exp.Expression:
     """:func:`scoremon.spec.terms.round_half_away` in double arithmetic, the same on every engine.
@@ -264,7 +189,7 @@ def compile_model(
     follows = [None if isinstance(f, LinearFeature) else _one_number(spec, t) for f, t in zip(spec.features, terms)]
     binned = [c.copy() for c in key_cols]
     for i, feature in enumerate(spec.features):
-        source_column = feature.column or feature.name
+        source_column = feature.source_column
         x = column(source_column)
         may_be_odd = floats is None or source_column in floats
         kind = exact.get(source_column)
@@ -311,11 +236,7 @@ def compile_model(
     points_of = {f.name: column(names.features[i][1]) for i, f in enumerate(spec.features)}
     max_of = {t.name: t.max_points for t in terms}
     for r, statement in enumerate(spec.reasons.statements):
-        reference = statement.reference
-        if reference is None:
-            reference = max_of[statement.features[0]]
-            for name in statement.features[1:]:
-                reference = reference + max_of[name]
+        reference = statement_reference(statement, max_of)
         shortfall = exp.Sub(this=number(reference), expression=exp.paren(total([points_of[n].copy() for n in statement.features]), copy=False))
         totalled.append(exp.alias_(_held(shortfall), short_col[r], quoted=True))
     totalled_query = exp.select(*totalled).from_(exp.to_table(identifier("pointed")))

@@ -5,8 +5,8 @@ Python exceptions. The hierarchy::
 
     ScoremonError                 anything the user can act on (CLI exit code 2)
     ├── SpecError                 a spec file is unreadable or invalid; carries every problem
-    ├── InputError                a table, file or column does not fit the spec
-    └── EngineError               the database refused a query; names the purpose and engine
+    ├── InputError                a table, file or column does not fit the spec; carries each misfit
+    └── EngineError               the database refused a query; carries the purpose, engine and detail
 
 :func:`cut` is how every message shows a value it quotes: long values are cut, so that one
 hostile value (a number 5,000 digits long) cannot turn a message into a page.
@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
+from typing import Sequence
 
 
 SHOWN_LENGTH = 80  # characters of a value a message shows
@@ -73,13 +74,27 @@ class SpecError(ScoremonError):
 
 
 class InputError(ScoremonError):
-    """The data handed to scoremon does not fit: a missing column, a wrong type, a bad path."""
+    """The data handed to scoremon does not fit: a missing column, a wrong type, a bad path.
+
+    ``message`` says what; ``problems`` (possibly empty) lists each misfit on its own, each
+    saying where and how to fix it, e.g. ``InputError("the input does not fit the spec",
+    ["column 'age' (feature 'age') is not in the input; did you mean 'Age'?"])``.
+    """
+
+    def __init__(self, message: str, problems: Sequence[str] = ()):
+        self.message = message
+        self.problems = tuple(problems)
+        text = message + ":" + "".join(f"\n  - {p}" for p in self.problems) if self.problems else message
+        super().__init__(text)
 
 
 class EngineError(ScoremonError):
-    """The database refused a query. The driver's error is kept as ``__cause__``."""
+    """The database refused a query: ``purpose`` (what scoremon was doing), ``engine`` (which
+    one) and ``detail`` (the first line of the driver's message). The driver's error is kept as
+    ``__cause__``."""
 
     def __init__(self, purpose: str, engine: str, detail: str):
         self.purpose = purpose
         self.engine = engine
+        self.detail = detail
         super().__init__(f"{engine}: {purpose} failed: {detail}")

@@ -21,7 +21,10 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
-from typing import Mapping
+from typing import TYPE_CHECKING, Mapping
+
+if TYPE_CHECKING:  # only a type: this module is arithmetic and imports no engine code
+    from .engines.protocol import Column
 from decimal import ROUND_CEILING, ROUND_FLOOR, Decimal, localcontext
 
 # Whole-number types by the engines' spellings (DuckDB, PostgreSQL, Spark): the smallest and
@@ -74,9 +77,10 @@ def fixed_point(type_name: str) -> FixedPoint | None:
     return FixedPoint(scale, -largest, largest)
 
 
-def exact_columns(columns: Mapping[str, str]) -> dict[str, FixedPoint]:
-    """The whole-number and DECIMAL columns among ``columns`` (name → engine's type name)."""
-    return {name: kind for name, kind in ((n, fixed_point(t)) for n, t in columns.items()) if kind is not None}
+def exact_columns(columns: Mapping[str, Column]) -> dict[str, FixedPoint]:
+    """The whole-number and DECIMAL columns among described ``columns``, by the engine's type name."""
+    found = {name: fixed_point(c.type_name) for name, c in columns.items() if c.is_number}
+    return {name: kind for name, kind in found.items() if kind is not None}
 
 
 def edge_value(edge: float) -> Decimal:

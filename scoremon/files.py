@@ -32,6 +32,17 @@ PARTIAL_MARK = ".scoremon-partial-"
 _PARTIAL = re.compile(r"^\..+" + re.escape(PARTIAL_MARK) + r"(.+)-(\d+)-[0-9a-f]+$")
 
 
+def is_same_file(a: str | Path, b: str | Path) -> bool:
+    """True when ``a`` and ``b`` name one file: equal resolved paths, or the same file on disk."""
+    a, b = Path(a), Path(b)
+    if a.resolve() == b.resolve():
+        return True
+    try:
+        return os.path.samefile(a, b)
+    except OSError:
+        return False  # one of them does not exist yet: they cannot be one file
+
+
 def check_output(path: str | Path, option: str, replace: bool) -> Path:
     """``path`` as a :class:`Path`, once it is known that writing there is allowed.
 

@@ -9,13 +9,12 @@ Which file formats ``score --out`` writes is decided here too, from the name's e
 """
 from __future__ import annotations
 
-import os
 from pathlib import Path
 from typing import Sequence
 
 from .engines.urls import duckdb_file
 from .errors import InputError
-from .monitor.history import METRICS_TABLE, RUNS_TABLE
+from .files import is_same_file
 
 FILE_FORMATS = {".parquet": "parquet", ".csv": "csv"}  # the ending of --out → the format written
 _FOLDS_CASE = {"duckdb": True, "spark": True, "postgres": False}
@@ -29,17 +28,6 @@ def file_format(path: str | Path, option: str = "--out") -> str:
         raise InputError(f"{option} {path}: cannot tell the format from {suffix or 'a name without an ending'}; "
                          f"end the name with {' or '.join(FILE_FORMATS)}")
     return FILE_FORMATS[suffix]
-
-
-def is_same_file(a: str | Path, b: str | Path) -> bool:
-    """True when ``a`` and ``b`` name one file: equal resolved paths, or the same file on disk."""
-    a, b = Path(a), Path(b)
-    if a.resolve() == b.resolve():
-        return True
-    try:
-        return os.path.samefile(a, b)
-    except OSError:
-        return False  # one of them does not exist yet: they cannot be one file
 
 
 def refuse_file(out: str | Path, option: str, kept: Sequence[tuple[str, str | Path | None]]) -> None:
@@ -81,6 +69,9 @@ def is_same_table(a: str, b: str, dialect: str) -> bool:
 
 def refuse_table(out: str, option: str, dialect: str, input_table: str | None) -> None:
     """Raise :class:`InputError` when ``out`` is the input table or a monitoring history table."""
+    # imported here: the monitor's modules load sqlglot, which `scoremon check` never needs
+    from .monitor.history import METRICS_TABLE, RUNS_TABLE
+
     kept = [("the input table", input_table), ("a monitoring history table", RUNS_TABLE),
             ("a monitoring history table", METRICS_TABLE)]
     for what, name in kept:

@@ -18,6 +18,7 @@ import pytest
 from scoremon.dialects import DIALECTS, render_name
 from scoremon.engines import DuckDBEngine, open_engine
 from tests.engines.servers import EngineStartError, PostgresServer, start_spark
+from tests.sql import tree
 
 ROOT = Path(__file__).resolve().parent.parent
 FIXTURES = Path(__file__).resolve().parent / "fixtures"
@@ -85,7 +86,7 @@ def open_test_engine(request, name: str):
     elif name == "postgres":
         server = request.getfixturevalue("postgres_server")
         admin = open_engine(server.url)
-        admin.execute(f"CREATE SCHEMA {render_name(scratch, 'postgres')}", "making a test schema")
+        admin.execute(tree(f"CREATE SCHEMA {render_name(scratch, 'postgres')}", "postgres"), "making a test schema")
         separator = "&" if "?" in server.url else "?"
         url = f"{server.url}{separator}options=-csearch_path%3D{scratch}"
         engine = open_engine(url)
@@ -94,21 +95,22 @@ def open_test_engine(request, name: str):
             yield engine
         finally:
             engine.close()
-            admin.execute(f"DROP SCHEMA {render_name(scratch, 'postgres')} CASCADE", "dropping a test schema")
+            admin.execute(tree(f"DROP SCHEMA {render_name(scratch, 'postgres')} CASCADE", "postgres"),
+                          "dropping a test schema")
             admin.close()
     elif name == "spark":
         shared = request.getfixturevalue("spark_engine")
         database = render_name(scratch, "spark")
-        shared.execute(f"CREATE DATABASE {database}", "making a test database")
-        shared.execute(f"USE {database}", "using the test database")
+        shared.execute(tree(f"CREATE DATABASE {database}", "spark"), "making a test database")
+        shared.execute(tree(f"USE {database}", "spark"), "using the test database")
         engine = open_engine("spark://local[1]")  # reuses the running session, as a library user's would
         engine.test_url = "spark://local[1]"
         try:
             yield engine
         finally:
             engine.close()
-            shared.execute("USE default", "leaving the test database")
-            shared.execute(f"DROP DATABASE {database} CASCADE", "dropping a test database")
+            shared.execute(tree("USE default", "spark"), "leaving the test database")
+            shared.execute(tree(f"DROP DATABASE {database} CASCADE", "spark"), "dropping a test database")
     else:
         raise ValueError(f"no test engine {name!r}")
 

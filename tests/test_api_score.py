@@ -12,6 +12,7 @@ import pyarrow.parquet as pq
 import pytest
 
 from scoremon import api
+from scoremon.cli import main
 from scoremon.engines import DuckDBEngine
 from scoremon.errors import EngineError, InputError
 from scoremon.spec import fingerprint, load_spec
@@ -136,6 +137,25 @@ def test_every_misfit_is_listed_at_once(spec, engine):
     message = str(raised.value)
     assert "column 'age' (feature 'age', read by its name; give it `column:` in the spec) is not in the input" in message
     assert "column 'utilisation' (feature 'utilisation') is VARCHAR, not a number" in message
+    # the misfits stay a list, one per problem, so nothing has to split the message again
+    assert raised.value.message == "the input does not fit the spec"
+    assert [p.split(" is ")[0] for p in raised.value.problems] == [
+        "column 'age' (feature 'age', read by its name; give it `column:` in the spec)",
+        "column 'utilisation' (feature 'utilisation')"]
+
+
+def test_the_cli_prints_each_misfit_on_its_own_line(spec, engine, tmp_path, capsys):
+    database = tmp_path / "book.duckdb"
+    with DuckDBEngine(str(database)) as book:
+        create_table(book, "applications", _with_column({"age": None, "utilisation": ("VARCHAR", ["x"] * 10)}))
+    code = main(["score", str(FIXTURES / "small.yaml"), "--db", str(database), "--table", "applications",
+                 "--key", "application_id", "--out-table", "scored"])
+    assert code == 2
+    lines = capsys.readouterr().err.splitlines()
+    assert lines[0] == "error: the input does not fit the spec"
+    assert lines[1].startswith("  - column 'age' (feature 'age', read by its name; give it `column:` in the spec) is not in "
+                               "the input; the nearest is")
+    assert lines[2].startswith("  - column 'utilisation' (feature 'utilisation') is VARCHAR, not a number")
 
 
 # ---------------------------------------------------------------- atomic writes

@@ -13,10 +13,9 @@ from scoremon.bench.queries import grade_summary, input_copy, relation
 from scoremon.bench.workload import bench_spec, create_table, input_columns
 from scoremon.cli import main
 from scoremon.compiler import compile_model
-from scoremon.dialects import render_sql
 from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature
 
-EVERY_LINE = ["a", "b", "a+", "a-r", "a0", "c", "d", "d0", "d1", "f", "e"]
+EVERY_LINE = ["a0", "a", "b", "a+", "a-r", "c", "d0", "d1", "d", "f", "g", "h", "e"]
 
 
 @pytest.fixture(scope="module")
@@ -45,7 +44,10 @@ def test_every_comparison_is_reported_with_both_sides_and_a_goal(report):
         if line.unit == "s":
             assert line.second_value > 0 and line.rounds == 2, line
     goals = {line.key: line.goal.text for line in report.lines if line.goal}
-    assert goals == {"a": "≤ 6", "b": "≤ 1", "c": "≥ 10", "d": "≤ 1.2", "e": "< 2", "f": "≤ 2"}
+    ratio = {line.key: line.ratio for line in report.lines}
+    assert goals == {"a": f"≤ 1.35 × (a0) = {1.35 * ratio['a0']:.2f}", "b": "≤ 0.8", "c": "≥ 10",
+                     "d": f"≤ (d0) + (d1) + 0.5 = {ratio['d0'] + ratio['d1'] + 0.5:.2f}", "e": "< 2", "f": "≤ 2",
+                     "g": "≤ 4", "h": "≤ 6"}
     assert all(isinstance(line.goal_met, bool) for line in report.lines if line.goal)
     memory = report.lines[-1]
     assert memory.unit == "GiB" and "3,000 rows" in memory.detail
@@ -63,16 +65,16 @@ def test_temporary_data_is_removed(report):
 
 def test_numpy_scorer_matches_the_compiled_grade_summary(engine):
     spec = bench_spec()
-    engine.execute(render_sql(create_table("input", 5_000), "duckdb"), "generating rows")
-    compiled = engine.fetch(render_sql(grade_summary(compile_model(spec, relation("input"))), "duckdb"), "scoring")
-    frame = engine.fetch_frame(render_sql(input_copy("input", input_columns()), "duckdb"), "fetching")
+    engine.execute(create_table("input", 5_000), "generating rows")
+    compiled = engine.query(grade_summary(compile_model(spec, relation("input"))), "scoring")
+    frame = engine.query_frame(input_copy("input", input_columns()), "fetching")
     summary = score_with_numpy(spec, frame)
-    assert summary.grades == tuple(row[0] for row in compiled)
-    assert summary.rows == tuple(row[1] for row in compiled)
+    assert summary.grades == tuple(row.grade for row in compiled)
+    assert summary.rows == tuple(row.rows for row in compiled)
     assert sum(summary.rows) == 5_000
-    for mine, theirs in zip(summary.mean_score, (row[2] for row in compiled)):
+    for mine, theirs in zip(summary.mean_score, (row.mean_score for row in compiled)):
         assert mine == pytest.approx(theirs, rel=1e-12)
-    for mine, theirs in zip(summary.mean_pd, (row[3] for row in compiled)):
+    for mine, theirs in zip(summary.mean_pd, (row.mean_pd for row in compiled)):
         assert mine == pytest.approx(theirs, rel=1e-9)
 
 
@@ -80,7 +82,7 @@ def test_cli_prints_every_line_and_its_verdict(tmp_path, capsys):
     code = main(["bench", "--rows", "2000", "--repeat", "1", "--skip-memory", "--folder", str(tmp_path)])
     printed = capsys.readouterr().out
     assert code in (0, 1)  # 1 when a goal is missed, which tiny inputs usually do
-    for key in ["(a)", "(b)", "(a+)", "(a-r)", "(a0)", "(c)", "(d)", "(d0)", "(d1)", "(f)"]:
+    for key in ["(a)", "(b)", "(a+)", "(a-r)", "(a0)", "(c)", "(d)", "(d0)", "(d1)", "(f)", "(g)", "(h)"]:
         assert key in printed
     assert "(e)" not in printed
     assert ("missed" in printed) == (code == 1)

@@ -15,7 +15,6 @@ from scipy import stats
 from sklearn.metrics import roc_auc_score
 
 from scoremon import api
-from scoremon.dialects import render_sql
 from scoremon.engines import DuckDBEngine
 from scoremon.errors import InputError
 from scoremon.monitor import queries
@@ -28,10 +27,12 @@ from scoremon.monitor.statistics import (
 )
 from scoremon.monitor.thresholds import DEFAULT_THRESHOLDS
 from scoremon.spec import fingerprint, parse_spec
-from scoremon.spec.terms import feature_terms, interval_label
+from scoremon.spec.model import interval_label
+from scoremon.spec.terms import feature_terms
 from tests.compiler.test_rounding import scored as rounding_scored
 from tests.conftest import FIXTURES, ROOT
 from tests.monitor.book import SPEC_PATH
+from tests.sql import fetched, tree
 
 README = (ROOT / "README.md").read_text(encoding="utf-8")
 SMALL = (FIXTURES / "small.yaml").read_text(encoding="utf-8")
@@ -78,10 +79,10 @@ def test_development_deciles_keep_ties_together():
             "with at least k/10 of the development rows strictly below it")
     engine = DuckDBEngine(":memory:")
     # 40 rows at 500, then one row at each of 501 … 560 (100 rows): hand-worked edges
-    engine.execute("CREATE TABLE s AS SELECT 500.0 AS score FROM range(40) UNION ALL "
-                   "SELECT 501.0 + i AS score FROM range(60) t(i)", "making scores")
+    engine.execute(tree("CREATE TABLE s AS SELECT 500.0 AS score FROM range(40) UNION ALL "
+                        "SELECT 501.0 + i AS score FROM range(60) t(i)"), "making scores")
     relation = queries.exp.to_table("s")
-    (edges,) = engine.fetch(render_sql(queries.decile_edges_pass(relation), "duckdb", pretty=False), "deciles")
+    (edges,) = fetched(engine, queries.decile_edges_pass(relation), "deciles")
     # k = 1…4 need 10…40 rows below: 501 has 40 below; k = 5 needs 50: 511 (40 + 10), and so on
     assert list(edges) == [501.0, 501.0, 501.0, 501.0, 511.0, 521.0, 531.0, 541.0, 551.0]
     engine.close()
@@ -173,11 +174,9 @@ def test_parquet_output_needs_the_duckdb_engine(tmp_path):
     written("Parquet output needs the DuckDB engine")
 
     class Other:
+        """An engine that declares it cannot write files (as PostgreSQL and Spark do)."""
         dialect = "postgres"
-        ignores_column_case = False
-
-        def describe(self, sql, purpose):
-            return [("age", "DOUBLE PRECISION"), ("region_code", "TEXT"), ("utilisation", "DOUBLE PRECISION")]
+        reads_files = writes_parquet = ignores_column_case = False
 
     with pytest.raises(InputError, match="writing a Parquet or CSV file needs the DuckDB engine"):
         api.score(parse_spec(SMALL), Other(), api.source_relation(table="book"), out_file=tmp_path / "x.parquet")

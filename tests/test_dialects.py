@@ -16,7 +16,8 @@ import sqlglot
 from scoremon.api import compile_sql, load_spec
 from scoremon.cli import build_parser
 from scoremon.compiler import compile_model, output_columns
-from scoremon.dialects import DIALECTS, dialects_help, render_sql, render_type, table_path
+from scoremon.dialects import DIALECTS, dialects_help, render_sql, render_type
+from scoremon.trees import table_path
 from scoremon.errors import InputError
 from tests.conftest import FIXTURES
 

@@ -13,6 +13,7 @@ from scoremon.engines import DuckDBEngine
 from scoremon.exact import exact_test, fixed_point
 from scoremon.spec import parse_spec
 from tests.conftest import FIXTURES
+from tests.sql import fetched, tree
 
 EDGES = [540.5, 540.0, -540.5, 0.3, 9007199254740992.0, -2.5, 1e300, -1e300, 1e-300, 0.0]
 
@@ -68,9 +69,10 @@ def test_a_bigint_above_two_to_the_53_lands_above_its_edge_on_duckdb():
     999999999999.500001 in a DECIMAL(18,6) column against 999999999999.5."""
     spec = parse_spec((FIXTURES / "edge_deck.yaml").read_text(encoding="utf-8"), "edge_deck.yaml")
     engine = DuckDBEngine(":memory:")
-    engine.execute('CREATE TABLE t AS SELECT 9007199254740993::BIGINT AS "Order", '
-                   '999999999999.500001::DECIMAL(18,6) AS "Amount", 1.0 AS "x""; DROP TABLE t; --", '
-                   '2.0 AS "Weiß Größe", \'N1\' AS "région", 1 AS "SELECT", 0.5 AS "util ""ratio"""', "making rows")
+    engine.write_rows(["t"], [("Order", "BIGINT"), ("Amount", "DECIMAL(18,6)"), ('x"; DROP TABLE t; --', "DOUBLE"),
+                              ("Weiß Größe", "DOUBLE"), ("région", "VARCHAR"), ("SELECT", "BIGINT"),
+                              ('util "ratio"', "DOUBLE")],
+                      [(9007199254740993, Decimal("999999999999.500001"), 1.0, 2.0, "N1", 1, 0.5)], "making a row")
     api.score(spec, engine, api.source_relation(table="t"), out_table="s")
-    assert engine.fetch('SELECT select_bin, amount_bin FROM s', "reading") == [
+    assert fetched(engine, 'SELECT select_bin, amount_bin FROM s') == [
         ("(9007199254740992, inf]", "[999999999999.5, inf)")]

@@ -14,6 +14,7 @@ from scoremon.engines import DuckDBEngine
 from scoremon.errors import InputError
 from tests.conftest import FIXTURES
 from tests.reference_scorer import ReferenceScorer
+from tests.sql import fetched, tree
 
 SMALL = FIXTURES / "small.yaml"
 ROWS = [(1, 30.0, "N1", 0.5), (2, math.nan, "S1", 1.5), (3, None, "Z9", None), (4, 22.0, None, math.nan)]
@@ -34,7 +35,7 @@ def reference(spec, rows) -> list[dict]:
 def scored(engine, table: str, columns: str) -> list[tuple]:
     spec = api.load_spec(SMALL)
     api.score(spec, engine, api.source_relation(table=table), keys=["id"], out_table="out")
-    return engine.fetch(f'SELECT {columns} FROM out ORDER BY id', "reading the scores")
+    return fetched(engine, f'SELECT {columns} FROM out ORDER BY id', "reading the scores")
 
 
 def test_columns_match_ignoring_case_where_the_engine_does(engine):
@@ -56,11 +57,11 @@ def test_a_missing_column_names_the_nearest_one_and_the_column_key(engine):
 
 
 def test_enum_columns_are_categorical_text(engine):
-    engine.execute("CREATE TYPE code AS ENUM ('N1', 'S1', 'Z9')", "making a type")
+    engine.connection.execute("CREATE TYPE code AS ENUM ('N1', 'S1', 'Z9')")  # DuckDB's own statement
     engine.write_rows(["raw"], [("id", "BIGINT"), ("age", "DOUBLE"), ("region_code", "VARCHAR"),
                                 ("utilisation", "DOUBLE")], ROWS, "loading")
-    engine.execute("CREATE TABLE book AS SELECT id, age, CAST(region_code AS code) AS region_code, utilisation "
-                   "FROM raw", "making the ENUM column")
+    engine.connection.execute("CREATE TABLE book AS SELECT id, age, CAST(region_code AS code) AS region_code, "
+                              "utilisation FROM raw")
     spec = api.load_spec(SMALL)
     assert scored(engine, "book", "region_bin") == [(r["region_bin"],) for r in reference(spec, ROWS)]
 
@@ -74,7 +75,7 @@ def test_score_reason_text_puts_each_statement_beside_its_code(tmp_path, capsys)
     assert main(["score", str(SMALL), "--db", str(database), "--table", "book", "--key", "id",
                  "--out-table", "scored", "--reason-text"]) == 0
     engine = DuckDBEngine(str(database))
-    rows = engine.fetch("SELECT reason_1, reason_1_text, reason_2, reason_2_text FROM scored ORDER BY id", "reading")
+    rows = fetched(engine, "SELECT reason_1, reason_1_text, reason_2, reason_2_text FROM scored ORDER BY id")
     engine.close()
     texts = {"R1": "Young applicant", "R2": "Region risk", "R3": "High utilisation", None: None}
     assert rows and all(text == texts[code] for code, text, _, _ in rows)

@@ -17,23 +17,23 @@ the plan copied them.
 from __future__ import annotations
 
 import re
-from contextlib import nullcontext
 from dataclasses import dataclass
 from typing import Sequence
 
 from sqlglot import exp
 
-from ..compiler import compile_model, identifier, output_columns
-from ..dialects import render_sql, table_path
-from ..engines import DuckDBEngine, Engine, open_engine
+from ..compiler import compile_model, output_columns
+from ..engines import DuckDBEngine, Engine, Statement, open_engine
+from ..engines.protocol import INTEGER, NUMERIC, TEXT
 from ..errors import InputError
+from ..trees import alias, column, table_path, text
 from . import queries, workload
-from .run import BenchLine, BenchObserver, BenchReport
+from .run import BenchLine, BenchObserver, BenchReport, SilentObserver
 from .timing import time_pair
 
 TABLE = "scoremon_bench_input"
-# what DuckDB calls the generated columns' types → the portable kinds write_rows takes
-_KINDS = {"INTEGER": "BIGINT", "BIGINT": "BIGINT", "DOUBLE": "DOUBLE", "VARCHAR": "VARCHAR"}
+# the generated columns' kinds → the column kinds write_rows creates
+_CREATED = {INTEGER: "BIGINT", NUMERIC: "DOUBLE", TEXT: "VARCHAR"}
 
 
 @dataclass(frozen=True)
@@ -55,73 +55,56 @@ def run_engine_bench(settings: EngineBenchSettings, observer: BenchObserver | No
     """
     if settings.rows < 1 or settings.repeat < 1:
         raise InputError("rows and repeat must be at least 1")
-    observer = observer or _Quiet()
+    observer = observer or SilentObserver()
     spec = workload.bench_spec()
     lines: list[BenchLine] = []
     notes: list[str] = []
-    duckdb = DuckDBEngine(":memory:", threads=settings.threads)
-    try:
-        duckdb.execute("SET enable_progress_bar_print = false", "quieting DuckDB's own progress bar")
+    with DuckDBEngine(":memory:", threads=settings.threads) as duckdb:
         with observer.stage(f"generating {settings.rows:,} rows") as progress:
-            duckdb.write_table(render_sql(workload.generate_rows(settings.rows), "duckdb", pretty=False), [TABLE],
-                               "generating the bench rows", progress)
-        threads = int(duckdb.fetch("SELECT current_setting('threads')", "reading the thread count")[0][0])
+            duckdb.write_table(workload.generate_rows(settings.rows), [TABLE], "generating the bench rows", progress)
+        setting = exp.Anonymous(this="current_setting", expressions=[text("threads")])
+        threads = int(duckdb.query(exp.select(alias(setting, "threads")), "reading the thread count")[0].threads)
         lines += _measure(duckdb, spec, settings.repeat, observer, notes)
         if settings.urls:
             columns = _columns(duckdb)
             with observer.stage("reading the rows out of DuckDB"):
-                rows = duckdb.fetch(_select_all(columns, "duckdb"), "reading the bench rows")
+                found = duckdb.query(_select_all(columns), "reading the bench rows")
+                rows = [tuple(row[name] for name, _ in columns) for row in found]
             for url in settings.urls:
-                engine = open_engine(url)
-                try:
+                with open_engine(url) as engine:
                     with observer.stage(f"loading {len(rows):,} rows into {engine.dialect}"):
                         engine.write_rows([TABLE], columns, rows, "loading the bench rows")
                     try:
                         lines += _measure(engine, spec, settings.repeat, observer, notes)
                     finally:
-                        drop = exp.Drop(tables=[table_path([TABLE])], kind="TABLE", exists=True)
-                        engine.execute(render_sql(drop, engine.dialect, pretty=False), "dropping the bench rows")
-                finally:
-                    engine.close()
-    finally:
-        duckdb.close()
+                        engine.execute(exp.Drop(tables=[table_path([TABLE])], kind="TABLE", exists=True),
+                                       "dropping the bench rows")
     return BenchReport(settings.rows, threads, settings.repeat, tuple(lines), tuple(notes))
-
-
-class _Quiet:
-    """An observer that shows nothing (library use, tests)."""
-
-    def stage(self, description: str):
-        return nullcontext(None)
-
-    def measured(self, line: BenchLine) -> None:
-        pass
 
 
 def _columns(engine: Engine) -> list[tuple[str, str]]:
     names = workload.input_columns()
-    query = exp.select(*[exp.column(identifier(n)) for n in names]).from_(table_path([TABLE]))
-    kinds = dict(engine.describe(render_sql(query, engine.dialect, pretty=False), "reading the bench columns"))
-    return [(name, _KINDS[kinds[name].upper()]) for name in names]
+    query = exp.select(*[column(n) for n in names]).from_(table_path([TABLE]))
+    kinds = {column.name: column.kind for column in engine.describe(query, "reading the bench columns")}
+    return [(name, _CREATED[kinds[name]]) for name in names]
 
 
-def _select_all(columns: Sequence[tuple[str, str]], dialect: str) -> str:
-    query = exp.select(*[exp.column(identifier(name)) for name, _ in columns]).from_(table_path([TABLE]))
-    return render_sql(query, dialect, pretty=False)
+def _select_all(columns: Sequence[tuple[str, str]]) -> exp.Select:
+    return exp.select(*[column(name) for name, _ in columns]).from_(table_path([TABLE]))
 
 
 def _measure(engine: Engine, spec, repeat: int, observer: BenchObserver, notes: list[str]) -> list[BenchLine]:
     dialect = engine.dialect
     relation = table_path([TABLE])
-    kinds = dict(engine.describe(render_sql(exp.select(exp.Star()).from_(relation), dialect, pretty=False),
-                                 "reading the bench columns"))
-    floats = [name for name, kind in kinds.items() if re.match(r"^(DOUBLE|FLOAT\d?|DOUBLE PRECISION)$", kind, re.I)]
+    described = engine.describe(exp.select(exp.Star()).from_(relation), "reading the bench columns")
+    floats = [column.name for column in described if column.can_hold_nan]
     scoring = compile_model(spec, relation, (), floats)
     numeric = [name for name in workload.input_columns() if name not in workload.text_columns()]
-    bare = render_sql(queries.bare_scan(TABLE, numeric, workload.text_columns()), dialect, pretty=False)
-    compiled = render_sql(queries.grade_summary(scoring), dialect, pretty=False)
-    reasons = render_sql(queries.reason_summary(scoring, output_columns(spec).reasons), dialect, pretty=False)
-    run = engine.fetch
+    # rendered once, before the timing starts: the lines time queries, not rendering
+    bare = engine.prepare(queries.bare_scan(TABLE, numeric, workload.text_columns()))
+    compiled = engine.prepare(queries.grade_summary(scoring))
+    reasons = engine.prepare(queries.reason_summary(scoring, output_columns(spec).reasons))
+    run = engine.query
     measured = []
     for key, title, sql in ((dialect, f"{dialect}: compiled scoring ÷ bare scan", compiled),
                             (f"{dialect}+", f"{dialect}: scoring with 3 reasons ÷ bare scan", reasons)):
@@ -136,10 +119,9 @@ def _measure(engine: Engine, spec, repeat: int, observer: BenchObserver, notes: 
     return measured
 
 
-def _plan_note(engine: Engine, sql: str) -> str:
+def _plan_note(engine: Engine, query: Statement) -> str:
     """How many CASE expressions PostgreSQL's plan holds for each one in the SQL."""
-    plan = "\n".join(str(row[0]) for row in engine.fetch(f"EXPLAIN (VERBOSE, COSTS OFF) {sql}",
-                                                         "explaining the scoring query"))
-    in_plan, in_sql = len(re.findall(r"\bCASE\b", plan)), len(re.findall(r"\bCASE\b", sql))
+    plan = engine.explain(query, "explaining the scoring query")
+    in_plan, in_sql = len(re.findall(r"\bCASE\b", plan)), len(re.findall(r"\bCASE\b", query.sql))
     return (f"postgres plan: {in_plan:,} CASE expressions in EXPLAIN VERBOSE for {in_sql:,} in the SQL "
             f"(ratio {in_plan / max(in_sql, 1):.2f}; about 1 means no scoring expression is copied)")

@@ -60,7 +60,6 @@ def _child(database: str, out_file: str, threads: int | None, memory_limit: str)
 
     engine = DuckDBEngine(database, threads=threads, memory_limit=memory_limit)
     try:
-        engine.execute("SET enable_progress_bar_print = false", "quieting DuckDB's own progress bar")
         result = api.score(bench_spec(), engine, api.source_relation(table=TABLE), out_file=out_file, replace=True,
                            progress=lambda share: say({"progress": share}))
     finally:

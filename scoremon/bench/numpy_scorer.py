@@ -64,7 +64,7 @@ def score_frame(spec: Spec, frame: pd.DataFrame) -> tuple[np.ndarray, np.ndarray
     eta = np.full(rows, float(spec.intercept))
     for feature in spec.features:
         terms = feature_terms(spec, feature)
-        name = feature.column or feature.name
+        name = feature.source_column
         missing = len(terms.bins) - 1
         if isinstance(feature, LinearFeature):
             x = _numbers(frame[name])

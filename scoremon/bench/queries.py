@@ -18,9 +18,9 @@ from typing import Sequence
 
 from sqlglot import exp
 
-from ..compiler import INTERNAL, case, column, identifier, text
 from ..spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
 from ..spec.terms import feature_terms, numeric_bins_in_order
+from ..trees import INTERNAL, alias, case, column, identifier, text
 
 SCORED = "scored"
 
@@ -31,9 +31,9 @@ def relation(table: str) -> exp.Table:
 
 def bare_scan(table: str, numeric: Sequence[str], texts: Sequence[str]) -> exp.Select:
     """``SELECT COUNT(*), SUM(<number>)…, MAX(<text>)… FROM table``: every value is read."""
-    aggregates: list[exp.Expression] = [exp.Count(this=exp.Star())]
-    aggregates += [exp.Sum(this=column(name)) for name in numeric]
-    aggregates += [exp.Max(this=column(name)) for name in texts]
+    aggregates: list[exp.Expression] = [alias(exp.Count(this=exp.Star()), "rows")]
+    aggregates += [alias(exp.Sum(this=column(name)), f"{name}_sum") for name in numeric]
+    aggregates += [alias(exp.Max(this=column(name)), f"{name}_max") for name in texts]
     return exp.select(*aggregates).from_(relation(table))
 
 
@@ -45,7 +45,7 @@ def _typed(value: float) -> exp.Expression:
 
 
 def _hand_feature(spec: Spec, feature) -> exp.Expression:
-    x = column(feature.column or feature.name)
+    x = column(feature.source_column)
     terms = feature_terms(spec, feature)
     missing = (exp.Is(this=x.copy(), expression=exp.Null()), _typed(terms.bins[-1].points))
     if isinstance(feature, NumericFeature):
@@ -93,7 +93,8 @@ def hand_written_score(spec: Spec, table: str) -> exp.Select:
 def grade_summary(scoring: exp.Select) -> exp.Select:
     """Rows, mean score and mean PD per grade of a scoring query's output."""
     grade = column("grade")
-    return (exp.select(grade.copy(), exp.Count(this=exp.Star()), exp.Avg(this=column("score")), exp.Avg(this=column("pd")))
+    return (exp.select(grade.copy(), alias(exp.Count(this=exp.Star()), "rows"), alias(exp.Avg(this=column("score")), "mean_score"),
+                       alias(exp.Avg(this=column("pd")), "mean_pd"))
             .from_(scoring.subquery(identifier(SCORED)))
             .group_by(grade.copy()).order_by(grade.copy()))
 
@@ -101,7 +102,7 @@ def grade_summary(scoring: exp.Select) -> exp.Select:
 def reason_summary(scoring: exp.Select, reasons: Sequence[str]) -> exp.Select:
     """As :func:`grade_summary`, plus the number of rows given each reason slot."""
     query = grade_summary(scoring)
-    return query.select(*[exp.Count(this=column(name)) for name in reasons], copy=False)
+    return query.select(*[alias(exp.Count(this=column(name)), f"{name}_rows") for name in reasons], copy=False)
 
 
 def binning_only(scoring: exp.Select) -> exp.Select:
@@ -109,7 +110,7 @@ def binning_only(scoring: exp.Select) -> exp.Select:
     steps = {cte.alias: cte.this for cte in scoring.args["with_"].expressions}
     binned = steps["binned"]
     numbers = [e.alias for e in binned.expressions if e.alias.startswith(INTERNAL)]
-    query = exp.select(*[exp.Sum(this=column(name)) for name in numbers]).from_(relation("binned"))
+    query = exp.select(*[alias(exp.Sum(this=column(name)), f"{name}_sum") for name in numbers]).from_(relation("binned"))
     return query.with_(identifier("binned"), as_=binned.copy(), copy=False)
 
 

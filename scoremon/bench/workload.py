@@ -18,7 +18,7 @@ from datetime import date
 import yaml
 from sqlglot import exp
 
-from ..compiler import case, column, identifier, integer, number, text
+from ..trees import case, column, identifier, integer, number, text
 from ..spec import parse_spec
 from ..spec.model import Spec
 
@@ -221,8 +221,3 @@ def generate_rows(rows: int, start: int = 0) -> exp.Select:
 def create_table(table: str, rows: int, start: int = 0) -> exp.Create:
     """``CREATE TABLE "<table>" AS`` the generated rows."""
     return exp.Create(this=exp.to_table(identifier(table)), kind="TABLE", expression=generate_rows(rows, start))
-
-
-def insert_rows(table: str, rows: int, start: int) -> exp.Insert:
-    """``INSERT INTO "<table>"`` another slice of generated rows (for generating in chunks)."""
-    return exp.Insert(this=exp.to_table(identifier(table)), expression=generate_rows(rows, start))

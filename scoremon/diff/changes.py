@@ -13,7 +13,8 @@ import math
 
 from ..spec.canonical import canonical_form, fingerprint
 from ..spec.model import LinearFeature, Spec
-from ..spec.terms import base_points, feature_terms, interval_label, linear_points, linear_points_slope
+from ..spec.model import interval_label
+from ..spec.terms import base_points, feature_terms, linear_points, linear_points_slope, statement_reference
 from .features import SCORE_OUTPUTS, FeatureComparison, compare_feature, differing_paths, written_in_points
 from .records import Change, ChangeKind, Effect, ModelDiff, ScoreMap, VersionInfo
 from .wording import number, same, signed, values_list
@@ -175,7 +176,7 @@ def _features(old: Spec, new: Spec) -> tuple[list[Change], list[tuple[object, ob
                             Effect.STRUCTURE, SCORE_OUTPUTS + ("columns",), name, {"points": [low, high]}, None))
     for name in added:
         low, high = _points_range(new, by_new[name])
-        column = by_new[name].column or name
+        column = by_new[name].source_column
         found.append(Change(ChangeKind.FEATURE_ADDED, f"feature {name}",
                             f"feature {name} added ({by_new[name].type}, column {column!r}, "
                             f"between {number(low)} and {number(high)} points)",
@@ -193,7 +194,7 @@ def _features(old: Spec, new: Spec) -> tuple[list[Change], list[tuple[object, ob
     comparisons = []
     for was, now in pairs:
         if was.name != now.name:  # compare a renamed feature under its new name
-            was = was.model_copy(update={"name": now.name, "column": was.column or was.name})
+            was = was.model_copy(update={"name": now.name, "column": was.source_column})
         comparison = compare_feature(old, new, was, now)
         comparisons.append((was, now, comparison))
         found += comparison.changes
@@ -286,13 +287,7 @@ def _grades(old: Spec, new: Spec) -> list[Change]:
 # ---------------------------------------------------------------- reasons
 
 def _reference(spec: Spec, statement) -> float:
-    if statement.reference is not None:
-        return statement.reference
-    by_name = {f.name: f for f in spec.features}
-    total = 0.0
-    for name in statement.features:
-        total = total + feature_terms(spec, by_name[name]).max_points
-    return total
+    return statement_reference(statement, {f.name: feature_terms(spec, f).max_points for f in spec.features})
 
 
 def _reasons(old: Spec, new: Spec) -> list[Change]:

@@ -19,12 +19,11 @@ import math
 from dataclasses import dataclass
 
 from ..spec.canonical import canonical_form
-from ..spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
+from ..spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec, interval_label
 from ..spec.terms import (
     BinTerm,
     FeatureTerms,
     feature_terms,
-    interval_label,
     linear_points,
     linear_slope,
     numeric_bins_in_order,
@@ -76,7 +75,7 @@ def compare_feature(old_spec: Spec, new_spec: Spec, old, new) -> FeatureComparis
     is_changed = found.is_changed
     effect = Effect.ONE_FEATURE if is_changed else Effect.NONE
 
-    old_column, new_column = old.column or old.name, new.column or new.name
+    old_column, new_column = old.source_column, new.source_column
     if old_column != new_column:
         records.insert(0, Change(ChangeKind.FEATURE_COLUMN_CHANGED, f"feature {name}",
                                  f"{name} reads column {new_column!r} (was {old_column!r})", Effect.ONE_FEATURE,
@@ -302,8 +301,8 @@ class _Numeric:
             was = by_interval.get((b.lower, b.upper))
             if was is None or (was.label is None and b.label is None):
                 continue
-            old_label = was.label or interval_label(was.lower, was.upper, old.closed)
-            new_label = b.label or interval_label(b.lower, b.upper, new.closed)
+            old_label = old.bin_label(was)
+            new_label = new.bin_label(b)
             if old_label != new_label:
                 self.records.append(Change(ChangeKind.BIN_RELABELLED, f"feature {self.name}",
                                            f"{self.name} bin {old_label!r} is now labelled {new_label!r}",
@@ -326,7 +325,7 @@ def _route_place(feature: NumericFeature, label: str) -> str:
     if label == feature.missing.label:
         return "missing bin"
     ordered = numeric_bins_in_order(feature)
-    labels = [b.label or interval_label(b.lower, b.upper, feature.closed) for b in ordered]
+    labels = [feature.bin_label(b) for b in ordered]
     i = labels.index(label)
     if i == 0:
         return "bottom bin"

@@ -32,10 +32,12 @@ from typing import Iterable, Mapping, Sequence
 
 from sqlglot import exp
 
-from ..compiler import INTERNAL, compile_model, output_columns
+from ..compiler import compile_model, output_columns
+from ..engines.protocol import BOOLEAN, Column
 from ..errors import InputError
 from ..exact import FixedPoint
 from ..spec.model import Spec
+from ..trees import INTERNAL, alias, as_double, case, column, identifier, integer, number, window
 
 QUANTILES = (0.01, 0.05, 0.25, 0.5, 0.75, 0.95, 0.99)
 # Score change bands in multiples of the new version's PDO (points to double the odds): the
@@ -152,44 +154,6 @@ class Impact:
 
 # ---------------------------------------------------------------- the query
 
-def _id(name: str) -> exp.Identifier:
-    return exp.to_identifier(name, quoted=True)
-
-
-def _col(name: str) -> exp.Column:
-    return exp.Column(this=_id(name))
-
-
-def _num(value: float) -> exp.Expression:
-    text = repr(float(value))
-    literal = exp.Literal.number(text.lstrip("-"))
-    if text.startswith("-"):
-        literal = exp.Neg(this=literal)
-    return exp.Cast(this=literal, to=exp.DataType.build("DOUBLE"))
-
-
-def _int(value: int) -> exp.Literal:
-    return exp.Literal.number(str(int(value)))
-
-
-def _case(branches, default=None) -> exp.Case:
-    return exp.Case(ifs=[exp.If(this=c, true=v) for c, v in branches], default=default)
-
-
-def _as(expression: exp.Expression, name: str) -> exp.Alias:
-    return exp.alias_(expression, name, quoted=True)
-
-
-def _double(expression: exp.Expression) -> exp.Expression:
-    return exp.Cast(this=expression, to=exp.DataType.build("DOUBLE"))
-
-
-def _window(function: exp.Expression, order: str | None = None, partition: str | None = None) -> exp.Window:
-    return exp.Window(this=function,
-                      partition_by=[_col(partition)] if partition else None,
-                      order=exp.Order(expressions=[exp.Ordered(this=_col(order))]) if order else None)
-
-
 def _fresh(base: str, taken: set[str]) -> str:
     """``base``, or ``base_2``, ``base_3``… — the first not in ``taken`` (compared ignoring case)."""
     name, n = base, 1
@@ -213,19 +177,19 @@ def _scoring_step(spec: Spec, source: exp.Subquery, prefix: str, keys: Sequence[
     source, and here the source holds the whole first scoring query; renaming before the
     source is in also leaves a table in the source called ``binned`` alone.
     """
-    query = compile_model(spec, exp.Table(this=_id(PLACEHOLDER)), keys=keys, float_columns=float_columns,
+    query = compile_model(spec, exp.Table(this=identifier(PLACEHOLDER)), keys=keys, float_columns=float_columns,
                           exact_columns=exact_columns)
     ctes = query.args["with_"].expressions
     names = {cte.alias: f"{prefix}{cte.alias}" for cte in ctes}
     for cte in ctes:
-        cte.set("alias", exp.TableAlias(this=_id(names[cte.alias])))
+        cte.set("alias", exp.TableAlias(this=identifier(names[cte.alias])))
     placeholders = []
     for clause in list(query.find_all(exp.From)):
         target = clause.this
         if isinstance(target, exp.Identifier) and target.name in names:
-            clause.set("this", _id(names[target.name]))
+            clause.set("this", identifier(names[target.name]))
         elif isinstance(target, exp.Table) and not target.args.get("db") and target.name in names:
-            target.set("this", _id(names[target.name]))
+            target.set("this", identifier(names[target.name]))
         elif isinstance(target, exp.Table) and target.name == PLACEHOLDER:
             placeholders.append(clause)
     if len(placeholders) != 1:
@@ -234,23 +198,15 @@ def _scoring_step(spec: Spec, source: exp.Subquery, prefix: str, keys: Sequence[
     return query
 
 
-def _over(columns: Sequence[exp.Expression], query: exp.Expression, alias: str) -> exp.Select:
-    """``SELECT columns FROM (query) AS alias`` without copying ``query`` (it can be large)."""
+def _over(columns: Sequence[exp.Expression], query: exp.Expression, name: str) -> exp.Select:
+    """``SELECT columns FROM (query) AS name`` without copying ``query`` (it can be large)."""
     select = exp.Select(expressions=list(columns))
-    select.set("from_", exp.From(this=exp.Subquery(this=query, alias=exp.TableAlias(this=_id(alias)))))
+    select.set("from_", exp.From(this=exp.Subquery(this=query, alias=exp.TableAlias(this=identifier(name)))))
     return select
 
 
 def _inputs(spec: Spec) -> list[str]:
-    return list(dict.fromkeys(f.column or f.name for f in spec.features))
-
-
-@dataclass(frozen=True)
-class ImpactQuery:
-    """The query and the names of the columns it returns, in order."""
-
-    tree: exp.Select
-    columns: tuple[str, ...]
+    return list(dict.fromkeys(f.source_column for f in spec.features))
 
 
 def impact_query(
@@ -262,7 +218,7 @@ def impact_query(
     outcome_is_boolean: bool = False,
     cutoffs: tuple[float, float] | None = None,
     exact_columns: Mapping[str, FixedPoint] | None = None,
-) -> ImpactQuery:
+) -> exp.Select:
     """The one query that scores ``source`` under both versions and aggregates the pairs.
 
     ``float_columns`` names the source's FLOAT/DOUBLE columns (the others need no NaN test).
@@ -280,11 +236,11 @@ def impact_query(
     # step 0: the old version's inputs, plus everything later steps need under fresh names
     carried = list(dict.fromkeys(inputs_new + ([outcome] if outcome else [])))
     carry = {name: _fresh(f"carried_{i}", taken) for i, name in enumerate(carried, start=1)}
-    step0 = exp.Select(expressions=[_col(n) for n in inputs_old] + [_as(_col(n), carry[n]) for n in carried])
+    step0 = exp.Select(expressions=[column(n) for n in inputs_old] + [alias(column(n), carry[n]) for n in carried])
     step0.set("from_", exp.From(this=source.copy()))
 
     # step 1: the old version scores each row and passes the carried columns through
-    population = exp.Subquery(this=step0, alias=exp.TableAlias(this=_id("population")))
+    population = exp.Subquery(this=step0, alias=exp.TableAlias(this=identifier("population")))
     step1 = _scoring_step(old, population, f"{INTERNAL}old_", [carry[n] for n in carried],
                           [n for n in inputs_old if n in floats], exact_columns)
     old_names = {k: _fresh(f"old_{k}", taken) for k in ("score", "pd", "grade", "reason")}
@@ -293,78 +249,79 @@ def impact_query(
 
     # step 1b: the new version's inputs under their own names, and the old results
     step1b = _over([
-        *[_as(_col(carry[n]), n) for n in inputs_new],
-        *([_col(outcome_name)] if outcome else []),
-        _as(_col("score"), old_names["score"]), _as(_col("pd"), old_names["pd"]),
-        _as(_col("grade"), old_names["grade"]),
-        _as(_col(old_reason) if old_reason else exp.Cast(this=exp.Null(), to=exp.DataType.build("VARCHAR")),
+        *[alias(column(carry[n]), n) for n in inputs_new],
+        *([column(outcome_name)] if outcome else []),
+        alias(column("score"), old_names["score"]), alias(column("pd"), old_names["pd"]),
+        alias(column("grade"), old_names["grade"]),
+        alias(column(old_reason) if old_reason else exp.Cast(this=exp.Null(), to=exp.DataType.build("VARCHAR")),
             old_names["reason"]),
     ], step1, "scored_old")
 
     # step 2: the new version scores the same row
     keys = [old_names["score"], old_names["pd"], old_names["grade"], old_names["reason"]]
     keys += [outcome_name] if outcome else []
-    carried_rows = exp.Subquery(this=step1b, alias=exp.TableAlias(this=_id("carried")))
-    step2 = _scoring_step(new, carried_rows, f"{INTERNAL}new_", keys, [n for n in inputs_new if n in floats], exact_columns)
+    carried_rows = exp.Subquery(this=step1b, alias=exp.TableAlias(this=identifier("carried")))
+    step2 = _scoring_step(new, carried_rows, f"{INTERNAL}new_", keys, [n for n in inputs_new if n in floats],
+                          exact_columns)
     new_reason = "reason_1" if output_columns(new).reasons else None
 
     # paired: our own names from here on
     if outcome is None:
-        outcome_value, invalid = exp.Null(), _int(0)
+        outcome_value, invalid = exp.Null(), integer(0)
     elif outcome_is_boolean:
-        o = _col(outcome_name)
-        outcome_value = _case([(o.copy(), _int(1)), (exp.Not(this=o.copy()), _int(0))], exp.Null())
-        invalid = _int(0)
+        o = column(outcome_name)
+        outcome_value = case([(o.copy(), integer(1)), (exp.Not(this=o.copy()), integer(0))], exp.Null())
+        invalid = integer(0)
     else:
-        o = _col(outcome_name)
-        outcome_value = _case([(exp.EQ(this=o.copy(), expression=_int(1)), _int(1)),
-                               (exp.EQ(this=o.copy(), expression=_int(0)), _int(0))], exp.Null())
+        o = column(outcome_name)
+        outcome_value = case([(exp.EQ(this=o.copy(), expression=integer(1)), integer(1)),
+                               (exp.EQ(this=o.copy(), expression=integer(0)), integer(0))], exp.Null())
         # NaN equals neither 0 nor 1, so it is counted here too
-        invalid = _case([(exp.and_(exp.Not(this=exp.Is(this=o.copy(), expression=exp.Null())),
-                                   exp.Not(this=exp.paren(exp.or_(exp.EQ(this=o.copy(), expression=_int(0)),
-                                                                  exp.EQ(this=o.copy(), expression=_int(1)))))),
-                          _int(1))], _int(0))
+        invalid = case([(exp.and_(exp.Not(this=exp.Is(this=o.copy(), expression=exp.Null())),
+                                   exp.Not(this=exp.paren(exp.or_(exp.EQ(this=o.copy(), expression=integer(0)),
+                                                                  exp.EQ(this=o.copy(), expression=integer(1)))))),
+                          integer(1))], integer(0))
     paired = _over([
-        _as(_col(old_names["score"]), "old_score"), _as(_col("score"), "new_score"),
-        _as(_col(old_names["pd"]), "old_pd"), _as(_col("pd"), "new_pd"),
-        _as(_col(old_names["grade"]), "old_grade"), _as(_col("grade"), "new_grade"),
-        _as(_col(old_names["reason"]), "old_reason"),
-        _as(_col(new_reason) if new_reason else exp.Cast(this=exp.Null(), to=exp.DataType.build("VARCHAR")),
+        alias(column(old_names["score"]), "old_score"), alias(column("score"), "new_score"),
+        alias(column(old_names["pd"]), "old_pd"), alias(column("pd"), "new_pd"),
+        alias(column(old_names["grade"]), "old_grade"), alias(column("grade"), "new_grade"),
+        alias(column(old_names["reason"]), "old_reason"),
+        alias(column(new_reason) if new_reason else exp.Cast(this=exp.Null(), to=exp.DataType.build("VARCHAR")),
             "new_reason"),
-        _as(outcome_value, "outcome"), _as(invalid, "invalid_outcome"),
-        _as(_col("score") - _col(old_names["score"]), "score_change"),
-        _as(_col("pd") - _col(old_names["pd"]), "pd_change"),
+        alias(outcome_value, "outcome"), alias(invalid, "invalid_outcome"),
+        alias(column("score") - column(old_names["score"]), "score_change"),
+        alias(column("pd") - column(old_names["pd"]), "pd_change"),
     ], step2, "scored_new")
 
     # ranked: bands, swap cell, positions and centred average ranks
-    n_rows = _double(_window(exp.Count(this=exp.Star())))
+    n_rows = as_double(window(exp.Count(this=exp.Star())))
 
     def centred_rank(name: str) -> exp.Expression:
         # The average rank of tied values is halfway between the first tie's rank (RANK) and
         # the last's: the count of rows up to and including the ties (COUNT with the default
         # frame, which takes in peers). Both use the same ordering, so engines sort once.
         # The mean of average ranks over all rows is (n + 1) / 2.
-        first = _double(_window(exp.Anonymous(this="RANK"), order=name))
-        last = _double(_window(exp.Count(this=exp.Star()), order=name))
-        return exp.paren(first + last) / _num(2.0) - exp.paren(n_rows.copy() + _num(1.0)) / _num(2.0)
+        first = as_double(window(exp.Anonymous(this="RANK"), order=name))
+        last = as_double(window(exp.Count(this=exp.Star()), order=name))
+        return exp.paren(first + last) / number(2.0) - exp.paren(n_rows.copy() + number(1.0)) / number(2.0)
 
     ranked_columns = [
-        _col(c) for c in ("old_score", "new_score", "old_pd", "new_pd", "old_grade", "new_grade", "old_reason",
+        column(c) for c in ("old_score", "new_score", "old_pd", "new_pd", "old_grade", "new_grade", "old_reason",
                           "new_reason", "outcome", "invalid_outcome", "score_change", "pd_change")
     ]
     ranked_columns += [
-        _as(_band(_col("score_change"), [s * new.scaling.pdo for s in SCORE_STEPS], UNCHANGED_POINTS), "score_band"),
-        _as(_band(_col("pd_change"), list(PD_STEPS), UNCHANGED_PD), "pd_band"),
-        _as(n_rows, "population_rows"),
-        _as(_window(exp.RowNumber(), order="score_change"), "score_change_position"),
-        _as(_window(exp.RowNumber(), order="pd_change"), "pd_change_position"),
-        _as(centred_rank("old_score"), "old_rank"),
-        _as(centred_rank("new_score"), "new_rank"),
+        alias(_band(column("score_change"), [s * new.scaling.pdo for s in SCORE_STEPS], UNCHANGED_POINTS), "score_band"),
+        alias(_band(column("pd_change"), list(PD_STEPS), UNCHANGED_PD), "pd_band"),
+        alias(n_rows, "population_rows"),
+        alias(window(exp.RowNumber(), order="score_change"), "score_change_position"),
+        alias(window(exp.RowNumber(), order="pd_change"), "pd_change_position"),
+        alias(centred_rank("old_score"), "old_rank"),
+        alias(centred_rank("new_score"), "new_rank"),
     ]
     if cutoffs is not None:
-        accepted_old = exp.GTE(this=_col("old_score"), expression=_num(cutoffs[0]))
-        accepted_new = exp.GTE(this=_col("new_score"), expression=_num(cutoffs[1]))
-        ranked_columns.append(_as(_case([
+        accepted_old = exp.GTE(this=column("old_score"), expression=number(cutoffs[0]))
+        accepted_new = exp.GTE(this=column("new_score"), expression=number(cutoffs[1]))
+        ranked_columns.append(alias(case([
             (exp.and_(accepted_old.copy(), accepted_new.copy()), exp.Literal.string("accepted_by_both")),
             (accepted_old.copy(), exp.Literal.string("swap_out")),
             (accepted_new.copy(), exp.Literal.string("swap_in")),
@@ -373,7 +330,7 @@ def impact_query(
 
     # picked: the rows quantiles need (a step of its own: PostgreSQL cannot refer to a column
     # alias of the same SELECT)
-    picks = [_as(_order_statistic_pick(f"{q}_position"), f"{q}_pick") for q in ("score_change", "pd_change")]
+    picks = [alias(_order_statistic_pick(f"{q}_position"), f"{q}_pick") for q in ("score_change", "pd_change")]
     picked = _over([exp.Star(), *picks], ranked, "ranked")
 
     # the aggregates, in two passes: one GROUP BY over every key at once (a single hash table
@@ -388,43 +345,43 @@ def impact_query(
     keys = [name for names in groups.values() for name in names]
     partial = [  # (name, aggregate over rows, how partial results combine)
         ("rows", exp.Count(this=exp.Star()), exp.Sum),
-        ("events", exp.Sum(this=_col("outcome")), exp.Sum),
-        ("rows_with_outcome", exp.Count(this=_col("outcome")), exp.Sum),
-        ("invalid_outcomes", exp.Sum(this=_col("invalid_outcome")), exp.Sum),
-        ("sum_score_change", exp.Sum(this=_col("score_change")), exp.Sum),
-        ("min_score_change", exp.Min(this=_col("score_change")), exp.Min),
-        ("max_score_change", exp.Max(this=_col("score_change")), exp.Max),
-        ("sum_pd_change", exp.Sum(this=_col("pd_change")), exp.Sum),
-        ("min_pd_change", exp.Min(this=_col("pd_change")), exp.Min),
-        ("max_pd_change", exp.Max(this=_col("pd_change")), exp.Max),
-        ("sum_old_score", exp.Sum(this=_col("old_score")), exp.Sum),
-        ("sum_new_score", exp.Sum(this=_col("new_score")), exp.Sum),
-        ("sum_old_pd", exp.Sum(this=_col("old_pd")), exp.Sum),
-        ("sum_new_pd", exp.Sum(this=_col("new_pd")), exp.Sum),
-        ("sum_rank_products", exp.Sum(this=_col("old_rank") * _col("new_rank")), exp.Sum),
-        ("sum_old_rank_squares", exp.Sum(this=_col("old_rank") * _col("old_rank")), exp.Sum),
-        ("sum_new_rank_squares", exp.Sum(this=_col("new_rank") * _col("new_rank")), exp.Sum),
+        ("events", exp.Sum(this=column("outcome")), exp.Sum),
+        ("rows_with_outcome", exp.Count(this=column("outcome")), exp.Sum),
+        ("invalid_outcomes", exp.Sum(this=column("invalid_outcome")), exp.Sum),
+        ("sum_score_change", exp.Sum(this=column("score_change")), exp.Sum),
+        ("min_score_change", exp.Min(this=column("score_change")), exp.Min),
+        ("max_score_change", exp.Max(this=column("score_change")), exp.Max),
+        ("sum_pd_change", exp.Sum(this=column("pd_change")), exp.Sum),
+        ("min_pd_change", exp.Min(this=column("pd_change")), exp.Min),
+        ("max_pd_change", exp.Max(this=column("pd_change")), exp.Max),
+        ("sum_old_score", exp.Sum(this=column("old_score")), exp.Sum),
+        ("sum_new_score", exp.Sum(this=column("new_score")), exp.Sum),
+        ("sum_old_pd", exp.Sum(this=column("old_pd")), exp.Sum),
+        ("sum_new_pd", exp.Sum(this=column("new_pd")), exp.Sum),
+        ("sum_rank_products", exp.Sum(this=column("old_rank") * column("new_rank")), exp.Sum),
+        ("sum_old_rank_squares", exp.Sum(this=column("old_rank") * column("old_rank")), exp.Sum),
+        ("sum_new_rank_squares", exp.Sum(this=column("new_rank") * column("new_rank")), exp.Sum),
     ]
-    cells = _over([*[_col(k) for k in keys], *[_as(e, n) for n, e, _ in partial]], picked, "picked")
-    cells.set("group", exp.Group(expressions=[_col(k) for k in keys]))
+    cells = _over([*[column(k) for k in keys], *[alias(e, n) for n, e, _ in partial]], picked, "picked")
+    cells.set("group", exp.Group(expressions=[column(k) for k in keys]))
 
-    selected: list[tuple[str, exp.Expression]] = [(k, _col(k)) for k in keys]
+    selected: list[tuple[str, exp.Expression]] = [(k, column(k)) for k in keys]
     for grouping, names in groups.items():
-        selected.append((f"grouping_{grouping}", exp.Grouping(expressions=[_col(names[0])])))
-    selected += [(n, combine(this=_col(n))) for n, _, combine in partial]
-    query = _over([_as(e, n) for n, e in selected], cells, "cells")
-    sets = [exp.Tuple(expressions=[])] + [exp.Tuple(expressions=[_col(n) for n in names]) for names in groups.values()]
+        selected.append((f"grouping_{grouping}", exp.Grouping(expressions=[column(names[0])])))
+    selected += [(n, combine(this=column(n))) for n, _, combine in partial]
+    query = _over([alias(e, n) for n, e in selected], cells, "cells")
+    sets = [exp.Tuple(expressions=[])] + [exp.Tuple(expressions=[column(n) for n in names]) for names in groups.values()]
     query.set("group", exp.Group(grouping_sets=[exp.GroupingSets(expressions=sets)]))
-    return ImpactQuery(query, tuple(n for n, _ in selected))
+    return query
 
 
 def _band(change: exp.Expression, steps: Sequence[float], unchanged: float) -> exp.Expression:
     """Signed band number: 0 unchanged, ±1 … ±len(steps)+1 by the size of the change."""
     size = exp.Abs(this=change.copy())
-    branches = [(exp.LTE(this=size.copy(), expression=_num(unchanged)), _int(0))]
-    branches += [(exp.LT(this=size.copy(), expression=_num(step)), _int(k)) for k, step in enumerate(steps, start=1)]
-    magnitude = _case(branches, _int(len(steps) + 1))
-    return _case([(exp.LT(this=change.copy(), expression=_num(0.0)), exp.Neg(this=exp.paren(magnitude.copy())))],
+    branches = [(exp.LTE(this=size.copy(), expression=number(unchanged)), integer(0))]
+    branches += [(exp.LT(this=size.copy(), expression=number(step)), integer(k)) for k, step in enumerate(steps, start=1)]
+    magnitude = case(branches, integer(len(steps) + 1))
+    return case([(exp.LT(this=change.copy(), expression=number(0.0)), exp.Neg(this=exp.paren(magnitude.copy())))],
                  magnitude)
 
 
@@ -437,10 +394,10 @@ def _order_statistic_pick(position: str) -> exp.Expression:
     """
     wanted = []
     for q in QUANTILES:
-        low = exp.Floor(this=exp.paren(_col("population_rows") - _num(1.0)) * _num(q))
+        low = exp.Floor(this=exp.paren(column("population_rows") - number(1.0)) * number(q))
         for step in (1, 2):
-            wanted.append(exp.EQ(this=_col(position), expression=low.copy() + _int(step)))
-    return _case([(exp.or_(*wanted), _col(position))], exp.Null())
+            wanted.append(exp.EQ(this=column(position), expression=low.copy() + integer(step)))
+    return case([(exp.or_(*wanted), column(position))], exp.Null())
 
 
 def _q_name(q: float) -> str:
@@ -469,23 +426,22 @@ def band_labels(steps: Sequence[float], unit: str, scale: float = 1.0, digits: i
 
 
 def summarise_impact(
-    columns: Sequence[str],
-    rows: Sequence[Sequence],
+    rows: Sequence[Mapping],
     old: Spec,
     new: Spec,
     population: str,
     outcome: str | None = None,
     cutoffs: tuple[float, float] | None = None,
 ) -> Impact:
-    """Turn the rows of :func:`impact_query` into an :class:`Impact`.
+    """Turn the rows of :func:`impact_query` (named: mappings from column name to value) into an :class:`Impact`.
 
     Raises :class:`InputError` when the population is empty or the outcome column holds
     values other than 0, 1 and NULL.
     """
-    records = [dict(zip(columns, row)) for row in rows]
-    flags = [name for name in GROUPINGS if f"grouping_{name}" in columns]
+    records = list(rows)
+    flags = [name for name in GROUPINGS if records and f"grouping_{name}" in records[0]]
 
-    def of(grouping: str | None) -> list[dict]:
+    def of(grouping: str | None) -> list[Mapping]:
         wanted = [r for r in records if all(r[f"grouping_{g}"] == (0 if g == grouping else 1) for g in flags)]
         return wanted
 
@@ -570,16 +526,14 @@ def summarise_impact(
     )
 
 
-def check_outcome_type(outcome: str, columns: Mapping[str, str]) -> bool:
+def check_outcome_type(outcome: str, columns: Mapping[str, Column]) -> bool:
     """True when the outcome column is boolean; raises :class:`InputError` when it is missing or not 0/1-able."""
-    kind = columns.get(outcome)
-    if kind is None:
+    found = columns.get(outcome)
+    if found is None:
         raise InputError(f"outcome column {outcome!r} is not in the input; name a 0/1 column with --outcome")
-    upper = kind.upper()
-    if upper in ("BOOLEAN", "BOOL"):
+    if found.kind == BOOLEAN:
         return True
-    numeric = ("INT", "DOUBLE", "FLOAT", "REAL", "DECIMAL", "NUMERIC", "BIGINT", "SMALLINT", "TINYINT", "HUGEINT")
-    if not any(word in upper for word in numeric):
-        raise InputError(f"outcome column {outcome!r} is {kind}; it must hold 0/1 (or true/false), "
+    if not found.is_number:
+        raise InputError(f"outcome column {outcome!r} is {found.type_name}; it must hold 0/1 (or true/false), "
                          "with NULL where the outcome is not yet known")
     return False

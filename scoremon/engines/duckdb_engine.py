@@ -1,45 +1,54 @@
 """DuckDB, embedded: a database file or memory, with Parquet/CSV read in place.
 
-Implements the :class:`~scoremon.engines.Engine` protocol, plus :meth:`DuckDBEngine.write_file`
-(Parquet or CSV, written atomically through :mod:`scoremon.files`) and a progress watcher (DuckDB reports the running query's progress to a second thread).
+Implements the :class:`~scoremon.engines.Engine` protocol, with :meth:`DuckDBEngine.write_file`
+(Parquet or CSV, written atomically through :mod:`scoremon.files`), and a progress watcher
+(DuckDB reports the running query's progress to a second thread).
 """
 from __future__ import annotations
 
 import threading
 import uuid
 from pathlib import Path
-from typing import Any, Sequence
+from typing import TYPE_CHECKING, Any, Sequence
 
 import duckdb
-import pandas as pd
+from sqlglot import exp
 
 from ..dialects import render_table
 from ..errors import EngineError, InputError
 from ..files import atomic_output
-from .protocol import ColumnSpec, Progress
+from ..trees import INTERNAL, table_path
+from .columns import column_of
+from .protocol import Column, ColumnSpec, Engine, Progress, Query, Row, first_line, named_rows
 from .rows import arrow_table
 
-INTERNAL = "__scoremon_"  # prefix of the names scoremon gives its own scratch tables and views
+if TYPE_CHECKING:  # pandas is imported where a frame is made
+    import pandas as pd
 
 
-class DuckDBEngine:
+class DuckDBEngine(Engine):
     """DuckDB, in memory or in a database file.
 
-    >>> engine = DuckDBEngine(":memory:")
-    >>> engine.fetch("SELECT 1 + 1", "arithmetic")
-    [(2,)]
+    >>> from scoremon.trees import alias, integer
+    >>> with DuckDBEngine(":memory:") as engine:
+    ...     engine.query(exp.select(alias(integer(1) + integer(1), "two")), "arithmetic")
+    [Row(two=2)]
     """
 
     dialect = "duckdb"
     ignores_column_case = True  # DuckDB matches names ignoring case, quoted or not
+    is_transactional = True
+    reads_files = True
+    writes_parquet = True
 
     def __init__(self, database: str = ":memory:", threads: int | None = None, memory_limit: str | None = None):
-        self._duckdb = duckdb
+        self._driver_errors = (duckdb.Error,)
+        self.label = "duckdb"
         self.database = database
         try:
             self.connection = duckdb.connect(database)
         except duckdb.Error as error:
-            raise EngineError("opening the database", f"duckdb {database}", str(error)) from error
+            raise EngineError("opening the database", f"duckdb {database}", first_line(error)) from error
         # DuckDB draws its own progress bar on standard output for long queries, in the middle of
         # our reports; its progress still reaches scoremon's own bar through query_progress().
         self.connection.execute("SET enable_progress_bar_print = false")
@@ -50,58 +59,75 @@ class DuckDBEngine:
 
     # -- the protocol
 
-    def execute(self, sql: str, purpose: str) -> None:
+    def execute(self, statement: Query, purpose: str) -> None:
+        sql = self._sql(statement)
         self._run(lambda: self.connection.execute(sql), purpose)
 
-    def fetch(self, sql: str, purpose: str, progress: Progress | None = None) -> list[tuple]:
-        return self._run(lambda: self.connection.execute(sql).fetchall(), purpose, progress)
+    def query(self, tree: Query, purpose: str, progress: Progress | None = None) -> list[Row]:
+        sql = self._sql(tree)
 
-    def fetch_frame(self, sql: str, purpose: str) -> pd.DataFrame:
+        def work():
+            result = self.connection.execute(sql)
+            return named_rows([column[0] for column in result.description], result.fetchall())
+
+        return self._watched(work, purpose, progress)
+
+    def query_frame(self, tree: Query, purpose: str) -> pd.DataFrame:
+        sql = self._sql(tree)
         return self._run(lambda: self.connection.execute(sql).df(), purpose)
 
-    def describe(self, sql: str, purpose: str) -> list[tuple[str, str]]:
+    def describe(self, tree: Query, purpose: str) -> list[Column]:
+        sql = self._sql(tree)
         rows = self._run(lambda: self.connection.execute(f"DESCRIBE {sql}").fetchall(), purpose)
-        return [(row[0], row[1]) for row in rows]
+        return [column_of(row[0], row[1], self.dialect) for row in rows]
 
-    def write_table(self, sql: str, table: list[str], purpose: str, progress: Progress | None = None) -> None:
-        """Replace ``table`` with the result of ``sql`` in one transaction: all or nothing."""
-        statement = f"CREATE OR REPLACE TABLE {render_table(table, self.dialect)} AS {sql}"
+    def explain(self, tree: Query, purpose: str) -> str:
+        sql = self._sql(tree)
+        rows = self._run(lambda: self.connection.execute(f"EXPLAIN {sql}").fetchall(), purpose)
+        return "\n".join(str(row[-1]) for row in rows)
 
-        self._run(lambda: self._in_transaction([statement]), purpose, progress)
+    def write_table(self, tree: Query, table: Sequence[str], purpose: str, progress: Progress | None = None) -> None:
+        """Replace ``table`` with the result of a query in one transaction: all or nothing."""
+        statement = f"CREATE OR REPLACE TABLE {render_table(table, self.dialect)} AS {self._sql(tree)}"
+        self._watched(lambda: self._in_transaction([statement]), purpose, progress)
 
-    def execute_atomically(self, statements: Sequence[str], purpose: str) -> None:
+    def execute_atomically(self, statements: Sequence[Query], purpose: str) -> None:
         """Run ``statements`` in one transaction: all take effect, or (on any error) none."""
+        texts = [self._sql(statement) for statement in statements]
+        self._run(lambda: self._in_transaction(texts), purpose)
 
-        self._run(lambda: self._in_transaction(statements), purpose)
-
-    def write_rows(self, table: list[str], columns: Sequence[ColumnSpec], rows: Sequence[Sequence[Any]],
+    def write_rows(self, table: Sequence[str], columns: Sequence[ColumnSpec], rows: Sequence[Sequence[Any]],
                    purpose: str) -> None:
         """Replace ``table`` with ``rows`` in one transaction (an Arrow table keeps NaN apart from NULL)."""
         data = arrow_table(columns, rows)
         view = f"{INTERNAL}rows_{uuid.uuid4().hex}"
         self._run(lambda: self.connection.register(view, data), purpose)
         try:
-            self.write_table(f"SELECT * FROM {render_table([view], self.dialect)}", table, purpose)
+            self.write_table(exp.select(exp.Star()).from_(table_path([view])), table, purpose)
         finally:
             self.connection.unregister(view)
 
-    def write_parquet(self, sql: str, path: str | Path, purpose: str, progress: Progress | None = None) -> None:
-        """Write the result of ``sql`` to a Parquet file; the file appears whole or not at all."""
-        self.write_file(sql, path, purpose, progress, "parquet")
+    def write_parquet(self, tree: Query, path: str | Path, purpose: str, progress: Progress | None = None) -> None:
+        """Write the result of a query to a Parquet file; the file appears whole or not at all."""
+        self.write_file(tree, path, purpose, progress, "parquet")
 
-    def write_file(self, sql: str, path: str | Path, purpose: str, progress: Progress | None = None,
+    def write_file(self, tree: Query, path: str | Path, purpose: str, progress: Progress | None = None,
                    file_format: str = "parquet") -> None:
-        """Write the result of ``sql`` to a ``parquet`` or ``csv`` (with a header) file, through
-        :func:`scoremon.files.atomic_output`: the file appears whole or not at all."""
+        """Write the result of a query to a ``parquet`` or ``csv`` (with a header) file, through
+        :func:`scoremon.files.atomic_output`: the file appears whole or not at all. A tree going
+        to Parquet is rendered for it (text constants as ENUM, see :mod:`scoremon.dialects`)."""
         options = {"parquet": "FORMAT PARQUET", "csv": "FORMAT CSV, HEADER"}.get(file_format)
         if options is None:
             raise InputError(f"cannot write {file_format!r} files; write parquet or csv")
+        parquet = file_format == "parquet" and isinstance(tree, exp.Expression)
+        sql = self.prepare(tree, for_parquet=True).sql if parquet else self._sql(tree)
         path = Path(path)
         if not path.parent.exists():
             raise InputError(f"{path}: folder {path.parent} does not exist; create it or choose another path")
         with atomic_output(path) as partial:
             literal = "'" + str(partial).replace("'", "''") + "'"
-            self._run(lambda: self.connection.execute(f"COPY ({sql}) TO {literal} ({options})"), purpose, progress)
+            self._watched(lambda: self.connection.execute(f"COPY ({sql}) TO {literal} ({options})"), purpose,
+                          progress)
 
     def close(self) -> None:
         self.connection.close()
@@ -117,29 +143,31 @@ class DuckDBEngine:
         except BaseException:
             try:
                 self.connection.execute("ROLLBACK")
-            except self._duckdb.Error:
+            except duckdb.Error:
                 # a COMMIT that failed (a full disk) has already ended the transaction, and the
                 # ROLLBACK's "no transaction is active" would hide the first cause: show that one
                 pass
             raise
 
-    def _run(self, work, purpose: str, progress: Progress | None = None):
-        watcher = _ProgressWatcher(self.connection, progress) if progress else None
+    def _run(self, work, purpose: str):
         try:
-            if watcher:
-                watcher.start()
-            return work()
-        except self._duckdb.Error as error:
-            raise EngineError(purpose, "duckdb", str(error).splitlines()[0]) from error
+            return super()._run(work, purpose)
         except RuntimeError as error:
             # DuckDB swallows the KeyboardInterrupt of a Ctrl-C that stops a running query and
             # raises RuntimeError("Query interrupted") instead: give the interrupt back
             if str(error).strip() == "Query interrupted":
                 raise KeyboardInterrupt from error
             raise
+
+    def _watched(self, work, purpose: str, progress: Progress | None):
+        if progress is None:
+            return self._run(work, purpose)
+        watcher = _ProgressWatcher(self.connection, progress)
+        watcher.start()
+        try:
+            return self._run(work, purpose)
         finally:
-            if watcher:
-                watcher.stop()
+            watcher.stop()
 
 
 def _plain_size(text: str) -> str:

@@ -10,19 +10,20 @@ from __future__ import annotations
 
 import uuid
 from decimal import Decimal
-from typing import Any, Sequence
-
-import pandas as pd
+from typing import TYPE_CHECKING, Any, Sequence
 
 from ..dialects import render_name, render_table, render_type
 from ..errors import EngineError, InputError
-from .protocol import ColumnSpec, Progress
+from ..trees import INTERNAL
+from .columns import column_of
+from .protocol import Column, ColumnSpec, Engine, Progress, Query, Row, first_line, named_rows
 from .urls import redact
 
-INTERNAL = "__scoremon_"  # prefix of the names scoremon gives its own scratch tables
+if TYPE_CHECKING:  # pandas is imported where a frame is made
+    import pandas as pd
 
 
-class PostgresEngine:
+class PostgresEngine(Engine):
     """A PostgreSQL database, e.g. ``PostgresEngine("postgresql://scorer@db.example:5432/book")``.
 
     The connection runs in autocommit mode; :meth:`write_table` and :meth:`write_rows` open
@@ -31,6 +32,9 @@ class PostgresEngine:
 
     dialect = "postgres"
     ignores_column_case = False  # a quoted name matches only its own spelling
+    is_transactional = True
+    reads_files = False
+    writes_parquet = False
 
     def __init__(self, url: str):
         # psycopg is an optional extra (``scoremon[engines]``): imported only when a PostgreSQL URL
@@ -39,52 +43,74 @@ class PostgresEngine:
             import psycopg
         except ImportError as error:
             raise InputError("a PostgreSQL URL needs psycopg; install it with: pip install 'scoremon[engines]'") from error
-        self._driver_error = psycopg.Error
+        self._driver_errors = (psycopg.Error,)
         self.label = f"postgres {redact(url)}"
         try:
             self.connection = psycopg.connect(url, autocommit=True)
         except psycopg.Error as error:
-            raise EngineError("connecting", self.label, _first_line(error)) from error
+            raise EngineError("connecting", self.label, first_line(error)) from error
 
     # -- the protocol
 
-    def execute(self, sql: str, purpose: str) -> None:
+    def execute(self, statement: Query, purpose: str) -> None:
+        sql = self._sql(statement)
+
         def work():
             with self.connection.cursor() as cursor:
                 cursor.execute(sql)
 
         self._run(work, purpose)
 
-    def fetch(self, sql: str, purpose: str, progress: Progress | None = None) -> list[tuple]:
-        rows, _ = self._run(lambda: self._query(sql), purpose)
+    def query(self, tree: Query, purpose: str, progress: Progress | None = None) -> list[Row]:
+        rows, names = self._run(lambda: self._query(self._sql(tree)), purpose)
         if progress:
             progress(1.0)
-        return rows
+        return named_rows(names, rows)
 
-    def fetch_frame(self, sql: str, purpose: str) -> pd.DataFrame:
-        rows, names = self._run(lambda: self._query(sql), purpose)
+    def query_frame(self, tree: Query, purpose: str) -> pd.DataFrame:
+        import pandas as pd
+
+        rows, names = self._run(lambda: self._query(self._sql(tree)), purpose)
         return pd.DataFrame.from_records(rows, columns=names)
 
-    def describe(self, sql: str, purpose: str) -> list[tuple[str, str]]:
-        """Column names and types as PostgreSQL spells them (``DOUBLE PRECISION``, ``TEXT``, …)."""
+    def describe(self, tree: Query, purpose: str) -> list[Column]:
+        sql = self._sql(tree)
+
         def work():
             with self.connection.cursor() as cursor:
                 # LIMIT 0: planned and typed, but no row is read
                 cursor.execute(f'SELECT * FROM ({sql}) AS "{INTERNAL}described" LIMIT 0')
-                return [(column.name, column.type_display.upper()) for column in cursor.description]
+                # type names as PostgreSQL spells them (DOUBLE PRECISION, TEXT, NUMERIC, …)
+                return [column_of(column.name, column.type_display.upper(), self.dialect)
+                        for column in cursor.description]
 
         return self._run(work, purpose)
 
-    def write_table(self, sql: str, table: list[str], purpose: str, progress: Progress | None = None) -> None:
-        """Replace ``table`` with the result of ``sql`` in one transaction (see the module docstring)."""
+    def explain(self, tree: Query, purpose: str) -> str:
+        sql = self._sql(tree)
+        rows, _ = self._run(lambda: self._query(f"EXPLAIN (VERBOSE, COSTS OFF) {sql}"), purpose)
+        return "\n".join(str(row[0]) for row in rows)
+
+    def write_table(self, tree: Query, table: Sequence[str], purpose: str, progress: Progress | None = None) -> None:
+        """Replace ``table`` with the result of a query in one transaction (see the module docstring)."""
+        table = list(table)
         scratch = table[:-1] + [f"{INTERNAL}new_{uuid.uuid4().hex}"]
-        self._swap_in(table, scratch, [f"CREATE TABLE {render_table(scratch, self.dialect)} AS {sql}"], purpose)
+        self._swap_in(table, scratch, [f"CREATE TABLE {render_table(scratch, self.dialect)} AS {self._sql(tree)}"],
+                      purpose)
         if progress:
             progress(1.0)
 
-    def write_rows(self, table: list[str], columns: Sequence[ColumnSpec], rows: Sequence[Sequence[Any]],
+    def write_parquet(self, tree: Query, path, purpose: str, progress: Progress | None = None) -> None:
+        self.write_file(tree, path, purpose, progress)
+
+    def write_file(self, tree: Query, path, purpose: str, progress: Progress | None = None,
+                   file_format: str = "parquet") -> None:
+        raise InputError("writing a Parquet or CSV file needs the DuckDB engine; write a table instead")
+
+    def write_rows(self, table: Sequence[str], columns: Sequence[ColumnSpec], rows: Sequence[Sequence[Any]],
                    purpose: str) -> None:
         """Replace ``table`` with ``rows`` through COPY, in one transaction; NaN and ±inf are kept."""
+        table = list(table)
         scratch = table[:-1] + [f"{INTERNAL}new_{uuid.uuid4().hex}"]
         names = ", ".join(render_name(name, self.dialect) for name, _ in columns)
         definition = ", ".join(f"{render_name(name, self.dialect)} {render_type(kind, self.dialect)}"
@@ -101,13 +127,14 @@ class PostgresEngine:
         self._swap_in(table, scratch, [f"CREATE TABLE {render_table(scratch, self.dialect)} ({definition})", copy_rows],
                       purpose)
 
-    def execute_atomically(self, statements: Sequence[str], purpose: str) -> None:
+    def execute_atomically(self, statements: Sequence[Query], purpose: str) -> None:
         """Run ``statements`` in one transaction: all take effect, or (on any error) none."""
+        texts = [self._sql(statement) for statement in statements]
 
         def work():
             with self.connection.transaction(), self.connection.cursor() as cursor:
-                for statement in statements:
-                    cursor.execute(statement)
+                for text in texts:
+                    cursor.execute(text)
 
         self._run(work, purpose)
 
@@ -140,11 +167,6 @@ class PostgresEngine:
             names = [column.name for column in cursor.description or ()]
             return [tuple(_plain(value) for value in row) for row in cursor.fetchall()], names
 
-    def _run(self, work, purpose: str):
-        try:
-            return work()
-        except self._driver_error as error:
-            raise EngineError(purpose, self.label, _first_line(error)) from error
 
 
 def _plain(value):
@@ -160,7 +182,3 @@ def _plain(value):
             return int(value)
     return value
 
-
-def _first_line(error: BaseException) -> str:
-    text = str(error).strip()
-    return text.splitlines()[0] if text else type(error).__name__

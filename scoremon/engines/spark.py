@@ -19,17 +19,20 @@ import logging
 import os
 import re
 import uuid
-from typing import Any, Mapping, Sequence
+from typing import TYPE_CHECKING, Any, Mapping, Sequence
 from urllib.parse import parse_qsl
 
-import pandas as pd
+from sqlglot import exp
 
 from ..dialects import render_table
 from ..errors import EngineError, InputError
-from .protocol import ColumnSpec, Progress
+from ..trees import INTERNAL, table_path
+from .columns import column_of
+from .protocol import Column, ColumnSpec, Engine, Progress, Query, Row, first_line, named_rows
 from .rows import arrow_table
 
-INTERNAL = "__scoremon_"  # prefix of the names scoremon gives its own scratch tables and views
+if TYPE_CHECKING:  # pandas is imported where a frame is made
+    import pandas as pd
 _LOCAL = re.compile(r"^local(\[(\d+|\*)\])?$")
 # Spark's session catalog accepts only these table and schema names (INVALID_SCHEMA_OR_RELATION_NAME)
 _CATALOG_NAME = re.compile(r"^[A-Za-z0-9_]+$")
@@ -59,7 +62,7 @@ def spark_master(url: str, threads: int | None = None) -> tuple[str, dict[str, s
     return f"spark://{target}", config
 
 
-class SparkEngine:
+class SparkEngine(Engine):
     """Spark SQL, e.g. ``SparkEngine("local[2]")`` or ``SparkEngine("spark://head:7077")``.
 
     A Spark session already running in this process is reused (Spark allows one per process)
@@ -67,6 +70,9 @@ class SparkEngine:
     """
 
     dialect = "spark"
+    is_transactional = False  # see execute_atomically and write_table: best effort
+    reads_files = False
+    writes_parquet = False
 
     def __init__(self, master: str = "local[1]", config: Mapping[str, str] | None = None):
         # pyspark is an optional, heavy extra (``scoremon[engines]``; it starts a JVM): imported
@@ -111,7 +117,7 @@ class SparkEngine:
         try:
             self.session = builder.getOrCreate()
         except self._driver_errors as error:
-            raise EngineError("starting a Spark session", self.label, _first_line(error)) from error
+            raise EngineError("starting a Spark session", self.label, first_line(error)) from error
         self.session.sparkContext.setLogLevel("ERROR")
         self._owns_session = True
 
@@ -122,16 +128,27 @@ class SparkEngine:
 
     # -- the protocol
 
-    def execute(self, sql: str, purpose: str) -> None:
+    def execute(self, statement: Query, purpose: str) -> None:
+        sql = self._sql(statement)
         self._run(lambda: self.session.sql(sql).collect(), purpose)
 
-    def fetch(self, sql: str, purpose: str, progress: Progress | None = None) -> list[tuple]:
-        rows = self._run(lambda: [tuple(row) for row in self.session.sql(sql).collect()], purpose)
+    def query(self, tree: Query, purpose: str, progress: Progress | None = None) -> list[Row]:
+        sql = self._sql(tree)
+
+        def work():
+            result = self.session.sql(sql)
+            return named_rows(result.columns, [tuple(row) for row in result.collect()])
+
+        rows = self._run(work, purpose)
         if progress:
             progress(1.0)
         return rows
 
-    def fetch_frame(self, sql: str, purpose: str) -> pd.DataFrame:
+    def query_frame(self, tree: Query, purpose: str) -> pd.DataFrame:
+        import pandas as pd
+
+        sql = self._sql(tree)
+
         # built from collected rows: pyspark's toPandas does not yet support pandas 3
         def work():
             result = self.session.sql(sql)
@@ -139,14 +156,29 @@ class SparkEngine:
 
         return self._run(work, purpose)
 
-    def describe(self, sql: str, purpose: str) -> list[tuple[str, str]]:
-        """Column names and Spark's type names upper-cased (``DOUBLE``, ``STRING``, ``INT``, …); runs nothing."""
+    def describe(self, tree: Query, purpose: str) -> list[Column]:
+        """Each column with its kind, from Spark's type names (``DOUBLE``, ``STRING``, ``INT``, …); runs nothing."""
+        sql = self._sql(tree)
         schema = self._run(lambda: self.session.sql(sql).schema, purpose)
-        return [(field.name, field.dataType.simpleString().upper()) for field in schema.fields]
+        return [column_of(field.name, field.dataType.simpleString().upper(), self.dialect) for field in schema.fields]
 
-    def write_table(self, sql: str, table: list[str], purpose: str, progress: Progress | None = None) -> None:
-        """Replace ``table`` with the result of ``sql``, best-effort atomic (see the module docstring)."""
+    def explain(self, tree: Query, purpose: str) -> str:
+        sql = self._sql(tree)
+        rows = self._run(lambda: self.session.sql(f"EXPLAIN EXTENDED {sql}").collect(), purpose)
+        return "\n".join(str(row[0]) for row in rows)
+
+    def write_parquet(self, tree: Query, path, purpose: str, progress: Progress | None = None) -> None:
+        self.write_file(tree, path, purpose, progress)
+
+    def write_file(self, tree: Query, path, purpose: str, progress: Progress | None = None,
+                   file_format: str = "parquet") -> None:
+        raise InputError("writing a Parquet or CSV file needs the DuckDB engine; write a table instead")
+
+    def write_table(self, tree: Query, table: Sequence[str], purpose: str, progress: Progress | None = None) -> None:
+        """Replace ``table`` with the result of a query, best-effort atomic (see the module docstring)."""
+        table = list(table)
         _check_catalog_name(table)
+        sql = self._sql(tree)
         token = uuid.uuid4().hex
         scratch = table[:-1] + [f"{INTERNAL}new_{token}"]
         aside = table[:-1] + [f"{INTERNAL}old_{token}"]
@@ -171,7 +203,7 @@ class SparkEngine:
         if progress:
             progress(1.0)
 
-    def write_rows(self, table: list[str], columns: Sequence[ColumnSpec], rows: Sequence[Sequence[Any]],
+    def write_rows(self, table: Sequence[str], columns: Sequence[ColumnSpec], rows: Sequence[Sequence[Any]],
                    purpose: str) -> None:
         """Replace ``table`` with ``rows``: a DataFrame with an explicit schema (Arrow's), then
         :meth:`write_table`. Spark's DOUBLE keeps NaN and ±inf apart from NULL."""
@@ -180,24 +212,25 @@ class SparkEngine:
         view = f"{INTERNAL}rows_{uuid.uuid4().hex}"
         self._run(lambda: self.session.createDataFrame(data).createOrReplaceTempView(view), purpose)
         try:
-            self.write_table(f"SELECT * FROM {render_table([view], self.dialect)}", table, purpose)
+            self.write_table(exp.select(exp.Star()).from_(table_path([view])), table, purpose)
         finally:
             self.session.catalog.dropTempView(view)
 
-    def execute_atomically(self, statements: Sequence[str], purpose: str) -> None:
+    def execute_atomically(self, statements: Sequence[Query], purpose: str) -> None:
         """Run ``statements`` in order, best effort: Spark's catalogs have no transactions.
 
         Each statement is atomic on its own (an INSERT commits its files whole or not at all), but
         a failure part-way leaves the statements before it in effect; the error says how many.
         """
-        for done, statement in enumerate(statements):
+        texts = [self._sql(statement) for statement in statements]
+        for done, text in enumerate(texts):
             try:
-                self._run(lambda: self.session.sql(statement).collect(), purpose)
+                self._run(lambda: self.session.sql(text).collect(), purpose)
             except EngineError as error:
                 if done:
                     raise EngineError(f"{purpose} (Spark has no transactions: the first {done} of "
-                                      f"{len(statements)} statements took effect)", self.label,
-                                      str(error).split(" failed: ", 1)[-1]) from error.__cause__
+                                      f"{len(texts)} statements took effect)", self.label,
+                                      error.detail) from error.__cause__
                 raise
 
     def close(self) -> None:
@@ -216,11 +249,6 @@ class SparkEngine:
         except self._driver_errors:  # cleaning up after a failure: the first error is the one reported
             pass
 
-    def _run(self, work, purpose: str):
-        try:
-            return work()
-        except self._driver_errors as error:
-            raise EngineError(purpose, self.label, _first_line(error)) from error
 
 
 def _check_catalog_name(table: list[str]) -> None:
@@ -239,7 +267,3 @@ def _cores(master: str) -> int:
         return 1
     return (os.cpu_count() or 2) if count == "*" else int(count)
 
-
-def _first_line(error: BaseException) -> str:
-    text = str(error).strip()
-    return text.splitlines()[0] if text else type(error).__name__

@@ -2,7 +2,9 @@
 
 Modules, in the order a run uses them:
 
+``run``         the monitoring run's sequence, start to end (the one owner of it)
 ``queries``     the aggregate queries as sqlglot trees (one grouped pass per kind of grouping)
+``passes``      runs each aggregate pass and reads its rows into a small record
 ``months``      month values, the calendar, maturity
 ``baseline``    the development distribution measured in the engine; writing it into a spec
 ``statistics``  PSI, critical values, Jeffreys, binomial, chi-square, Spiegelhalter, Brier,
@@ -13,30 +15,25 @@ Modules, in the order a run uses them:
 ``history``     appends a run to the history tables in one transaction
 
 Only aggregate tables reach Python; the engine is reached through the
-:class:`~scoremon.engines.Engine` protocol only.
+:class:`~scoremon.engines.Engine` protocol only. The package's face is the run
+(:func:`monitor_table`, :func:`measure_development`) and what its callers hand it or get back.
 """
-from .baseline import measure_baseline, spec_text_with_baseline
-from .history import write_history
-from .measure import BookMonths, measure_book, read_months
+from .baseline import spec_text_with_baseline, write_spec_with_baseline
 from .months import Month, parse_month
-from .queries import MonitoredRows, monitored_rows
 from .records import MonitorReport, MonthResult
+from .run import measure_development, monitor_table
 from .thresholds import DEFAULT_THRESHOLDS, Thresholds, load_thresholds
 
 __all__ = [
     "DEFAULT_THRESHOLDS",
-    "BookMonths",
     "MonitorReport",
-    "MonitoredRows",
     "Month",
     "MonthResult",
     "Thresholds",
     "load_thresholds",
-    "measure_baseline",
-    "measure_book",
-    "monitored_rows",
+    "measure_development",
+    "monitor_table",
     "parse_month",
-    "read_months",
     "spec_text_with_baseline",
-    "write_history",
+    "write_spec_with_baseline",
 ]

@@ -16,19 +16,23 @@ import math
 import re
 from dataclasses import dataclass
 from datetime import date, datetime, timezone
+from pathlib import Path
 from typing import Sequence
 
 import yaml
 from sqlglot import exp
 
-from ..dialects import render_sql
+from .. import files
 from ..errors import InputError
+from ..spec.canonical import fingerprint
+from ..spec.loading import parse_spec
 from ..spec.model import LINEAR_LABELS, Baseline, BaselineBand, LinearFeature, Spec
 from ..spec.terms import feature_terms
 from . import queries
 from .months import sort_months
+from .passes import BinCounts, bin_counts, decile_edges, histogram_sums, month_sums
 from .queries import MonitoredRows
-from .statistics import HistogramSums, discrimination
+from .statistics import discrimination
 
 # Below this many development rows `scoremon baseline` warns. With 1,000 rows a 5 % bin holds
 # about 50 rows, and the baseline's own sampling noise in a PSI over ten score bands,
@@ -71,11 +75,6 @@ def band_edges(bands: Sequence[BaselineBand]) -> list[float]:
     return [b.lower for b in ordered[1:]]
 
 
-def run(engine, tree: exp.Expression, purpose: str) -> list[tuple]:
-    """Render ``tree`` for the engine and fetch its rows."""
-    return engine.fetch(render_sql(tree, engine.dialect, pretty=False), purpose)
-
-
 def measure_baseline(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expression,
                      where: exp.Expression | None = None, computed_from: str = "",
                      as_of: date | None = None) -> Baseline:
@@ -87,7 +86,7 @@ def measure_baseline(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expr
     range are left out and counted. Raises :class:`InputError` when there are no rows, a month
     value is not a month, or the outcome holds values other than 0, 1 and NULL.
     """
-    month_rows = run(engine, queries.month_pass(relation, spec, rows, where), "measuring the development volume")
+    month_rows = month_sums(engine, spec, rows, relation, where, "measuring the development volume")
     with_month, rows_out_of_range = month_rows, None
     if rows.has_month:
         # the monitor's parser and rule (scoremon.monitor.months): rows out of range are left out
@@ -95,57 +94,41 @@ def measure_baseline(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expr
         with_month = list(sorted_months.kept.values())
         rows_out_of_range = sorted_months.rows_out_of_range
         if sorted_months.rows_out_of_range or sorted_months.rows_later:
-            where = _and(where, queries.months_in([r[0] for r in with_month]))
-    offset = 1 if rows.has_month else 0
-    total = sum(int(r[offset] or 0) for r in with_month)
+            where = _and(where, queries.months_in([r.value for r in with_month]))
+    total = sum(r.rows for r in with_month)
     if total == 0:
         raise InputError(f"{computed_from or 'the development rows'}: no rows to compute a baseline from")
-    invalid = sum(int(r[-1] or 0) for r in with_month)
+    invalid = sum(r.invalid_outcomes for r in with_month)
     if invalid:
         raise InputError(f"{computed_from}: the outcome holds {invalid:,} values that are neither 1, 0 nor NULL; "
                          "fix the outcome column")
-    score_sum = sum(float(r[offset + 1] or 0.0) for r in with_month)
-    points_sums = [sum(float(r[offset + 2 + i] or 0.0) for r in with_month) for i in range(len(spec.features))]
-    unseen_offset = offset + 2 + len(spec.features)
-    unseen_sums = {name: sum(int(r[unseen_offset + i] or 0) for r in with_month)
-                   for i, name in enumerate(rows.unseen_features)}
+    score_sum = sum(r.score_sum for r in with_month)
+    points_sums = [sum(r.points_sums[i] for r in with_month) for i in range(len(spec.features))]
+    unseen_sums = {name: sum(r.unseen_rows[name] for r in with_month) for name in rows.unseen_features}
 
-    edge_row = run(engine, queries.decile_edges_pass(relation, _and(where, _has_month(rows))), "finding the score deciles")[0]
-    edges = sorted({float(e) for e in edge_row if e is not None})
-    bins = run(engine, queries.bins_pass(relation, spec, edges, False, _and(where, _has_month(rows))),
-               "counting development rows per score band and bin")
-    band_counts = [0] * (len(edges) + 1)
-    feature_counts: list[dict[str, int]] = [{} for _ in spec.features]
-    for row in bins:
-        count = int(row[-1])
-        if row[0] is not None:
-            band_counts[int(row[0])] += count
-            continue
-        for i in range(len(spec.features)):
-            if row[1 + i] is not None:
-                feature_counts[i][str(row[1 + i])] = count
-                break
+    where = _and(where, _has_month(rows))
+    edges = decile_edges(engine, relation, where, "finding the score deciles")
+    counted = bin_counts(engine, spec, relation, edges, False, where, "counting development rows per score band and bin")
+    counts = counted.get(None) or BinCounts([0] * (len(edges) + 1), [{} for _ in spec.features])
     lowers = [-math.inf] + edges
     uppers = edges + [math.inf]
-    score_bands = [BaselineBand(lower=lo, upper=hi, share=n / total) for lo, hi, n in zip(lowers, uppers, band_counts)]
+    score_bands = [BaselineBand(lower=lo, upper=hi, share=n / total) for lo, hi, n in zip(lowers, uppers, counts.bands)]
 
     feature_shares = {}
     for i, feature in enumerate(spec.features):
-        feature_shares[feature.name] = {b.label: feature_counts[i].get(b.label, 0) / total for b in feature_bins(spec, feature)}
+        feature_shares[feature.name] = {b.label: counts.bins[i].get(b.label, 0) / total for b in feature_bins(spec, feature)}
 
     event_rate = auc = ks = None
     if rows.has_outcome:
-        sums = run(engine, queries.discrimination_pass(relation, _and(where, _has_month(rows)), False),
-                   "measuring development discrimination")
-        if sums and sums[0][0] is not None:
-            histogram = HistogramSums(*[float(v) for v in sums[0]])
+        histogram = histogram_sums(engine, relation, where, False, "measuring development discrimination").get(None)
+        if histogram is not None:
             known = histogram.events + histogram.non_events
             event_rate = histogram.events / known if known else None
             found = discrimination(histogram)
             if found is not None:
                 auc, ks = found.auc, found.ks
 
-    months = [r for r in with_month if int(r[offset] or 0) > 0] if rows.has_month else []
+    months = [r for r in with_month if r.rows > 0] if rows.has_month else []
     return Baseline(
         computed_from=computed_from,
         computed_at=datetime.now(timezone.utc).replace(microsecond=0).isoformat(),
@@ -222,3 +205,25 @@ def spec_text_with_baseline(spec_text: str, baseline: Baseline) -> str:
     if after:
         section += "\n"
     return before + section + after
+
+
+def write_spec_with_baseline(spec_path: str | Path, baseline: Baseline, out_path: str | Path,
+                             replace: bool = False) -> Path:
+    """Write a copy of the spec at ``spec_path`` with ``baseline`` as its baseline section to ``out_path``.
+
+    Every other line is kept as written. The file appears whole or not at all
+    (:mod:`scoremon.files`). Raises :class:`InputError` when ``out_path`` is the spec itself
+    (a spec is never overwritten in place), when its folder does not exist, or when it exists
+    and ``replace`` is false.
+    """
+    spec_path, out_path = Path(spec_path), Path(out_path)
+    if files.is_same_file(out_path, spec_path):
+        raise InputError(f"--out {out_path} is the spec itself; a spec is never overwritten in place, "
+                         "give a new file name (e.g. one with the version in it)")
+    files.check_output(out_path, "--out", replace)
+    original = spec_path.read_text(encoding="utf-8")
+    text = spec_text_with_baseline(original, baseline)
+    written = parse_spec(text, file=str(out_path))
+    if fingerprint(written) != fingerprint(parse_spec(original, file=str(spec_path))):
+        raise RuntimeError("writing the baseline changed the model's fingerprint")  # a bug, never an input error
+    return files.write_text(out_path, text)

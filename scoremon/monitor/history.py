@@ -25,9 +25,9 @@ from typing import Iterator, Sequence
 
 from sqlglot import exp
 
-from ..compiler import identifier, integer, number, text
 from ..dialects import render_sql
-from ..errors import InputError
+from ..engines import Engine
+from ..trees import identifier, integer, number, text
 from .records import MATURE, MonitorReport
 
 RUNS_TABLE = "scoremon_monitor_runs"
@@ -193,17 +193,14 @@ def _insert(table: str, columns, rows: list[exp.Tuple]) -> exp.Insert:
     return exp.Insert(this=target, expression=exp.Values(expressions=rows))
 
 
-def write_history(engine, report: MonitorReport) -> int:
+def write_history(engine: Engine, report: MonitorReport) -> int:
     """Append ``report`` to the history tables in one transaction; return the metric rows written.
 
-    Raises :class:`~scoremon.errors.EngineError` (and leaves the history unchanged) when the
-    database refuses any statement, :class:`InputError` for an engine without transactions.
+    Raises :class:`~scoremon.errors.EngineError` (and, where the engine
+    :attr:`~scoremon.engines.Engine.is_transactional`, leaves the history unchanged) when the
+    database refuses any statement.
     """
-    if not hasattr(engine, "execute_atomically"):
-        raise InputError(f"the history is written in one transaction and {engine.dialect} has none; monitor "
-                         "from DuckDB or PostgreSQL, or run without the history (--no-history)")
-    statements = create_statements() + insert_statements(report)
-    engine.execute_atomically([render_sql(s, engine.dialect, pretty=False) for s in statements],
+    engine.execute_atomically(create_statements() + insert_statements(report),
                               "appending the run to the monitoring history")
     return len(metric_rows(report))
 

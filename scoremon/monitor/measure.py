@@ -42,15 +42,15 @@ from datetime import date, datetime, timezone
 from statistics import median
 from typing import Any, Iterator, Sequence
 
-from scipy.stats import norm
 from sqlglot import exp
 
-from ..dialects import render_sql
 from ..errors import InputError
 from ..spec.model import Baseline, CategoricalFeature, LinearFeature, Spec
+from ..trees import identifier
 from . import queries
-from .baseline import band_edges, feature_bins, run
+from .baseline import band_edges, feature_bins
 from .months import MONTHS_IN_RANGE, Month, calendar_between, is_mature, sort_months
+from .passes import BinCounts, GradeSums, bin_counts, grade_sums, histogram_sums, month_sums
 from .queries import MonitoredRows
 from .records import (
     IMMATURE,
@@ -78,6 +78,7 @@ from .statistics import (
     rate_change_critical_value,
     shares_with_empty_bin_rule,
     spiegelhalter,
+    z_value,
 )
 from .thresholds import ALERT, OK, STATUS_ORDER, WATCH, Limit, Thresholds, worst
 
@@ -91,16 +92,14 @@ def monitored_relation(engine, rows: MonitoredRows) -> Iterator[exp.Expression]:
     when rows are scored on the fly, a temporary table holding them, so that the scoring runs
     once and not once per pass. The temporary table is dropped on the way out."""
     if not rows.scored_on_the_fly:
-        yield exp.Subquery(this=rows.select.copy(), alias=exp.TableAlias(this=queries.identifier("monitored")))
+        yield exp.Subquery(this=rows.select.copy(), alias=exp.TableAlias(this=identifier("monitored")))
         return
     name = f"scoremon_monitored_{uuid.uuid4().hex[:12]}"
-    engine.execute(render_sql(queries.temporary_table(name, rows.select), engine.dialect, pretty=False),
-                   "scoring the monitored rows into a temporary table")
+    engine.execute(queries.temporary_table(name, rows.select), "scoring the monitored rows into a temporary table")
     try:
-        yield exp.Table(this=queries.identifier(name))
+        yield exp.Table(this=identifier(name))
     finally:
-        engine.execute(render_sql(queries.drop_table(name), engine.dialect, pretty=False),
-                       "dropping the temporary table of monitored rows")
+        engine.execute(queries.drop_table(name), "dropping the temporary table of monitored rows")
 
 
 @dataclass(frozen=True)
@@ -135,8 +134,8 @@ def read_months(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expressio
     Raises :class:`InputError` when the outcome holds values other than 0, 1 and NULL, when the
     month column holds something that is not a month, or when no month is on or before ``as_of``.
     """
-    result = run(engine, queries.month_pass(relation, spec, rows), "counting rows per month")
-    invalid = sum(int(r[-1] or 0) for r in result)
+    result = month_sums(engine, spec, rows, relation, None, "counting rows per month")
+    invalid = sum(r.invalid_outcomes for r in result)
     if invalid:
         raise InputError(f"the outcome column holds {invalid:,} values that are neither 1, 0 nor NULL; "
                          "fix the outcome column (1 = event, 0 = no event, NULL = not known yet)")
@@ -144,9 +143,7 @@ def read_months(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expressio
     sorted_months = sort_months(result, month_column, as_of)
     found: dict[Month, MonthRow] = {}
     for month, r in sorted_months.kept.items():
-        unseen = {name: int(r[3 + features + i] or 0) for i, name in enumerate(rows.unseen_features)}
-        found[month] = MonthRow(month, r[0], int(r[1]), float(r[2] or 0.0),
-                                tuple(float(r[3 + i] or 0.0) for i in range(features)), unseen, int(r[-2] or 0))
+        found[month] = MonthRow(month, r.value, r.rows, r.score_sum, r.points_sums, r.unseen_rows, r.outcome_rows)
     if not found:
         raise InputError(f"no rows have a month on or before the as-of date {as_of} and in range (the "
                          f"{MONTHS_IN_RANGE} months ending then); check --as-of and --month-column")
@@ -204,17 +201,12 @@ def _change(actual: float | None, expected: float | None) -> float | None:
     return None if actual is None or expected is None else actual - expected
 
 
-def _abs(value: float | None) -> float | None:
-    return None if value is None else abs(value)
-
-
 @dataclass
 class _Passes:
     """The bins, calibration and discrimination results, keyed by month."""
 
-    bands: dict[Month, list[int]] = field(default_factory=dict)
-    bins: dict[Month, list[dict[str, int]]] = field(default_factory=dict)
-    grades: dict[Month, dict[str, tuple]] = field(default_factory=dict)
+    bins: dict[Month, BinCounts] = field(default_factory=dict)
+    grades: dict[Month, dict[str, GradeSums]] = field(default_factory=dict)
     histograms: dict[Month, HistogramSums] = field(default_factory=dict)
 
 
@@ -249,33 +241,19 @@ def measure_book(
     mature = [m for m in with_rows if rows.has_outcome and is_mature(m.month, window, as_of)]
     passes = _Passes()
 
-    bins = run(engine, queries.bins_pass(relation, spec, edges, True, queries.months_in([m.value for m in with_rows])),
-               "counting rows per month, score band and bin")
     by_value = {m.value: m.month for m in with_rows}
-    for r in bins:
-        month = by_value.get(r[0])
-        if month is None:
-            continue
-        count = int(r[-1])
-        if r[1] is not None:
-            passes.bands.setdefault(month, [0] * (len(edges) + 1))[int(r[1])] += count
-            continue
-        per_feature = passes.bins.setdefault(month, [{} for _ in spec.features])
-        for i in range(len(spec.features)):
-            if r[2 + i] is not None:
-                per_feature[i][str(r[2 + i])] = count
-                break
+    counted = bin_counts(engine, spec, relation, edges, True, queries.months_in([m.value for m in with_rows]),
+                         "counting rows per month, score band and bin")
+    for value, counts in counted.items():
+        if value in by_value:
+            passes.bins[by_value[value]] = counts
 
     if mature:
         where = queries.months_in([m.value for m in mature])
-        for r in run(engine, queries.calibration_pass(relation, where), "back-testing calibration per month and grade"):
-            month = by_value.get(r[0])
-            if month is not None:
-                passes.grades.setdefault(month, {})[str(r[1])] = tuple(r[2:])
-        for r in run(engine, queries.discrimination_pass(relation, where, True), "measuring discrimination per month"):
-            month = by_value.get(r[0])
-            if month is not None:
-                passes.histograms[month] = HistogramSums(*[float(v) for v in r[1:]])
+        grades = grade_sums(engine, relation, where, "back-testing calibration per month and grade")
+        passes.grades = {by_value[value]: found for value, found in grades.items() if value in by_value}
+        histograms = histogram_sums(engine, relation, where, True, "measuring discrimination per month")
+        passes.histograms = {by_value[value]: found for value, found in histograms.items() if value in by_value}
 
     expected, volume_rule = _expected_rows(book, baseline, expected_rows, with_rows)
     if expected_rows == DEVELOPMENT and baseline.rows_per_month is None:
@@ -351,7 +329,8 @@ def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: fl
 
     # score bands
     bands = sorted(baseline.score_bands, key=lambda b: b.lower)
-    band_rows = passes.bands.get(m.month, [0] * len(bands))
+    counts = passes.bins.get(m.month)
+    band_rows = counts.bands if counts else [0] * len(bands)
     expected = [b.share for b in bands]
     shift = _shift(band_rows, expected, baseline.rows, thresholds) if m.rows and bands else _Shift(None, None, None)
     score_psi_status = _material_and_real(shift.psi, thresholds.score_psi, shift.critical_watch, shift.critical_alert)
@@ -360,7 +339,7 @@ def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: fl
     mean_score = _ratio(m.score_sum, m.rows)
 
     characteristics, quality = [], []
-    month_bins = passes.bins.get(m.month, [{} for _ in spec.features])
+    month_bins = counts.bins if counts else [{} for _ in spec.features]
     for i, feature in enumerate(spec.features):
         characteristics.append(_characteristic(spec, feature, i, m, month_bins[i], baseline, thresholds))
         quality.append(_quality(feature, m, month_bins[i], baseline, thresholds, rows))
@@ -461,25 +440,25 @@ def _quality(feature, m: MonthRow, counts: dict[str, int], baseline: Baseline, t
                           worst(missing_status, unseen_status, catch_all_status))
 
 
-def _calibration(spec: Spec, grades: dict[str, tuple], m: MonthRow, thresholds: Thresholds,
+def _calibration(spec: Spec, grades: dict[str, GradeSums], m: MonthRow, thresholds: Thresholds,
                  two_sided: bool = False) -> Calibration:
     limit = thresholds.calibration_p_value
     records = []
     total_rows = total_events = 0
     pd_sum = numerator = variance = squared_error = 0.0
     for grade in spec.grades:
-        n, d, p_sum, z_sum, z_variance, se_sum = grades.get(grade.name, (0, 0, 0.0, 0.0, 0.0, 0.0))
-        n, d = int(n), int(d or 0)
-        mean_pd = _ratio(float(p_sum or 0.0), n)
+        sums = grades.get(grade.name) or GradeSums(0, 0, 0.0, 0.0, 0.0, 0.0)
+        n, d = sums.rows, sums.events
+        mean_pd = _ratio(sums.pd_sum, n)
         jeffreys = jeffreys_p(n, d, mean_pd, two_sided) if n else None
         records.append(GradeCalibration(grade.name, n, d, mean_pd, _ratio(d, n), jeffreys,
                                         binomial_p(n, d, mean_pd, two_sided) if n else None, limit.status(jeffreys)))
         total_rows += n
         total_events += d
-        pd_sum += float(p_sum or 0.0)
-        numerator += float(z_sum or 0.0)
-        variance += float(z_variance or 0.0)
-        squared_error += float(se_sum or 0.0)
+        pd_sum += sums.pd_sum
+        numerator += sums.spiegelhalter_sum
+        variance += sums.spiegelhalter_variance
+        squared_error += sums.squared_error_sum
     mean_pd = _ratio(pd_sum, total_rows)
     jeffreys = jeffreys_p(total_rows, total_events, mean_pd, two_sided) if total_rows else None
     chi = grade_chi_square([g.rows for g in records], [g.events for g in records], [g.mean_pd for g in records])
@@ -515,7 +494,7 @@ def _discrimination(sums: HistogramSums | None, baseline: Baseline, thresholds: 
     status = None
     if change is not None:
         critical = [None if found.auc_standard_error is None else
-                    float(norm.ppf(0.5 + level / 2.0)) * found.auc_standard_error
+                    z_value(level) * found.auc_standard_error
                     for level in (thresholds.psi_confidence.watch, thresholds.psi_confidence.alert)]
         status = _material_and_real(-change, thresholds.auc_drop, *critical)
     return Discrimination(int(sums.events), int(sums.non_events), found.auc, found.auc_lower, found.auc_upper,

@@ -148,21 +148,22 @@ def out_of_range_note(rows: int, as_of: date, earliest: Month | None = None) -> 
 
 
 def sort_months(rows, column: str, as_of: date) -> SortedMonths:
-    """Sort the rows of a month pass (month value first, row count second) by the rule.
+    """Sort the rows of a month pass (each with its month ``value`` and its ``rows``; see
+    :class:`~scoremon.monitor.passes.MonthSums`) by the rule.
 
     Raises :class:`InputError` for a value that is not a month (:func:`month_of`) and for two
     values of one month.
     """
     first, last = range_ending(as_of)
-    kept: dict[Month, tuple] = {}
+    kept: dict[Month, object] = {}
     out_of_range = later = without = 0
     earliest = None
     for row in rows:
-        count = int(row[1] or 0)
-        if row[0] is None:
+        count = row.rows
+        if row.value is None:
             without += count
             continue
-        month = month_of(row[0], column)
+        month = month_of(row.value, column)
         if month > last:
             later += count
         elif month < first:
@@ -170,7 +171,7 @@ def sort_months(rows, column: str, as_of: date) -> SortedMonths:
             earliest = month if earliest is None else min(earliest, month)
         elif month in kept:
             raise InputError(f"month column {column!r} holds several values for {month} "
-                             f"({cut(repr(kept[month][0]))}, {cut(repr(row[0]))}); give one value per month")
+                             f"({cut(repr(kept[month].value))}, {cut(repr(row.value))}); give one value per month")
         else:
             kept[month] = row
     return SortedMonths(kept, out_of_range, later, without, earliest)

@@ -30,27 +30,22 @@ SUM with a ROWS frame, IN lists of literals. Division never happens in SQL.
 """
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 from datetime import date, datetime
 from difflib import get_close_matches
-from typing import Mapping, Sequence
+from typing import Any, Mapping, Sequence
 
 from sqlglot import exp
 
-from ..compiler import case, column, compile_model, identifier, integer, number, text
+from ..compiler import compile_model
+from ..engines.protocol import BOOLEAN, DATE, INTEGER, TEXT, Column
 from ..errors import InputError
 from ..exact import exact_columns
 from ..spec.model import CategoricalFeature, Reasons, Spec
+from ..trees import case, category_literal, column, identifier, integer, number, text
 
 MONTH, OUTCOME, SCORE, PD, GRADE, SCORE_BAND, ROWS = "month", "outcome", "score", "pd", "grade", "score_band", "rows"
 SCORED_COLUMNS = (SCORE, PD, GRADE)
-DATE_TYPE = re.compile(r"^(DATE|TIMESTAMP.*|DATETIME)$", re.I)
-WHOLE_TYPE = re.compile(r"^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|INT\d?|UINTEGER|UBIGINT|USMALLINT)$", re.I)
-TEXT_TYPE = re.compile(r"^(VARCHAR|TEXT|STRING|CHAR|BPCHAR|CHARACTER VARYING)(\(.*\))?$", re.I)
-BOOLEAN_TYPE = re.compile(r"^(BOOLEAN|BOOL)$", re.I)
-NUMBER_TYPE = re.compile(r"^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|INT\d?|UINTEGER|UBIGINT|USMALLINT|UTINYINT|"
-                         r"FLOAT\d?|DOUBLE|REAL|DOUBLE PRECISION|DECIMAL(\(.*\))?|NUMERIC(\(.*\))?)$", re.I)
 
 
 def bin_column(feature) -> str:
@@ -65,7 +60,15 @@ def unseen_column(feature) -> str:
     return f"{feature.name}_unseen"
 
 
-def is_scored(spec: Spec, columns: Mapping[str, str]) -> bool:
+def points_sum_column(feature) -> str:
+    return f"{feature.name}_points_sum"
+
+
+def unseen_rows_column(name: str) -> str:
+    return f"{name}_unseen_rows"
+
+
+def is_scored(spec: Spec, columns: Mapping[str, Any]) -> bool:
     """True when ``columns`` hold the scored output of ``spec`` (score, pd, grade, bins and points)."""
     wanted = list(SCORED_COLUMNS) + [name for f in spec.features for name in (bin_column(f), points_column(f))]
     return all(name in columns for name in wanted)
@@ -86,27 +89,27 @@ class MonitoredRows:
 def monitored_rows(
     spec: Spec,
     source: exp.Expression,
-    columns: Mapping[str, str],
+    columns: Mapping[str, Column],
     month_column: str | None,
     outcome_column: str | None,
     float_columns: Sequence[str] | None = None,
 ) -> MonitoredRows:
     """The monitored rows over ``source`` (see the module docstring).
 
-    ``columns`` maps the source's column names to their SQL types. Raises :class:`InputError`
+    ``columns`` maps the source's column names to their described columns (kinds). Raises :class:`InputError`
     when the month or outcome column is missing or of a type that cannot be read.
     """
     month_kind = _month_kind(month_column, columns) if month_column else None
     outcome_kind = _outcome_kind(outcome_column, columns) if outcome_column else None
     categorical = [f for f in spec.features if isinstance(f, CategoricalFeature)]
-    readable = [f for f in categorical if (f.column or f.name) in columns]
+    readable = [f for f in categorical if f.source_column in columns]
     scored = is_scored(spec, columns)
 
     if scored:
         relation = source.copy()
     else:
         keys = []
-        for name in [month_column, outcome_column] + [f.column or f.name for f in readable]:
+        for name in [month_column, outcome_column] + [f.source_column for f in readable]:
             if name and name not in keys:
                 keys.append(name)
         # monitoring reads no reasons, so the scoring steps that rank them are left out
@@ -130,27 +133,27 @@ def monitored_rows(
                          tuple(f.name for f in readable), month_column)
 
 
-def _month_kind(name: str, columns: Mapping[str, str]) -> str:
-    kind = columns.get(name)
-    if kind is None:
+def _month_kind(name: str, columns: Mapping[str, Column]) -> str:
+    found = columns.get(name)
+    if found is None:
         raise InputError(f"month column {name!r} is not in the input{_nearest(name, columns)}")
-    if DATE_TYPE.match(kind):
+    if found.kind == DATE:
         return "date"
-    if TEXT_TYPE.match(kind) or WHOLE_TYPE.match(kind):
+    if found.kind in (TEXT, INTEGER):
         return "as_is"
-    raise InputError(f"month column {name!r} is {kind}; give a DATE or TIMESTAMP column, text YYYY-MM or "
+    raise InputError(f"month column {name!r} is {found.type_name}; give a DATE or TIMESTAMP column, text YYYY-MM or "
                      "whole numbers YYYYMM")
 
 
-def _outcome_kind(name: str, columns: Mapping[str, str]) -> str:
-    kind = columns.get(name)
-    if kind is None:
+def _outcome_kind(name: str, columns: Mapping[str, Column]) -> str:
+    found = columns.get(name)
+    if found is None:
         raise InputError(f"outcome column {name!r} is not in the input{_nearest(name, columns)}")
-    if BOOLEAN_TYPE.match(kind):
+    if found.kind == BOOLEAN:
         return "boolean"
-    if NUMBER_TYPE.match(kind):
+    if found.is_number:
         return "number"
-    raise InputError(f"outcome column {name!r} is {kind}; it must hold 1 (event) and 0 (no event), or "
+    raise InputError(f"outcome column {name!r} is {found.type_name}; it must hold 1 (event) and 0 (no event), or "
                      "true/false, with NULL where the outcome is not known yet")
 
 
@@ -176,14 +179,9 @@ def _outcome_expression(value: exp.Expression, kind: str) -> exp.Expression:
                  (exp.EQ(this=value.copy(), expression=integer(0)), integer(0))], exp.Neg(this=integer(1)))
 
 
-def listed_values(feature: CategoricalFeature) -> list:
-    """Every value a categorical feature's spec names (its groups' and its catch-all's)."""
-    return [v for g in feature.groups for v in g.values] + list(feature.other.values)
-
-
 def _unseen_expression(feature: CategoricalFeature) -> exp.Expression:
-    x = column(feature.column or feature.name)
-    listed = [integer(v) if isinstance(v, int) else text(v) for v in listed_values(feature)]
+    x = column(feature.source_column)
+    listed = [category_literal(v) for v in feature.listed_values]
     return case([(exp.Is(this=x.copy(), expression=exp.Null()), integer(0)),
                  (exp.In(this=x.copy(), expressions=listed), integer(0))], integer(1))
 
@@ -245,9 +243,9 @@ def month_pass(relation: exp.Expression, spec: Spec, rows: MonitoredRows, where:
     selected: list[exp.Expression] = [exp.alias_(exp.Count(this=exp.Star()), ROWS, quoted=True),
                                       exp.alias_(exp.Sum(this=column(SCORE)), "score_sum", quoted=True)]
     for feature in spec.features:
-        selected.append(exp.alias_(exp.Sum(this=column(points_column(feature))), f"{feature.name}_points_sum", quoted=True))
+        selected.append(exp.alias_(exp.Sum(this=column(points_column(feature))), points_sum_column(feature), quoted=True))
     for name in rows.unseen_features:
-        selected.append(exp.alias_(exp.Sum(this=column(f"{name}_unseen")), f"{name}_unseen_rows", quoted=True))
+        selected.append(exp.alias_(exp.Sum(this=column(f"{name}_unseen")), unseen_rows_column(name), quoted=True))
     if rows.has_outcome:
         present = exp.Not(this=exp.Is(this=column(OUTCOME), expression=exp.Null()))
         invalid = exp.LT(this=column(OUTCOME), expression=integer(0))

@@ -13,7 +13,6 @@ from datetime import date
 from ..version import VERSION
 
 MATURE, IMMATURE = "mature", "immature"
-FAMILIES = ("stability", "data_quality", "calibration", "discrimination")
 
 
 @dataclass(frozen=True)

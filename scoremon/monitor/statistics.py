@@ -23,10 +23,13 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Sequence
+from typing import TYPE_CHECKING, Sequence
 
-import numpy as np
-from scipy import stats
+if TYPE_CHECKING:
+    import numpy as np
+
+# numpy and scipy are imported inside the functions that use them: importing scipy.stats takes
+# most of a second, and `scoremon check` or `scoremon --help` never computes a statistic.
 
 # The one rule for empty bins (no standard exists; common practice is to pick one and say so):
 # when a bin is empty on one side (baseline or month), every bin on that side gets half a row
@@ -37,6 +40,8 @@ EMPTY_BIN_ROWS = 0.5
 
 def shares_with_empty_bin_rule(rows: Sequence[float]) -> np.ndarray | None:
     """Shares of ``rows`` per bin after the empty-bin rule; ``None`` when there are no rows."""
+    import numpy as np
+
     counts = np.asarray(rows, dtype=float)
     if counts.size == 0 or counts.sum() <= 0:
         return None
@@ -53,6 +58,8 @@ def psi(actual: Sequence[float], expected: Sequence[float]) -> float:
     >>> round(psi([0.5, 0.5], [0.4, 0.6]), 6)
     0.040546
     """
+    import numpy as np
+
     a = np.asarray(actual, dtype=float)
     e = np.asarray(expected, dtype=float)
     if a.shape != e.shape:
@@ -67,9 +74,18 @@ def psi_critical_value(bins: int, baseline_rows: float, rows: float, confidence:
 
     ``None`` when it is not defined (fewer than two bins, or no rows on a side).
     """
+    from scipy import stats
+
     if bins < 2 or baseline_rows <= 0 or rows <= 0:
         return None
     return float((1.0 / baseline_rows + 1.0 / rows) * stats.chi2.ppf(confidence, bins - 1))
+
+
+def z_value(confidence: float) -> float:
+    """The two-sided standard normal quantile z_{(1+confidence)/2}, e.g. 1.96 at 0.95."""
+    from scipy import stats
+
+    return float(stats.norm.ppf(0.5 + confidence / 2.0))
 
 
 def rate_change_critical_value(rate: float, baseline_rows: float, rows: float, confidence: float) -> float | None:
@@ -81,11 +97,13 @@ def rate_change_critical_value(rate: float, baseline_rows: float, rows: float, c
     if baseline_rows <= 0 or rows <= 0 or rate is None:
         return None
     spread = max(rate * (1.0 - rate), 0.0) * (1.0 / baseline_rows + 1.0 / rows)
-    return float(stats.norm.ppf(0.5 + confidence / 2.0) * math.sqrt(spread))
+    return z_value(confidence) * math.sqrt(spread)
 
 
 def points_shift(actual: Sequence[float], expected: Sequence[float], points: Sequence[float]) -> float:
     """Σ (actual − expected)·points over one characteristic's bins: its share of the score shift."""
+    import numpy as np
+
     a, e, p = (np.asarray(v, dtype=float) for v in (actual, expected, points))
     return float(np.sum((a - e) * p))
 
@@ -99,6 +117,8 @@ def jeffreys_p(rows: int, events: int, pd: float, two_sided: bool = False) -> fl
     """Jeffreys p-value: one-sided F_Beta(D+½, N−D+½)(PD), small when events exceed the PD
     (H0: PD ≥ the true rate, ECB 2019 §2.5), so a model that over-estimates reads ok; with
     ``two_sided`` twice the smaller tail, small when events are far above or below the PD."""
+    from scipy import stats
+
     if rows <= 0 or pd is None:
         return None
     upper = float(stats.beta.cdf(pd, events + 0.5, rows - events + 0.5))
@@ -108,6 +128,8 @@ def jeffreys_p(rows: int, events: int, pd: float, two_sided: bool = False) -> fl
 def binomial_p(rows: int, events: int, pd: float, two_sided: bool = False) -> float | None:
     """Binomial p-value for X ~ Bin(N, PD): one-sided P(X ≥ D), small when events exceed the PD;
     with ``two_sided`` twice the smaller of P(X ≥ D) and P(X ≤ D)."""
+    from scipy import stats
+
     if rows <= 0 or pd is None:
         return None
     upper = float(stats.binom.sf(events - 1, rows, pd))
@@ -129,6 +151,8 @@ def grade_chi_square(rows: Sequence[int], events: Sequence[int], pds: Sequence[f
     Degrees of freedom = the number of grades counted (the test is out of sample). ``None``
     when no grade can be counted.
     """
+    from scipy import stats
+
     statistic, counted = 0.0, 0
     for n, d, p in zip(rows, events, pds):
         if n <= 0 or p is None:
@@ -153,6 +177,8 @@ class Spiegelhalter:
 
 def spiegelhalter(numerator: float, variance: float) -> Spiegelhalter | None:
     """z = Σ(y−p)(1−2p) / √Σ(1−2p)²p(1−p) from the two sums; ``None`` for a zero variance."""
+    from scipy import stats
+
     if variance is None or variance <= 0.0:
         return None
     z = numerator / math.sqrt(variance)
@@ -217,6 +243,6 @@ def discrimination(sums: HistogramSums, confidence: float = 0.95) -> Discriminat
         s01 = (sums.non_event_placement_squares / b**2 - g * auc**2) / (g - 1)
         variance = max(s10, 0.0) / b + max(s01, 0.0) / g
         standard_error = math.sqrt(variance)
-        half_width = stats.norm.ppf(0.5 + confidence / 2.0) * standard_error
+        half_width = z_value(confidence) * standard_error
         lower, upper = max(0.0, auc - half_width), min(1.0, auc + half_width)
     return Discrimination(float(auc), lower, upper, standard_error, float(2.0 * auc - 1.0), float(ks))

@@ -112,7 +112,7 @@ def thresholds_from_data(data: Any, where: str) -> Thresholds:
         else:
             changes[name] = candidate
     if problems:
-        raise InputError("\n".join(problems))
+        raise InputError("the thresholds do not fit", problems)
     return dataclasses.replace(DEFAULT_THRESHOLDS, **changes)
 
 

@@ -14,7 +14,7 @@ import hashlib
 import json
 
 from .model import CategoricalFeature, NumericFeature, Spec
-from .terms import interval_label, numeric_bins_in_order, special_routes
+from .terms import numeric_bins_in_order, special_routes
 
 FINGERPRINT_LENGTH = 16
 
@@ -25,12 +25,12 @@ def _sorted_values(values) -> list:
 
 def _feature(feature) -> dict:
     data = feature.model_dump(mode="json")
-    data["column"] = feature.column or feature.name
+    data["column"] = feature.source_column
     if isinstance(feature, NumericFeature):
         bins = []
         for b in numeric_bins_in_order(feature):
             item = b.model_dump(mode="json")
-            item["label"] = b.label or interval_label(b.lower, b.upper, feature.closed)
+            item["label"] = feature.bin_label(b)
             bins.append(item)
         data["bins"] = bins
         data.update(special_routes(feature))

@@ -18,7 +18,6 @@ from decimal import Decimal, InvalidOperation
 from ..errors import Problem
 from .model import Baseline, CategoricalFeature, Feature, Grade, LinearFeature, NumericFeature, Reasons, Spec, Value
 from .source import SpecSource, format_path
-from .terms import interval_label
 
 # PostgreSQL truncates identifiers at 63 bytes; the longest column we derive from a feature
 # name is "<name>_points" (7 more), so names stop at 56 bytes.
@@ -224,7 +223,7 @@ def _check_numeric(feature: NumericFeature, path: tuple, report: Report) -> None
     values = [(("bins", i), b) for i, b in enumerate(feature.bins)] + [(("missing",), feature.missing)]
     _check_value_kinds(feature, values, path, report)
     _check_intervals([(b.lower, b.upper) for b in feature.bins], path + ("bins",), "bin", report)
-    labels = [b.label or interval_label(b.lower, b.upper, feature.closed) for b in feature.bins]
+    labels = [feature.bin_label(b) for b in feature.bins]
     labels.append(feature.missing.label)
     positions = [path + ("bins", i, "label") for i in range(len(feature.bins))] + [path + ("missing", "label")]
     _check_unique(labels, positions, "label", report)

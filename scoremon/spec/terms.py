@@ -18,7 +18,7 @@ import math
 from dataclasses import dataclass
 from fractions import Fraction
 
-from .model import CategoricalFeature, LinearFeature, NumericFeature, Spec, Value
+from .model import CategoricalFeature, LinearFeature, NumericFeature, ReasonStatement, Spec, Value
 
 # Rounding is half away from zero with a hold: a value whose fraction falls short of the half
 # by at most HOLD_RELATIVE · max(|value|, HOLD_FLOOR_SIZE) rounds as the half it stands for.
@@ -84,20 +84,6 @@ class FeatureTerms:
         return [b.label for b in self.bins].index(label)
 
 
-def interval_label(lower: float, upper: float, closed: str) -> str:
-    """The label a numeric bin gets when the spec gives none, e.g. ``[25, 35)``."""
-
-    def edge(value: float) -> str:
-        if value == float("inf"):
-            return "inf"
-        if value == float("-inf"):
-            return "-inf"
-        return repr(int(value)) if value == int(value) else repr(value)
-
-    left, right = ("[", ")") if closed == "lower" else ("(", "]")
-    return f"{left}{edge(lower)}, {edge(upper)}{right}"
-
-
 def contribution(value: Value, coefficient: float | None, factor: float) -> float:
     """What one bin adds to η."""
     if value.woe is not None:
@@ -132,7 +118,7 @@ def feature_terms(spec: Spec, feature) -> FeatureTerms:
 
     coefficient = getattr(feature, "coefficient", None)
     if isinstance(feature, NumericFeature):
-        bins = [term(b.label or interval_label(b.lower, b.upper, feature.closed), b, coefficient)
+        bins = [term(feature.bin_label(b), b, coefficient)
                 for b in numeric_bins_in_order(feature)]
     elif isinstance(feature, CategoricalFeature):
         bins = [term(g.label, g, coefficient) for g in sorted(feature.groups, key=lambda g: g.label)]
@@ -143,7 +129,7 @@ def feature_terms(spec: Spec, feature) -> FeatureTerms:
     candidates = [b.points for b in bins]
     if isinstance(feature, LinearFeature):
         candidates += [linear_points(spec, feature, feature.lower), linear_points(spec, feature, feature.upper)]
-    return FeatureTerms(feature.name, feature.column or feature.name, tuple(bins), max(candidates))
+    return FeatureTerms(feature.name, feature.source_column, tuple(bins), max(candidates))
 
 
 def linear_slope(feature: LinearFeature) -> float:
@@ -163,12 +149,20 @@ def linear_points(spec: Spec, feature: LinearFeature, clipped: float) -> float:
 def special_routes(feature: NumericFeature) -> dict[str, str]:
     """Bin labels that NaN, +inf and −inf go to, with the documented defaults filled in."""
     ordered = numeric_bins_in_order(feature)
-
-    def label(b) -> str:
-        return b.label or interval_label(b.lower, b.upper, feature.closed)
-
     return {
         "nan": feature.nan or feature.missing.label,
-        "positive_infinity": feature.positive_infinity or label(ordered[-1]),
-        "negative_infinity": feature.negative_infinity or label(ordered[0]),
+        "positive_infinity": feature.positive_infinity or feature.bin_label(ordered[-1]),
+        "negative_infinity": feature.negative_infinity or feature.bin_label(ordered[0]),
     }
+
+
+def statement_reference(statement: ReasonStatement, max_points: dict[str, float]) -> float:
+    """The points a reason statement's features are compared with: its ``reference``, or else
+    the sum of its features' maximum points (``max_points``: feature name → maximum points),
+    added in the statement's order."""
+    if statement.reference is not None:
+        return statement.reference
+    reference = max_points[statement.features[0]]
+    for name in statement.features[1:]:
+        reference = reference + max_points[name]
+    return reference

@@ -10,6 +10,7 @@ from scoremon import api
 from scoremon.engines import DuckDBEngine
 from scoremon.spec import parse_spec
 from tests.reference_scorer import ReferenceScorer
+from tests.sql import fetched, tree
 
 SPEC = """
 model: {name: ties, version: 1, owner: Tests, effective_date: 2026-01-01, intended_use: tests,
@@ -37,9 +38,9 @@ reasons:
 def reasons(first: str, second: str) -> tuple:
     spec = parse_spec(SPEC.replace("FIRST_REFERENCE", first).replace("SECOND_REFERENCE", second))
     engine = DuckDBEngine(":memory:")
-    engine.execute("CREATE TABLE t AS SELECT 1.0 AS a, 1.0 AS b", "making a row")
+    engine.execute(tree("CREATE TABLE t AS SELECT 1.0 AS a, 1.0 AS b"), "making a row")
     api.score(spec, engine, api.source_relation(table="t"), out_table="s")
-    (sql,) = engine.fetch("SELECT reason_1, reason_2 FROM s", "reading")
+    (sql,) = fetched(engine, "SELECT reason_1, reason_2 FROM s")
     scored = ReferenceScorer(spec).score_row({"a": 1.0, "b": 1.0})
     assert (scored["reason_1"], scored["reason_2"]) == sql
     return sql

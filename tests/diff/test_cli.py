@@ -13,6 +13,7 @@ from scoremon.spec import fingerprint, load_spec
 
 from .specs import BASE, REFORMATTED, feature, variant_text
 from .test_impact import COLUMNS, make_rows
+from tests.sql import tree
 
 
 @pytest.fixture(autouse=True)
@@ -94,7 +95,7 @@ def test_impact_json_and_markdown(capsys, tmp_path, new_spec, book):
 def test_a_file_population_works_too(capsys, tmp_path, new_spec, book):
     parquet = tmp_path / "book.parquet"
     engine = DuckDBEngine(str(book))
-    engine.execute(f"COPY book TO '{parquet}' (FORMAT PARQUET)", "writing a parquet copy")
+    engine.execute(tree(f"COPY book TO '{parquet}' (FORMAT PARQUET)"), "writing a parquet copy")
     engine.close()
     code = main(["diff", str(BASE), str(new_spec), "--input", str(parquet)])
     assert code == 1

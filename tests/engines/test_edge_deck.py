@@ -14,7 +14,7 @@ from sqlglot import exp
 
 from scoremon import api
 from scoremon.compiler import output_columns
-from scoremon.dialects import render_sql, table_path
+from scoremon.trees import table_path
 from scoremon.engines import DuckDBEngine
 from scoremon.spec import parse_spec
 from tests.conftest import FIXTURES
@@ -41,8 +41,8 @@ def score_deck(engine, spec) -> tuple[list[str], list[tuple]]:
     api.score(spec, engine, api.source_relation(table="edge_deck"), keys=[KEY], out_table="edge_scores")
     query = (exp.select(exp.Star()).from_(table_path(["edge_scores"]))
              .order_by(exp.column(exp.to_identifier(KEY, quoted=True))))
-    names = [name for name, _ in engine.describe(render_sql(query, engine.dialect, pretty=False), "reading columns")]
-    return names, engine.fetch(render_sql(query, engine.dialect, pretty=False), "reading the edge scores")
+    names = [column.name for column in engine.describe(query, "reading columns")]
+    return names, [tuple(row.values()) for row in engine.query(query, "reading the edge scores")]
 
 
 def differences(names: list[str], actual: list[tuple], expected: list[dict], engine: str, against: str) -> list[str]:

@@ -11,7 +11,7 @@ from datetime import date
 from sqlglot import exp
 
 from scoremon import api
-from scoremon.dialects import render_sql, table_path
+from scoremon.trees import table_path
 from scoremon.monitor.history import METRICS_TABLE, RUNS_TABLE
 from scoremon.monitor.months import Month
 from tests.monitor.book import SPEC_PATH, load_book, make_book
@@ -19,8 +19,9 @@ from tests.monitor.book import SPEC_PATH, load_book, make_book
 
 def count_by_run(engine, table: str) -> dict[str, int]:
     run_id = exp.column(exp.to_identifier("run_id", quoted=True))
-    query = exp.select(run_id, exp.Count(this=exp.Star())).from_(table_path([table])).group_by(run_id.copy())
-    return {str(r): int(n) for r, n in engine.fetch(render_sql(query, engine.dialect, pretty=False), "counting")}
+    query = (exp.select(run_id, exp.Count(this=exp.Star()).as_("rows", quoted=True)).from_(table_path([table]))
+             .group_by(run_id.copy()))
+    return {str(r.run_id): int(r.rows) for r in engine.query(query, "counting")}
 
 
 def test_each_run_appends_to_the_history(each_engine):

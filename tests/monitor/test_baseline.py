@@ -11,6 +11,7 @@ from scoremon import api, files
 from scoremon.errors import InputError
 from scoremon.spec import fingerprint, load_spec
 from tests.monitor.book import SPEC_PATH, load_book, make_book
+from tests.sql import fetched, tree
 
 
 @pytest.fixture
@@ -27,7 +28,7 @@ def test_baseline_shares_volume_and_discrimination(engine, development):
     assert baseline.rows == 1000 and baseline.rows_per_month == 250
     assert baseline.event_rate == pytest.approx(development["bad"].mean())
     scored = api.score(spec, engine, api.source_relation(table="development"), keys=("bad",), out_table="scored")
-    frame = engine.fetch_frame('SELECT * FROM "scored"', "reading the scored rows")
+    frame = engine.query_frame(tree('SELECT * FROM "scored"'), "reading the scored rows")
     # [lib] AUC against scikit-learn on the negated score
     assert baseline.auc == pytest.approx(roc_auc_score(frame["bad"], -frame["score"]), abs=1e-12)
     assert baseline.mean_score == pytest.approx(frame["score"].mean(), rel=1e-12)
@@ -47,7 +48,7 @@ def test_score_bands_are_deciles_of_the_development_score(engine, development):
     assert len(bands) == 10 and bands[0].lower == -math.inf and bands[-1].upper == math.inf
     assert all(a.upper == b.lower for a, b in zip(bands, bands[1:]))
     api.score(spec, engine, api.source_relation(table="development"), out_table="scored", replace=True)
-    scores = np.sort(np.array([r[0] for r in engine.fetch('SELECT score FROM "scored"', "scores")]))
+    scores = np.sort(np.array([r[0] for r in fetched(engine, 'SELECT score FROM "scored"', "scores")]))
     for k, band in enumerate(bands[1:], start=1):
         # the edge is the lowest score with at least k/10 of the rows strictly below it
         below = np.searchsorted(scores, band.lower, side="left")

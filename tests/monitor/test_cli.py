@@ -11,13 +11,14 @@ from scoremon.engines import DuckDBEngine
 from scoremon.report import terminal
 from scoremon.spec import fingerprint, load_spec
 from tests.monitor.book import SPEC_PATH, load_book, make_book
+from tests.sql import tree
 
 
 def make_database(path, **shift):
     engine = DuckDBEngine(str(path))
     try:
         load_book(engine, "book", make_book(months=12, rows_per_month=300, seed=31, **shift))
-        engine.execute("CREATE TABLE development AS SELECT * FROM book WHERE application_month < DATE '2024-07-01'",
+        engine.execute(tree("CREATE TABLE development AS SELECT * FROM book WHERE application_month < DATE '2024-07-01'"),
                        "making the development table")
     finally:
         engine.close()

@@ -17,10 +17,9 @@ from scipy import stats
 from sklearn.metrics import roc_auc_score
 from sqlglot import exp
 
-from scoremon.compiler import identifier
-from scoremon.dialects import render_sql
-from scoremon.monitor import queries
-from scoremon.monitor.statistics import HistogramSums, discrimination
+from scoremon.monitor.passes import histogram_sums
+from scoremon.monitor.statistics import discrimination
+from scoremon.trees import identifier
 
 COLUMNS = [("month", "VARCHAR"), ("score", "DOUBLE"), ("outcome", "BIGINT")]
 
@@ -28,9 +27,9 @@ COLUMNS = [("month", "VARCHAR"), ("score", "DOUBLE"), ("outcome", "BIGINT")]
 def measured(engine, rows, table="histogram_rows"):
     """Month → Discrimination (or None), through the engine."""
     engine.write_rows([table], COLUMNS, rows, "loading score rows")
-    tree = queries.discrimination_pass(exp.Table(this=identifier(table)), None, True)
-    result = engine.fetch(render_sql(tree, engine.dialect, pretty=False), "measuring discrimination")
-    return {r[0]: discrimination(HistogramSums(*[float(v) for v in r[1:]])) for r in result}
+    return {month: discrimination(sums)
+            for month, sums in histogram_sums(engine, exp.Table(this=identifier(table)), None, True,
+                                              "measuring discrimination").items()}
 
 
 def tied_rows(month: str, seed: int, n: int):

@@ -7,10 +7,9 @@ import pytest
 
 from scoremon import api
 from scoremon.engines import DuckDBEngine
-from scoremon.errors import InputError
-from scoremon.monitor.history import write_history
 from scoremon.monitor.months import Month
 from tests.monitor.book import SPEC_PATH, load_book, make_book
+from tests.sql import fetched
 
 
 def figures(report):
@@ -61,19 +60,9 @@ def test_history_is_appended_in_one_transaction_on_every_transactional_engine(ea
     for _ in range(2):
         report = api.monitor(spec, each_engine, "book", "application_month", date(2024, 9, 30), "bad",
                              baseline_months=(Month(2024, 1), Month(2024, 2)))
-    runs = each_engine.fetch('SELECT COUNT(*) FROM "scoremon_monitor_runs"', "counting runs")
-    psi = each_engine.fetch(f"""SELECT value FROM "scoremon_monitor_metrics" WHERE run_id = '{report.run_id}'
+    runs = fetched(each_engine, 'SELECT COUNT(*) FROM "scoremon_monitor_runs"', "counting runs")
+    psi = fetched(each_engine, f"""SELECT value FROM "scoremon_monitor_metrics" WHERE run_id = '{report.run_id}'
                                 AND month = '2024-04' AND metric = 'score_psi'""", "reading a metric")
     assert runs == [(2,)]
     april = next(m for m in report.months if m.month == "2024-04")  # the last month with rows
     assert psi[0][0] == pytest.approx(april.score_psi)
-
-
-def test_an_engine_without_transactions_is_refused_before_writing(engine):
-    class NoTransactions:
-        dialect = "spark"
-
-    book = make_book(months=3, rows_per_month=50, seed=6)
-    report = run(engine, book)
-    with pytest.raises(InputError, match="spark has none; monitor from DuckDB or PostgreSQL"):
-        write_history(NoTransactions(), report)

@@ -13,12 +13,13 @@ from sklearn.metrics import brier_score_loss, roc_auc_score
 from sqlglot import exp
 
 from scoremon import api
-from scoremon.compiler import identifier, integer
+from scoremon.trees import identifier, integer
 from scoremon.errors import EngineError, InputError
 from scoremon.monitor import history
 from scoremon.monitor.months import Month
 from tests.conftest import ROOT
 from tests.monitor.book import SPEC_PATH, load_book, make_book
+from tests.sql import fetched, tree
 
 AS_OF = date(2024, 12, 31)  # window 6 months: 2024-01 … 2024-06 mature, 2024-07 … 2024-12 not
 
@@ -32,7 +33,7 @@ def book():
 def loaded(engine, book):
     """The book as table ``book``, its first six months as ``development``, and a baselined spec."""
     load_book(engine, "book", book)
-    engine.execute("CREATE TABLE development AS SELECT * FROM book WHERE application_month < DATE '2024-07-01'",
+    engine.execute(tree("CREATE TABLE development AS SELECT * FROM book WHERE application_month < DATE '2024-07-01'"),
                    "making the development table")
     spec = api.load_spec(SPEC_PATH)
     baseline = api.measure_development(spec, engine, api.source_relation(table="development"), "bad",
@@ -44,7 +45,7 @@ def scored_frame(engine, spec, table: str) -> pd.DataFrame:
     """The table scored by the compiler, as pandas (the reference side of the checks)."""
     api.score(spec, engine, api.source_relation(table=table), keys=("application_month", "bad", "region_code"),
               out_table=f"{table}_scored", replace=True)
-    return engine.fetch_frame(f'SELECT * FROM "{table}_scored"', "reading the scored rows")
+    return engine.query_frame(tree(f'SELECT * FROM "{table}_scored"'), "reading the scored rows")
 
 
 def run(engine, spec, **options):
@@ -160,7 +161,7 @@ def test_raw_and_scored_tables_give_the_same_figures(engine, loaded):
 
 def test_a_table_scored_by_another_model_is_refused(engine, loaded):
     scored_frame(engine, loaded, "book")
-    engine.execute("UPDATE book_scored SET model_fingerprint = 'feedfacefeedface'", "tampering")
+    engine.execute(tree("UPDATE book_scored SET model_fingerprint = 'feedfacefeedface'"), "tampering")
     with pytest.raises(InputError, match="fingerprint feedfacefeedface"):
         run(engine, loaded, table="book_scored")
 
@@ -182,7 +183,7 @@ def test_unseen_categories_and_missing_rates(engine, loaded, book):
 def test_a_planted_shift_is_flagged_and_quiet_months_are_not(engine):
     book = make_book(months=12, rows_per_month=400, seed=3, age_shift=14.0, risk_shift=1.0, shifted_from=9)
     load_book(engine, "book", book)
-    engine.execute("CREATE TABLE development AS SELECT * FROM book WHERE application_month < DATE '2024-07-01'", "x")
+    engine.execute(tree("CREATE TABLE development AS SELECT * FROM book WHERE application_month < DATE '2024-07-01'"), "x")
     spec = api.load_spec(SPEC_PATH)
     baseline = api.measure_development(spec, engine, api.source_relation(table="development"), "bad",
                                        "application_month", "table development")
@@ -248,7 +249,7 @@ def test_invalid_input_is_refused_with_a_message(engine, loaded):
         api.monitor(loaded, engine, "book", "application_mnth", AS_OF, "bad", record_history=False)
     with pytest.raises(InputError, match="outcome column 'region_code' is VARCHAR"):
         run(engine, loaded, outcome="region_code")
-    engine.execute("UPDATE book SET bad = 2 WHERE age < 20", "spoiling the outcome")
+    engine.execute(tree("UPDATE book SET bad = 2 WHERE age < 20"), "spoiling the outcome")
     with pytest.raises(InputError, match="neither 1, 0 nor NULL"):
         run(engine, loaded)
     with pytest.raises(InputError, match="no baseline section"):
@@ -258,7 +259,7 @@ def test_invalid_input_is_refused_with_a_message(engine, loaded):
 
 
 def test_rows_without_a_month_or_after_the_as_of_date_are_left_out_and_noted(engine, loaded):
-    engine.execute("UPDATE book SET application_month = NULL WHERE age < 20", "blanking months")
+    engine.execute(tree("UPDATE book SET application_month = NULL WHERE age < 20"), "blanking months")
     report = api.monitor(loaded, engine, "book", "application_month", date(2024, 10, 15), "bad",
                          record_history=False)
     assert report.months[-1].month == "2024-10"
@@ -275,9 +276,9 @@ class CountingEngine:
     def __init__(self, engine):
         self.engine, self.dialect, self.fetches = engine, engine.dialect, 0
 
-    def fetch(self, sql, purpose, progress=None):
+    def query(self, tree, purpose, progress=None):
         self.fetches += 1
-        return self.engine.fetch(sql, purpose, progress)
+        return self.engine.query(tree, purpose, progress)
 
     def __getattr__(self, name):
         return getattr(self.engine, name)
@@ -299,11 +300,11 @@ def test_the_number_of_queries_does_not_grow_with_the_months(engine, months):
 
 
 def history_counts(engine):
-    tables = {r[0] for r in engine.fetch("SELECT table_name FROM information_schema.tables", "listing tables")}
+    tables = {r[0] for r in fetched(engine, "SELECT table_name FROM information_schema.tables", "listing tables")}
     if history.RUNS_TABLE not in tables:
         return None
-    runs = engine.fetch(f'SELECT COUNT(*) FROM "{history.RUNS_TABLE}"', "counting runs")[0][0]
-    metrics = engine.fetch(f'SELECT COUNT(*) FROM "{history.METRICS_TABLE}"', "counting metrics")[0][0]
+    runs = fetched(engine, f'SELECT COUNT(*) FROM "{history.RUNS_TABLE}"', "counting runs")[0][0]
+    metrics = fetched(engine, f'SELECT COUNT(*) FROM "{history.METRICS_TABLE}"', "counting metrics")[0][0]
     return runs, metrics
 
 
@@ -314,11 +315,11 @@ def test_every_run_is_appended_and_never_replaces_an_earlier_one(engine, loaded)
     after_second = history_counts(engine)
     assert after_first[0] == 1 and after_second[0] == 2
     assert after_second[1] == 2 * after_first[1]
-    runs = engine.fetch(f'SELECT run_id, model_fingerprint, as_of, status FROM "{history.RUNS_TABLE}" ORDER BY run_at',
+    runs = fetched(engine, f'SELECT run_id, model_fingerprint, as_of, status FROM "{history.RUNS_TABLE}" ORDER BY run_at',
                         "reading runs")
     assert {r[0] for r in runs} == {first.run_id, second.run_id}
     assert all(r[1] == first.model_fingerprint and r[2] == AS_OF for r in runs)
-    psi = engine.fetch(f"""SELECT value, status FROM "{history.METRICS_TABLE}" WHERE run_id = '{first.run_id}'
+    psi = fetched(engine, f"""SELECT value, status FROM "{history.METRICS_TABLE}" WHERE run_id = '{first.run_id}'
                            AND month = '2024-10' AND metric = 'score_psi'""", "reading a metric")
     october = next(m for m in first.months if m.month == "2024-10")
     assert psi == [(pytest.approx(october.score_psi), october.score_psi_status)]
@@ -364,8 +365,8 @@ def test_the_readable_copy_of_the_history_tables_is_current():
 def test_volume_is_judged_against_the_books_own_trailing_months(engine, book):
     # a development sample of a third of the book: 100 rows a month against 300 in the book
     load_book(engine, "book", book)
-    engine.execute("CREATE TABLE development AS SELECT * FROM book WHERE application_month < DATE '2024-07-01' "
-                   "AND hash(age, utilisation, region_code) % 3 = 0", "sampling a third")
+    engine.execute(tree("CREATE TABLE development AS SELECT * FROM book WHERE application_month < DATE '2024-07-01' "
+                        "AND hash(age, utilisation, region_code) % 3 = 0"), "sampling a third")
     spec = api.load_spec(SPEC_PATH)
     baseline = api.measure_development(spec, engine, api.source_relation(table="development"), "bad",
                                        "application_month", "table development")

@@ -8,6 +8,7 @@ import pytest
 
 from scoremon.engines import DuckDBEngine
 from scoremon.errors import EngineError
+from tests.sql import tree
 
 
 class CommitFails:
@@ -34,10 +35,10 @@ def test_a_failed_commit_shows_the_full_disk_not_the_rollback(tmp_path, write):
         engine.connection = CommitFails(engine.connection)
         with pytest.raises(EngineError) as raised:
             if write == "execute_atomically":
-                engine.execute_atomically(["CREATE TABLE runs (id INTEGER)", "INSERT INTO runs VALUES (1)"],
+                engine.execute_atomically([tree("CREATE TABLE runs (id INTEGER)"), tree("INSERT INTO runs VALUES (1)")],
                                           "appending the run to the monitoring history")
             else:
-                engine.write_table("SELECT 1 AS id", ["scores"], "writing the scored table")
+                engine.write_table(tree("SELECT 1 AS id"), ["scores"], "writing the scored table")
         assert "No space left on device" in str(raised.value)
         assert "rollback" not in str(raised.value).lower()
         assert engine.connection.connection.execute(

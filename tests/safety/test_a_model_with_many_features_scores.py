@@ -19,6 +19,7 @@ from scoremon import api
 from scoremon.compiler import compile_model
 from scoremon.spec import parse_spec
 from tests.reference_scorer import score_frame
+from tests.sql import fetched
 
 FEATURES = 1_200
 
@@ -57,10 +58,10 @@ def test_a_spec_with_1200_features_scores_on_duckdb(engine):
               for i in range(FEATURES)}
     frame = pd.DataFrame(values, dtype=object)
     engine.connection.register("rows_frame", pd.DataFrame(values, dtype=float))
-    engine.execute("CREATE TABLE book AS SELECT row_number() OVER () AS id, * FROM rows_frame", "making the book")
+    engine.connection.execute("CREATE TABLE book AS SELECT row_number() OVER () AS id, * FROM rows_frame")
     out = api.score(spec, engine, api.source_relation(table="book"), keys=["id"], out_table="scores")
     assert out.rows == 4
-    got = engine.fetch('SELECT score, reason_1 FROM scores ORDER BY id', "reading the scores")
+    got = fetched(engine, 'SELECT score, reason_1 FROM scores ORDER BY id', "reading the scores")
     want = score_frame(spec, frame)
     for (score, reason), (_, expected) in zip(got, want.iterrows()):
         assert score == pytest.approx(expected["score"], rel=1e-9, abs=1e-9)

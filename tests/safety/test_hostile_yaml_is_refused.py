@@ -99,4 +99,7 @@ def test_long_values_in_a_thresholds_file_are_cut(tmp_path, capsys):
                  "--month-column", "m", "--thresholds", str(thresholds)])
     lines = capsys.readouterr().err.strip().splitlines()
     assert code == 2
-    assert len(lines) == 2 and all("…" in line and len(line) < len(str(thresholds)) + 300 for line in lines), lines
+    # a headline, then one line per problem (InputError keeps its problems as a list)
+    assert lines[0] == "error: the thresholds do not fit"
+    problems = lines[1:]
+    assert len(problems) == 2 and all("…" in line and len(line) < len(str(thresholds)) + 300 for line in problems), lines

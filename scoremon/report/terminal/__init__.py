@@ -7,7 +7,6 @@ and what every command shares; each command's own view is a module beside it
 """
 from __future__ import annotations
 
-import sys
 import textwrap
 from contextlib import contextmanager
 from typing import Iterator
@@ -15,11 +14,38 @@ from typing import Iterator
 from rich.console import Console
 from rich.markup import escape
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+from rich.text import Text
 
 from ..cautions import CAUTIONS
 
 out = Console(highlight=False, soft_wrap=False)
 err = Console(stderr=True, highlight=False)
+
+
+INDENT = 2  # a block's own indent inside a view
+
+
+class Indented:
+    """Prints blocks ``base`` columns in (a view nested under a step of the demo is), wrapped to
+    the terminal's width and without trailing blanks."""
+
+    def __init__(self, base: int = 0):
+        self.base = base
+
+    @property
+    def width(self) -> int:
+        """The columns the view has: the terminal's, less its base indent."""
+        return out.width - self.base
+
+    def emit(self, renderable, extra: int = INDENT) -> None:
+        """Print ``renderable`` ``extra`` columns past the base, without trailing blanks (rich pads
+        table cells and padded blocks with spaces; copied output should not carry them)."""
+        indent = self.base + extra
+        options = out.options.update(width=max(out.width - indent, 40))
+        for line in out.render_lines(renderable, options, pad=False):
+            text = Text.assemble(*[(segment.text, segment.style) for segment in line if not segment.control])
+            text.rstrip()
+            out.print(Text(" " * indent) + text if text.plain else text, no_wrap=True, crop=False, soft_wrap=True)
 
 
 def print_problems(lines: list[str]) -> None:
@@ -55,7 +81,3 @@ def print_cautions() -> None:
     # wrapped here rather than by rich, which pads wrapped lines with trailing blanks
     for line in textwrap.wrap(CAUTIONS, width=max(40, min(out.width, 100))):
         out.print(f"[dim]{escape(line)}[/dim]")
-
-
-def stream_is_terminal() -> bool:
-    return sys.stdout.isatty()

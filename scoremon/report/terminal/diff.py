@@ -9,7 +9,7 @@ from __future__ import annotations
 from rich.table import Table
 from rich.text import Text
 
-from . import out, print_cautions
+from . import Indented, out, print_cautions
 
 EFFECT_STYLE = {"none": "dim", "scaling_only": "cyan", "one_feature": "yellow", "structure": "bold red"}
 EFFECT_MEANING = {
@@ -20,7 +20,6 @@ EFFECT_MEANING = {
 }
 SWAP_WORDS = {"accepted_by_both": "accepted by both", "swap_in": "swap-in (declined → accepted)",
               "swap_out": "swap-out (accepted → declined)", "declined_by_both": "declined by both"}
-INDENT = 2
 FOLD_AFTER = 4  # value changes shown per feature before the rest fold into one line
 
 
@@ -114,22 +113,12 @@ def print_diff_details(report, indent: int = 0, brief: bool = False) -> None:
         view.impact(impact)
 
 
-class _View:
-    """Prints blocks indented by a base amount, wrapped to the terminal's width."""
+class _View(Indented):
+    """The diff's blocks, indented by a base amount; ``brief`` leaves out the long tables."""
 
     def __init__(self, base: int, brief: bool = False):
-        self.base = base
+        super().__init__(base)
         self.brief = brief
-
-    def emit(self, renderable, extra: int = INDENT) -> None:
-        """Print ``renderable`` indented, without trailing blanks (rich pads table cells and
-        padded blocks with spaces; copied output should not carry them)."""
-        indent = self.base + extra
-        options = out.options.update(width=max(out.width - indent, 40))
-        for line in out.render_lines(renderable, options, pad=False):
-            text = Text.assemble(*[(segment.text, segment.style) for segment in line if not segment.control])
-            text.rstrip()
-            out.print(Text(" " * indent) + text if text.plain else text, no_wrap=True, crop=False, soft_wrap=True)
 
     def title(self, words: str) -> None:
         self.emit(Text(words, style="bold"))

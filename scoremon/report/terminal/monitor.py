@@ -13,27 +13,14 @@ from rich.table import Table
 from rich.text import Text
 
 from ..cautions import CAUTIONS
-from . import out, print_cautions
+from . import INDENT, Indented, out, print_cautions
 
 STATUS_STYLE = {"ok": "green", "watch": "yellow", "alert": "bold red", "immature": "dim", "no outcome": "dim"}
 ROOMY, WIDE = 90, 110
-INDENT = 2
 MOST_FINDINGS = 12
-_base = [0]  # the indent of the whole view while one report prints (the demo nests it under a step)
 
 
-def _emit(renderable, indent: int = INDENT) -> None:
-    """Print ``renderable`` indented (past the view's own indent), wrapped to the terminal, without
-    trailing blanks."""
-    indent += _base[0]
-    options = out.options.update(width=max(out.width - indent, 40))
-    for line in out.render_lines(renderable, options, pad=False):
-        text = Text.assemble(*[(segment.text, segment.style) for segment in line if not segment.control])
-        text.rstrip()
-        out.print(Text(" " * indent) + text if text.plain else text, no_wrap=True, crop=False, soft_wrap=True)
-
-
-def _table(*columns: tuple) -> Table:
+def _table(view: Indented, *columns: tuple) -> Table:
     """A borderless table; a column is (header, justify) or (header, justify, minimum width).
 
     Columns with a minimum width keep it; the others share what is left and are cut with an
@@ -42,7 +29,7 @@ def _table(*columns: tuple) -> Table:
     table = Table(show_edge=False, pad_edge=False, box=None, header_style="bold", padding=(0, 1))
     fixed = sum(c[2] for c in columns if len(c) > 2) + 2 * (len(columns) - 1)
     flexible = sum(1 for c in columns if len(c) == 2)
-    room = max((out.width - INDENT - _base[0] - fixed) // max(flexible, 1), 4)
+    room = max((view.width - INDENT - fixed) // max(flexible, 1), 4)
     for name, justify, *width in columns:
         if width:
             table.add_column(name, justify=justify, no_wrap=True, min_width=width[0])
@@ -82,32 +69,29 @@ def _points(value: float | None) -> str:
 
 def print_monitor_report(report, history_written: bool = True, indent: int = 0) -> None:
     """Print a :class:`~scoremon.monitor.records.MonitorReport`, every line ``indent`` columns in."""
-    _base[0] = indent
-    try:
-        _header(report, history_written)
+    view = Indented(indent)
+    _header(view, report, history_written)
+    out.print()
+    _drifts(view, report)
+    _months(view, report)
+    out.print()
+    _findings(view, report)
+    _drivers(view, report)
+    _calibration(view, report)
+    if report.notes:
+        view.emit(Text("notes", style="bold"), 0)
+        for note in report.notes:
+            view.emit(Text(f"- {note}", style="dim"))
         out.print()
-        _drifts(report)
-        _months(report)
-        out.print()
-        _findings(report)
-        _drivers(report)
-        _calibration(report)
-        if report.notes:
-            _emit(Text("notes", style="bold"), indent=0)
-            for note in report.notes:
-                _emit(Text(f"- {note}", style="dim"))
-            out.print()
-        if indent:
-            _emit(Text(CAUTIONS, style="dim"), indent=0)
-        else:
-            print_cautions()
-    finally:
-        _base[0] = 0
+    if indent:
+        view.emit(Text(CAUTIONS, style="dim"), 0)
+    else:
+        print_cautions()
 
 
-def _header(report, history_written: bool) -> None:
-    _emit(Text.assemble(("monitor", "bold"), f"  {report.model_name} version {report.model_version}, "
-                        f"fingerprint {report.model_fingerprint}"), indent=0)
+def _header(view: Indented, report, history_written: bool) -> None:
+    view.emit(Text.assemble(("monitor", "bold"), f"  {report.model_name} version {report.model_version}, "
+                        f"fingerprint {report.model_fingerprint}"), 0)
     facts = Table.grid(padding=(0, 2))
     facts.add_column(style="bold")
     facts.add_column(overflow="fold")
@@ -131,21 +115,12 @@ def _header(report, history_written: bool) -> None:
     facts.add_row("status", verdict)
     run = f"run {report.run_id[:12]}" + (" appended to the history" if history_written else " (history not written)")
     facts.add_row("history", run)
-    _emit(facts)
+    view.emit(facts)
 
 
-def _back_test(month) -> Text:
-    """Calibration and discrimination status side by side, or why there are none."""
-    if month.maturity == "immature":
-        return _status("immature")
-    if month.calibration is None:
-        return _status("no outcome" if month.rows else None)
-    return Text.assemble(_status(month.calibration_status), " ", _status(month.discrimination_status))
-
-
-def _months(report) -> None:
+def _months(view: Indented, report) -> None:
     """One row per month; the last column says what put the month on watch or alert."""
-    width = out.width - _base[0]
+    width = view.width
     roomy, wide = width >= ROOMY, width >= WIDE
     rows_width = max([len(f"{m.rows:,}") for m in report.months] + [4])
     columns = [("month", "left", 7), ("rows", "right", rows_width)]
@@ -154,7 +129,7 @@ def _months(report) -> None:
     if wide:
         columns += [("Δ score", "right", 7), ("events / PD", "right", 13), ("AUC", "right", 5)]
     columns += [("status", "left", 8)]
-    table = _table(*columns)
+    table = _table(view, *columns)
     table.add_column("why: family and its worst figure", justify="left", overflow="fold")
     for m in report.months:
         cells = [m.month, f"{m.rows:,}"]
@@ -168,8 +143,8 @@ def _months(report) -> None:
             cells += [_points(m.mean_score_shift), ratio, "–" if m.discrimination is None else _number(m.discrimination.auc)]
         cells += [_status(m.status), _why(m)]
         table.add_row(*cells)
-    _emit(table)
-    _emit(Text("why: per family on watch or alert, its worst figure, drifting characteristics first; "
+    view.emit(table)
+    view.emit(Text("why: per family on watch or alert, its worst figure, drifting characteristics first; "
                "immature: outcomes not known yet, so no calibration or discrimination"
                + ("; vol.: rows against the expected rows; PSI: score bands" if roomy else ""), style="dim"))
 
@@ -238,45 +213,45 @@ def _why(m) -> Text:
     return Text.assemble(*parts) if parts else Text("–", style="dim")
 
 
-def _drifts(report) -> None:
+def _drifts(view: Indented, report) -> None:
     flagged = [d for d in report.drifts if d.status in ("watch", "alert")]
     if not flagged:
         if report.drifts:
             top = report.drifts[0]
-            _emit(Text.assemble(("characteristics", "bold"), f"  none drifts past its thresholds; the largest PSI is "
-                                f"{top.feature} {_number(top.worst_psi)} in {top.worst_month}"), indent=0)
+            view.emit(Text.assemble(("characteristics", "bold"), f"  none drifts past its thresholds; the largest PSI is "
+                                f"{top.feature} {_number(top.worst_psi)} in {top.worst_month}"), 0)
             out.print()
         return
-    _emit(Text(f"characteristics that drift, ranked ({len(flagged)})", style="bold"), indent=0)
-    table = _table(("characteristic", "left"), ("worst", "left", 7), ("PSI", "right", 5), ("months", "right", 6),
+    view.emit(Text(f"characteristics that drift, ranked ({len(flagged)})", style="bold"), 0)
+    table = _table(view, ("characteristic", "left"), ("worst", "left", 7), ("PSI", "right", 5), ("months", "right", 6),
                    ("latest", "right", 6), ("points", "right", 6), ("status", "left", 6))
     for d in flagged:
         table.add_row(d.feature, d.worst_month, _number(d.worst_psi), str(d.months_flagged), _number(d.latest_psi),
                       _points(d.latest_points_shift), _status(d.status))
-    _emit(table)
-    _emit(Text("worst: the month of its highest PSI; months: months on watch or alert; latest: its PSI in the "
+    view.emit(table)
+    view.emit(Text("worst: the month of its highest PSI; months: months on watch or alert; latest: its PSI in the "
                "latest month, and the points it moves the mean score by", style="dim"))
     out.print()
 
 
-def _drivers(report) -> None:
+def _drivers(view: Indented, report) -> None:
     measured = [m for m in report.months if m.rows and m.mean_score_shift is not None]
     if not measured:
         return
     latest = measured[-1]
     shifts = [c for c in latest.characteristics if c.points_shift is not None]
     shifts.sort(key=lambda c: -abs(c.points_shift))
-    _emit(Text.assemble((f"score shift in {latest.month}", "bold"),
+    view.emit(Text.assemble((f"score shift in {latest.month}", "bold"),
                         f"  mean score {_points(latest.mean_score_shift)} points against the baseline; "
-                        "by characteristic, Σ(actual% − expected%)·points:"), indent=0)
-    table = _table(("characteristic", "left"), ("points", "right", 7), ("PSI", "right", 5))
+                        "by characteristic, Σ(actual% − expected%)·points:"), 0)
+    table = _table(view, ("characteristic", "left"), ("points", "right", 7), ("PSI", "right", 5))
     for c in shifts[:5]:
         table.add_row(c.feature, _points(c.points_shift), _number(c.psi))
-    _emit(table)
+    view.emit(table)
     out.print()
 
 
-def _findings(report) -> None:
+def _findings(view: Indented, report) -> None:
     """Every finding, a run of consecutive months with the same finding on one line (its range,
     its worst figure and status), drifting characteristics first."""
     runs: list[dict] = []
@@ -294,51 +269,51 @@ def _findings(report) -> None:
             if (STATUS_RANK[status], size) > (STATUS_RANK[run["status"]], run["size"]):
                 run.update(figure=figure, size=size, status=status)
     if not runs:
-        _emit(Text.assemble(("findings", "bold"), "  none past its thresholds"), indent=0)
+        view.emit(Text.assemble(("findings", "bold"), "  none past its thresholds"), 0)
         out.print()
         return
     runs.sort(key=lambda r: (FAMILY_ORDER.index(r["family"]), r["first"], r["what"]))
-    _emit(Text(f"findings by month range ({len(runs)})", style="bold"), indent=0)
+    view.emit(Text(f"findings by month range ({len(runs)})", style="bold"), 0)
     figure_width = max(len(r["figure"]) for r in runs)
-    table = _table(("months", "left", 15), ("family", "left", 12), ("what", "left"), ("worst", "right", figure_width),
+    table = _table(view, ("months", "left", 15), ("family", "left", 12), ("what", "left"), ("worst", "right", figure_width),
                    ("status", "left", 6))
     what = table.columns[2]
     what.no_wrap, what.overflow = False, "fold"  # a long feature name wraps rather than losing its end
     for r in runs[:MOST_FINDINGS]:
         months = r["first"] if r["first"] == r["last"] else f"{r['first']}–{r['last']}"
         table.add_row(months, r["family"], r["what"], r["figure"] or "–", _status(r["status"]))
-    _emit(table)
+    view.emit(table)
     if len(runs) > MOST_FINDINGS:
-        _emit(Text(f"… and {len(runs) - MOST_FINDINGS} more (every figure is in --json)", style="dim"))
+        view.emit(Text(f"… and {len(runs) - MOST_FINDINGS} more (every figure is in --json)", style="dim"))
     out.print()
 
 
-def _calibration(report) -> None:
+def _calibration(view: Indented, report) -> None:
     month = report.latest_mature_month
     if month is None:
         return
     c = month.calibration
-    _emit(Text.assemble((f"calibration by grade, {month.month}", "bold"),
+    view.emit(Text.assemble((f"calibration by grade, {month.month}", "bold"),
                         f" (latest mature month): {c.events:,} events in {c.rows:,} rows, "
-                        f"{_pct(c.event_rate, 2)} against a mean PD of {_pct(c.mean_pd, 2)}"), indent=0)
-    table = _table(("grade", "left"), ("rows", "right", 7), ("events", "right", 6), ("mean PD", "right", 7),
+                        f"{_pct(c.event_rate, 2)} against a mean PD of {_pct(c.mean_pd, 2)}"), 0)
+    table = _table(view, ("grade", "left"), ("rows", "right", 7), ("events", "right", 6), ("mean PD", "right", 7),
                    ("realised", "right", 8), ("Jeffreys p", "right", 10), ("binomial p", "right", 10),
                    ("status", "left", 6))
     for g in c.grades:
         table.add_row(g.grade, f"{g.rows:,}", f"{g.events:,}", _pct(g.mean_pd, 2), _pct(g.event_rate, 2),
                       _p(g.jeffreys_p), _p(g.binomial_p), _status(g.status))
-    _emit(table)
+    view.emit(table)
     chi = "–" if c.chi_square is None else f"{c.chi_square:.2f} (df {c.chi_square_df}), p {_p(c.chi_square_p)}"
     if c.chi_square_status in ("watch", "alert"):
         chi += f" ({c.chi_square_status})"
     z = "–" if c.spiegelhalter_z is None else f"{_number(c.spiegelhalter_z, 2)}, p {_p(c.spiegelhalter_p)}"
-    _emit(Text(f"grade chi-square {chi}; Spiegelhalter z {z}; Brier {_number(c.brier, 4)}; "
+    view.emit(Text(f"grade chi-square {chi}; Spiegelhalter z {z}; Brier {_number(c.brier, 4)}; "
                f"month Jeffreys p {_p(c.jeffreys_p)}"))
     d = month.discrimination
     if d is not None and d.auc is not None:
         interval = "" if d.auc_lower is None else f" (95% CI {d.auc_lower:.3f}–{d.auc_upper:.3f})"
         change = "" if d.auc_change is None else f", {_number(d.auc_change)} against the baseline"
-        _emit(Text(f"AUC {d.auc:.3f}{interval}{change}; Gini {d.gini:.3f}; KS {d.ks:.3f}"))
+        view.emit(Text(f"AUC {d.auc:.3f}{interval}{change}; Gini {d.gini:.3f}; KS {d.ks:.3f}"))
     out.print()
 
 

@@ -1,4 +1,4 @@
-"""The one place a sqlglot tree becomes SQL text, and the list of engines we render for.
+"""The one place a sqlglot tree becomes SQL text.
 
 Per-dialect adjustments live here and nowhere else, so the compiler's tree stays neutral. Each
 adjustment rewrites a copy of the tree just before sqlglot renders it:
@@ -46,29 +46,9 @@ from typing import Callable, Sequence
 from sqlglot import exp
 from sqlglot.errors import ErrorLevel
 
-from .errors import InputError
-
-# dialect name → whether the test suite runs the rendered SQL on a real engine
-DIALECTS: dict[str, bool] = {
-    "duckdb": True,
-    "postgres": True,
-    "spark": True,
-    "snowflake": False,
-    "bigquery": False,
-    "trino": False,
-    "tsql": False,
-}
-
-# The portable column kinds engines can create tables with (see Engine.write_rows).
-COLUMN_KINDS = ("DOUBLE", "BIGINT", "DECIMAL(18,6)", "VARCHAR", "BOOLEAN", "DATE")
-
-
-def dialects_help() -> str:
-    """One line for ``--help``: which dialects run in the tests and which are only rendered."""
-    run = ", ".join(name for name, tested in DIALECTS.items() if tested)
-    rendered = ", ".join(name for name, tested in DIALECTS.items() if not tested)
-    return f"{run} (run on real engines in the tests); {rendered} (rendered only, not run in the tests)"
-
+from ..errors import InputError
+from ..trees import table_path
+from . import COLUMN_KINDS, DIALECTS
 
 def render_sql(tree: exp.Expression, dialect: str = "duckdb", pretty: bool = True, for_parquet: bool = False) -> str:
     """SQL text for ``dialect`` with every identifier quoted.
@@ -85,25 +65,9 @@ def render_sql(tree: exp.Expression, dialect: str = "duckdb", pretty: bool = Tru
     return tree.sql(dialect=dialect, identify=True, pretty=pretty, unsupported_level=ErrorLevel.RAISE)
 
 
-def table_path(parts: Sequence[str]) -> exp.Table:
-    """``["schema", "table"]`` or ``["table"]`` as a table node with quoted names."""
-    if not 1 <= len(parts) <= 2:
-        raise InputError(f"table name {'.'.join(parts)!r} is not 'table' or 'schema.table'")
-    return exp.Table(this=exp.to_identifier(parts[-1], quoted=True),
-                     db=exp.to_identifier(parts[0], quoted=True) if len(parts) == 2 else None)
-
-
 def render_table(parts: Sequence[str], dialect: str) -> str:
     """A table name as quoted SQL text for ``dialect``."""
     return render_sql(table_path(parts), dialect, pretty=False)
-
-
-def comment_line(words: str) -> str:
-    """``/* words */`` on one line, to stand before a statement. ``words`` may hold text from a
-    spec (a model's name), so it can neither end the comment nor break the line: ``*/`` and
-    ``/*`` are split and control characters become spaces."""
-    flat = "".join(" " if ord(ch) < 32 or ord(ch) == 127 else ch for ch in words)
-    return "/* " + flat.replace("*/", "* /").replace("/*", "/ *") + " */"
 
 
 def render_name(name: str, dialect: str) -> str:
@@ -147,25 +111,27 @@ def _postgres(node: exp.Expression) -> exp.Expression:
     return node
 
 
-def _bigquery(node: exp.Expression) -> exp.Expression:
+def _is_nan_or_infinity(node: exp.Expression, infinity: Callable[[bool], exp.Expression]) -> exp.Expression:
+    """The compiler's odd-double test as ``IS_NAN(x)``, or ``x = infinity(positive)``."""
     test = _odd_double_test(node)
     if test is None:
         return node
     x, name = test
     if name == "NaN":
         return exp.IsNan(this=x)
-    return exp.EQ(this=x, expression=_double_from_text("inf" if name == "Infinity" else "-inf"))
+    return exp.EQ(this=x, expression=infinity(name == "Infinity"))
+
+
+def _bigquery(node: exp.Expression) -> exp.Expression:
+    return _is_nan_or_infinity(node, lambda positive: _double_from_text("inf" if positive else "-inf"))
 
 
 def _trino(node: exp.Expression) -> exp.Expression:
-    test = _odd_double_test(node)
-    if test is None:
-        return node
-    x, name = test
-    if name == "NaN":
-        return exp.IsNan(this=x)
-    infinity = exp.Anonymous(this="INFINITY", expressions=[])
-    return exp.EQ(this=x, expression=infinity if name == "Infinity" else exp.Neg(this=infinity))
+    def infinity(positive: bool) -> exp.Expression:
+        value = exp.Anonymous(this="INFINITY", expressions=[])
+        return value if positive else exp.Neg(this=value)
+
+    return _is_nan_or_infinity(node, infinity)
 
 
 def _snowflake(node: exp.Expression) -> exp.Expression:

@@ -1,0 +1,233 @@
+"""What each command does: calls into :mod:`scoremon.api` and prints through :mod:`scoremon.report`.
+
+:mod:`scoremon.cli` reads the arguments and imports this module only once a command runs, so
+``scoremon --help`` and ``scoremon --version`` load none of what the commands need. Each function
+takes the parsed arguments and returns the exit code (see :mod:`scoremon.cli`).
+"""
+from __future__ import annotations
+
+from datetime import date, datetime, timezone
+from pathlib import Path
+
+from . import api, files, outputs
+from .engines.urls import redact
+from .errors import InputError, SpecError
+from .report import terminal
+from .report.json import to_json
+from .report.markdown import diff_markdown
+from .report.terminal import bench as bench_view
+from .report.terminal import diff as diff_view
+from .report.terminal import monitor as monitor_view
+from .report.terminal import score as score_view
+from .spec import fingerprint
+from .spec.schema import schema_text
+
+EXIT_OK, EXIT_FOUND = 0, 1
+
+
+def check(args) -> int:
+    spec = api.load_spec(args.spec)
+    terminal.print_check_ok(args.spec, spec, fingerprint(spec))
+    return EXIT_OK
+
+
+def compile_(args) -> int:
+    out = _file_output(args.out, "--out", args.replace, [("the spec", args.spec)])
+    spec = api.load_spec(args.spec)
+    sql = api.compile_sql(spec, args.dialect, args.table, args.key or ())
+    if out:
+        files.write_text(out, sql + ";\n")
+        terminal.print_text(f"wrote {args.out}")
+    else:
+        terminal.print_text(sql + ";")
+    return EXIT_OK
+
+
+def score(args) -> int:
+    if (args.out_table is None) == (args.out is None):
+        raise InputError("give --out-table NAME (a table in --db) or --out FILE.parquet (or .csv), one of the two")
+    if args.out is not None:
+        outputs.file_format(args.out)
+        _file_output(args.out, "--out", args.replace, [("the spec", args.spec), ("the input file", args.input),
+                                                         *outputs.kept_database(args.db)])
+    spec = api.load_spec(args.spec)
+    source = api.source_relation(table=args.table, file=args.input)
+    if args.input is None or args.out_table is None:  # only writing a table may start a new database
+        outputs.require_database_file(args.db)
+    engine = api.open_engine(args.db, threads=args.threads)
+    try:
+        with terminal.progress_bar("scoring") as progress:
+            result = api.score(spec, engine, source, args.key or (), args.out_table, args.out, progress,
+                               replace=args.replace, allow_empty=args.allow_empty, reason_text=args.reason_text)
+    finally:
+        engine.close()
+    score_view.print_score_result(result)
+    terminal.print_cautions()
+    return EXIT_OK
+
+
+def schema(args) -> int:
+    out = _file_output(args.out, "--out", args.replace, [])
+    if out:
+        files.write_text(out, schema_text())
+        terminal.print_text(f"wrote {args.out}")
+    else:
+        terminal.print_text(schema_text())
+    return EXIT_OK
+
+
+def _load_both(old_path: str, new_path: str):
+    """Both specs, or one SpecError listing the problems of both files."""
+    specs, problems = [], []
+    for path in (old_path, new_path):
+        try:
+            specs.append(api.load_spec(path))
+        except SpecError as error:
+            problems += error.problems
+    if problems:
+        raise SpecError(problems)
+    return specs
+
+
+def _file_output(path: str | None, option: str, replace: bool, kept) -> Path | None:
+    """``path`` once it is known that writing there destroys nothing (see :mod:`scoremon.outputs`)."""
+    if path is None:
+        return None
+    outputs.refuse_file(path, option, kept)
+    return files.check_output(path, option, replace)
+
+
+def diff(args) -> int:
+    population = args.table is not None or args.input is not None
+    if not population:
+        given = [name for name, value in (("--db", args.db), ("--outcome", args.outcome), ("--cutoff", args.cutoff),
+                                          ("--new-cutoff", args.new_cutoff)) if value is not None]
+        if given:
+            raise InputError(f"{', '.join(given)} describe the population; also give --table (with --db) or --input")
+    if args.table is not None and args.db is None:
+        raise InputError("--table names a table in a database; give the database with --db (or use --input FILE)")
+    kept = [("the old spec", args.old), ("the new spec", args.new), ("the input file", args.input),
+            *outputs.kept_database(args.db)]
+    json_file = _file_output(args.json, "--json", args.replace, kept)
+    markdown_file = _file_output(args.markdown, "--markdown", args.replace, kept)
+    old, new = _load_both(args.old, args.new)
+    diff = api.diff_models(old, new, args.old, args.new)
+    impact = None
+    if population:
+        outputs.require_database_file(args.db)
+        engine = api.open_engine(args.db)
+        try:
+            source = api.source_relation(table=args.table, file=args.input)
+            where = f"table {args.table} in {redact(args.db)}" if args.table is not None else f"file {args.input}"
+            with terminal.progress_bar("scoring both versions") as progress:
+                impact = api.measure_impact(old, new, engine, source, where, args.outcome, args.cutoff,
+                                            args.new_cutoff, progress)
+        finally:
+            engine.close()
+    report = api.DiffReport(diff, impact, datetime.now(timezone.utc).isoformat(timespec="seconds"))
+    diff_view.print_diff(report)
+    for target, text in ((json_file, lambda: to_json(report)), (markdown_file, lambda: diff_markdown(report))):
+        if target is not None:
+            files.write_text(target, text() + "\n")
+            terminal.print_text(f"wrote {target}")
+    return EXIT_OK if diff.is_equivalent else EXIT_FOUND
+
+
+def bench(args) -> int:
+    # the benchmark's modules bring numpy, pandas and DuckDB: imported when it runs, not at start-up
+    from .bench import BenchSettings, run_bench
+    from .bench.engines import EngineBenchSettings, run_engine_bench
+
+    if args.engines is not None:
+        engine_settings = EngineBenchSettings(tuple(args.engines), args.engine_rows, args.repeat, args.threads)
+        report = run_engine_bench(engine_settings, bench_view.TerminalObserver())
+        bench_view.print_bench_report(report)
+        return EXIT_OK
+    settings = BenchSettings(rows=args.rows, repeat=args.repeat, threads=args.threads, memory_rows=args.memory_rows,
+                             skip_memory=args.skip_memory, memory_limit=args.memory_limit, folder=args.folder)
+    report = run_bench(settings, bench_view.TerminalObserver())
+    bench_view.print_bench_report(report)
+    return EXIT_FOUND if any(line.goal_met is False for line in report.lines) else EXIT_OK
+
+
+def baseline(args) -> int:
+    # the monitor's modules load sqlglot and the engines: imported when a command needs them, so
+    # that `scoremon check` starts without them
+    from .monitor.baseline import small_baseline_warning
+    from .monitor.months import out_of_range_note
+
+    if files.is_same_file(args.out, args.spec):
+        raise InputError(f"--out {args.out} is the spec itself; a spec is never overwritten in place, give a new "
+                         "file name")
+    out = _file_output(args.out, "--out", args.replace, outputs.kept_database(args.db))
+    spec = api.load_spec(args.spec)
+    outputs.require_database_file(args.db)
+    engine = api.open_engine(args.db)
+    try:
+        source = api.source_relation(table=args.table)
+        baseline = api.measure_development(spec, engine, source, args.outcome, args.month_column,
+                                           computed_from=f"table {args.table}")
+    finally:
+        engine.close()
+    written = api.write_spec_with_baseline(args.spec, baseline, out, replace=args.replace)
+    monitor_view.print_baseline_written(str(written), baseline, fingerprint(spec))
+    warning = small_baseline_warning(baseline.rows)
+    if warning:
+        terminal.print_problems([warning])
+    if baseline.rows_out_of_range:
+        terminal.print_problems([f"note: {out_of_range_note(baseline.rows_out_of_range, date.today())}"])
+    return EXIT_OK
+
+
+def monitor(args) -> int:
+    spec = api.load_spec(args.spec)
+    thresholds = api.load_thresholds(args.thresholds)
+    as_of = _date(args.as_of, "--as-of") if args.as_of else datetime.now(timezone.utc).date()
+    months = None
+    if args.baseline_months:
+        first, _, last = args.baseline_months.partition(":")
+        months = (api.parse_month(first, "--baseline-months start"), api.parse_month(last or first, "--baseline-months end"))
+        if months[1] < months[0]:
+            raise InputError(f"--baseline-months {args.baseline_months}: the end comes before the start")
+    json_file = _file_output(args.json, "--json", args.replace, [("the spec", args.spec),
+                                                                 ("the thresholds file", args.thresholds),
+                                                                 *outputs.kept_database(args.db)])
+    outputs.require_database_file(args.db)
+    engine = api.open_engine(args.db)
+    try:
+        report = api.monitor(spec, engine, args.table, args.month_column, as_of, args.outcome, thresholds,
+                             args.baseline_table, months, record_history=not args.no_history,
+                             expected_rows=_expected_rows(args.expected_rows), two_sided=args.two_sided)
+    finally:
+        engine.close()
+    monitor_view.print_monitor_report(report, history_written=not args.no_history)
+    if json_file is not None:
+        files.write_text(json_file, to_json(report) + "\n")
+        terminal.print_text(f"wrote {json_file}")
+    return EXIT_FOUND if report.has_alert else EXIT_OK
+
+
+def _expected_rows(text: str) -> str | float:
+    if text in ("trailing", "development"):
+        return text
+    try:
+        value = float(text.replace(",", "").replace("_", ""))
+    except ValueError:
+        value = 0.0
+    if not value > 0 or value == float("inf"):
+        raise InputError(f"--expected-rows {text!r}: give trailing, development or a positive monthly count, "
+                         "e.g. 12000")
+    return value
+
+
+def _date(text: str, option: str):
+    try:
+        return datetime.strptime(text, "%Y-%m-%d").date()
+    except ValueError:
+        raise InputError(f"{option} {text!r} is not a date; write it as YYYY-MM-DD, e.g. 2026-11-30") from None
+
+
+def demo(args) -> int:
+    from demo_warehouse.run import run_demo
+
+    return run_demo(args)
