@@ -24,6 +24,9 @@ from scoremon.api import ScoreResult
 from scoremon.errors import InputError
 from scoremon.monitor.history import METRICS_TABLE, RUNS_TABLE
 from scoremon.report import terminal
+from scoremon.report.html.diff import diff_html
+from scoremon.report.html.monitor import monitor_html
+from scoremon.report.html.pack import pack_html
 from scoremon.report.json import to_json
 from scoremon.report.markdown import diff_markdown
 from scoremon.report.terminal import demo as view
@@ -45,6 +48,9 @@ DIFF_CUTOFF = 560.0
 DIFF_AUDIT_FILE = "diff_v1_v2.md"
 BASELINE_SPEC_FILE = "spec_v1_with_baseline.yaml"
 MONITOR_JSON_FILE = "monitor_v1.json"
+MONITOR_HTML_FILE = "monitor_v1.html"
+DIFF_HTML_FILE = "diff_v1_v2.html"
+PACK_HTML_FILE = "history_pack.html"
 
 
 @dataclass
@@ -126,10 +132,13 @@ def monitor_book(run: DemoRun) -> StepOutcome:
                                                 replace=True)
         report = api.monitor(api.load_spec(spec_path), engine, generate.APPLICATIONS, generate.MONTH_COLUMN,
                              generate.AS_OF, generate.OUTCOME_COLUMN)
+        dialect = engine.dialect
     finally:
         engine.close()
     figures = run.folder / MONITOR_JSON_FILE
     files.write_text(figures, to_json(report) + "\n")
+    # the demo's folder is its own: a second run replaces the reports of the first
+    charts = files.write_text(run.folder / MONITOR_HTML_FILE, monitor_html(report, dialect))
     run.tables += [RUNS_TABLE, METRICS_TABLE]
     mature = sum(1 for m in report.months if m.maturity == "mature")
     flagged = "; ".join(f"{words} {_month_ranges(report, family)}" for words, family in (
@@ -138,7 +147,7 @@ def monitor_book(run: DemoRun) -> StepOutcome:
     return StepOutcome((
         f"baseline of the {baseline.rows:,} development rows frozen into {spec_path}; the {len(report.months)} "
         f"months monitored against it as of {generate.AS_OF} ({mature} with mature outcomes), the run appended "
-        f"to the history tables. Every figure: {figures}",
+        f"to the history tables. Every figure: {figures}; with charts: {charts}",
         f"months flagged (watch or alert): {flagged}.",
     ), lambda: monitor_view.print_monitor_report(report, indent=view.DETAIL_INDENT))
 
@@ -168,18 +177,33 @@ def diff_versions(run: DemoRun) -> StepOutcome:
                 run.spec, new, engine, api.source_relation(table=generate.APPLICATIONS),
                 f"table {generate.APPLICATIONS} in {run.database}", generate.OUTCOME_COLUMN, DIFF_CUTOFF,
                 progress=progress)
+        dialect = engine.dialect
     finally:
         engine.close()
     report = api.DiffReport(diff, impact, datetime.now(timezone.utc).isoformat(timespec="seconds"))
     audit = run.folder / DIFF_AUDIT_FILE
     files.write_text(audit, diff_markdown(report) + "\n")
+    charts = files.write_text(run.folder / DIFF_HTML_FILE, diff_html(report, run.spec, new, dialect))
     cells = {cell.name: cell for cell in impact.swap_set.cells}
     return StepOutcome((
         f"version {diff.old.version} → {diff.new.version}: {len(diff.changes)} changes, class "
         f"{diff.effect.words}; both versions scored the {impact.rows:,} applications in one query. At the "
         f"cut-off {DIFF_CUTOFF:g}, {cells['swap_in'].rows:,} applications swap in and {cells['swap_out'].rows:,} "
-        f"swap out. Audit file: {audit}",
+        f"swap out. Audit file: {audit}; with charts: {charts}",
     ), lambda: diff_view.print_diff_details(report, indent=view.DETAIL_INDENT, brief=True))
+
+
+def pack_history(run: DemoRun) -> StepOutcome:
+    """Read the monitoring history back from the warehouse and draw the history pack."""
+    engine = api.open_engine(str(run.database))
+    try:
+        history = api.read_history(engine, run.spec.model.name)
+        dialect = engine.dialect
+    finally:
+        engine.close()
+    pack = files.write_text(run.folder / PACK_HTML_FILE, pack_html(history, dialect))
+    return StepOutcome((f"{len(history.runs)} monitoring run{'s' if len(history.runs) != 1 else ''} of "
+                        f"{history.model_name} read back from the history tables into {pack}",))
 
 
 # The demo, in order. Steps added later (monitoring by month, then the diff of version 1
@@ -191,6 +215,7 @@ STEPS: tuple[tuple[str, Step], ...] = (
     ("score the book", score_book),
     ("monitor the book month by month", monitor_book),
     ("diff version 1 against version 2", diff_versions),
+    ("pack the monitoring history", pack_history),
 )
 
 

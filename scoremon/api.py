@@ -15,6 +15,7 @@ from importlib import import_module
 # public name → (module that owns it, its name there)
 _OWNERS = {
     "DiffReport": (".diff", "DiffReport"),
+    "History": (".monitor", "History"),
     "Impact": (".diff", "Impact"),
     "ModelDiff": (".diff", "ModelDiff"),
     "MonitorReport": (".monitor", "MonitorReport"),
@@ -27,9 +28,11 @@ _OWNERS = {
     "load_thresholds": (".monitor", "load_thresholds"),
     "measure_development": (".monitor", "measure_development"),
     "measure_impact": (".diff", "measure_impact"),
+    "model_name_of": (".monitor", "model_name_of"),
     "monitor": (".monitor", "monitor_table"),
     "open_engine": (".engines", "open_engine"),
     "parse_month": (".monitor", "parse_month"),
+    "read_history": (".monitor", "read_history"),
     "score": (".scoring", "score"),
     "source_relation": (".sources", "source_relation"),
     "write_spec_with_baseline": (".monitor", "write_spec_with_baseline"),

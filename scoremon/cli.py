@@ -93,7 +93,10 @@ def build_parser() -> argparse.ArgumentParser:
                       help="the new version's cut-off when it differs from --cutoff (e.g. after a rescaling)")
     diff.add_argument("--json", metavar="FILE", help="also write the result as JSON to FILE")
     diff.add_argument("--markdown", metavar="FILE", help="also write an audit document (Markdown) to FILE")
-    diff.add_argument("--replace", action="store_true", help="replace --json and --markdown files when it exists (without it, an existing output is an error)")
+    diff.add_argument("--html", metavar="FILE", help="also write a report with charts, one self-contained HTML "
+                                                     "file, to FILE")
+    diff.add_argument("--replace", action="store_true", help="replace --json, --markdown and --html files when they "
+                                                             "exist (without it, an existing output is an error)")
     diff.set_defaults(run="diff")
 
     bench = commands.add_parser(
@@ -171,11 +174,31 @@ def build_parser() -> argparse.ArgumentParser:
                          help="calibration tests both ways (default one-sided: only more events than the PD "
                               "predicts is flagged, so an over-estimating model reads ok)")
     monitor.add_argument("--json", metavar="FILE", help="also write every figure as JSON to FILE")
-    monitor.add_argument("--replace", action="store_true", help="replace --json when it exists (without it, an existing output is an error)")
+    monitor.add_argument("--html", metavar="FILE", help="also write a report with charts, one self-contained HTML "
+                                                        "file, to FILE")
+    monitor.add_argument("--replace", action="store_true", help="replace --json and --html files when they exist "
+                                                                "(without it, an existing output is an error)")
     monitor.add_argument("--no-history", action="store_true",
                          help="do not append this run to the history tables (e.g. a trial run, or an engine "
                               "without transactions)")
     monitor.set_defaults(run="monitor")
+
+    pack = commands.add_parser(
+        "pack", help="a history pack: one model's monitoring over many runs or months, as one HTML file",
+        description="Read the monitoring history that `scoremon monitor` appended to the database and draw, "
+                    "month by month, score PSI, calibration and AUC across every run in the range, one line per "
+                    "model version. Reads only the history tables, never the book.",
+        epilog="exit codes: 0 written; 2 invalid input, one line per problem",
+    )
+    pack.add_argument("model", metavar="SPEC_OR_MODEL", help="a spec file (its model name is used) or a model name")
+    pack.add_argument("--db", required=True, help=f"engine URL holding the history tables: {ENGINE_URLS}")
+    pack.add_argument("--from", dest="first", metavar="YYYY-MM", help="first month (default: the earliest measured)")
+    pack.add_argument("--to", dest="last", metavar="YYYY-MM", help="last month (default: the latest measured)")
+    pack.add_argument("--runs", nargs="+", metavar="RUN", help="only these runs (ids from the runs table), "
+                                                               "instead of --from/--to")
+    pack.add_argument("--html", required=True, metavar="FILE", help="the HTML file to write")
+    pack.add_argument("--replace", action="store_true", help="replace FILE when it exists")
+    pack.set_defaults(run="pack")
 
     demo = commands.add_parser("demo", help="build the demo warehouse and run the whole job on it")
     demo.add_argument("--rows", type=int, default=None, help="applications in the demo book (default: about 400,000)")

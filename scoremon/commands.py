@@ -6,6 +6,7 @@ takes the parsed arguments and returns the exit code (see :mod:`scoremon.cli`).
 """
 from __future__ import annotations
 
+import time
 from datetime import date, datetime, timezone
 from pathlib import Path
 
@@ -110,12 +111,15 @@ def diff(args) -> int:
             *outputs.kept_database(args.db)]
     json_file = _file_output(args.json, "--json", args.replace, kept)
     markdown_file = _file_output(args.markdown, "--markdown", args.replace, kept)
+    html_file = _file_output(args.html, "--html", args.replace, kept)
     old, new = _load_both(args.old, args.new)
     diff = api.diff_models(old, new, args.old, args.new)
     impact = None
+    dialect = None
     if population:
         outputs.require_database_file(args.db)
         engine = api.open_engine(args.db)
+        dialect = engine.dialect
         try:
             source = api.source_relation(table=args.table, file=args.input)
             where = f"table {args.table} in {redact(args.db)}" if args.table is not None else f"file {args.input}"
@@ -130,7 +134,18 @@ def diff(args) -> int:
         if target is not None:
             files.write_text(target, text() + "\n")
             terminal.print_text(f"wrote {target}")
+    if html_file is not None:
+        from .report.html.diff import diff_html  # the report modules: loaded only when a report is asked for
+
+        _write_html(html_file, lambda: diff_html(report, old, new, dialect))
     return EXIT_OK if diff.is_equivalent else EXIT_FOUND
+
+
+def _write_html(target: Path, build) -> None:
+    """Build a report and write it whole (the target was checked before the run); say how long it took."""
+    started = time.perf_counter()
+    files.write_text(target, build())
+    terminal.print_text(f"wrote {target} ({time.perf_counter() - started:.1f} s)")
 
 
 def bench(args) -> int:
@@ -189,11 +204,12 @@ def monitor(args) -> int:
         months = (api.parse_month(first, "--baseline-months start"), api.parse_month(last or first, "--baseline-months end"))
         if months[1] < months[0]:
             raise InputError(f"--baseline-months {args.baseline_months}: the end comes before the start")
-    json_file = _file_output(args.json, "--json", args.replace, [("the spec", args.spec),
-                                                                 ("the thresholds file", args.thresholds),
-                                                                 *outputs.kept_database(args.db)])
+    kept = [("the spec", args.spec), ("the thresholds file", args.thresholds), *outputs.kept_database(args.db)]
+    json_file = _file_output(args.json, "--json", args.replace, kept)
+    html_file = _file_output(args.html, "--html", args.replace, kept)
     outputs.require_database_file(args.db)
     engine = api.open_engine(args.db)
+    dialect = engine.dialect
     try:
         report = api.monitor(spec, engine, args.table, args.month_column, as_of, args.outcome, thresholds,
                              args.baseline_table, months, record_history=not args.no_history,
@@ -204,6 +220,10 @@ def monitor(args) -> int:
     if json_file is not None:
         files.write_text(json_file, to_json(report) + "\n")
         terminal.print_text(f"wrote {json_file}")
+    if html_file is not None:
+        from .report.html.monitor import monitor_html  # the report modules: loaded only when a report is asked for
+
+        _write_html(html_file, lambda: monitor_html(report, dialect))
     return EXIT_FOUND if report.has_alert else EXIT_OK
 
 
@@ -218,6 +238,31 @@ def _expected_rows(text: str) -> str | float:
         raise InputError(f"--expected-rows {text!r}: give trailing, development or a positive monthly count, "
                          "e.g. 12000")
     return value
+
+
+def pack(args) -> int:
+    if args.runs and (args.first or args.last):
+        raise InputError("give --runs, or a range of months with --from and --to, not both")
+    first = str(api.parse_month(args.first, "--from")) if args.first else None
+    last = str(api.parse_month(args.last, "--to")) if args.last else None
+    if first and last and last < first:
+        raise InputError(f"--from {first} --to {last}: the end comes before the start")
+    html_file = _file_output(args.html, "--html", args.replace, [("the spec", args.model),
+                                                                 *outputs.kept_database(args.db)])
+    outputs.require_database_file(args.db)  # a pack only reads: no database file is made for it
+    model = api.model_name_of(args.model)
+    engine = api.open_engine(args.db)
+    try:
+        history = api.read_history(engine, model, tuple(args.runs or ()), first, last)
+    finally:
+        engine.close()
+    if not any(history.figures.values()):
+        raise InputError(f"the runs of {model} measured no month in {first or 'the first month'} to "
+                         f"{last or 'the last month'}; widen the range")
+    from .report.html.pack import pack_html  # the report modules: loaded only when a report is asked for
+
+    _write_html(html_file, lambda: pack_html(history, engine.dialect))
+    return EXIT_OK
 
 
 def _date(text: str, option: str):

@@ -12,13 +12,14 @@ Modules, in the order a run uses them:
 ``thresholds``  ok / watch / alert levels, defaults and overrides
 ``measure``     runs the passes and builds the records
 ``records``     the result records
-``history``     appends a run to the history tables in one transaction
+``history``     appends a run to the history tables in one transaction; reads them back
 
 Only aggregate tables reach Python; the engine is reached through the
 :class:`~scoremon.engines.Engine` protocol only. The package's face is the run
 (:func:`monitor_table`, :func:`measure_development`) and what its callers hand it or get back.
 """
 from .baseline import spec_text_with_baseline, write_spec_with_baseline
+from .history import History, model_name_of, read_history
 from .months import Month, parse_month
 from .records import MonitorReport, MonthResult
 from .run import measure_development, monitor_table
@@ -26,14 +27,17 @@ from .thresholds import DEFAULT_THRESHOLDS, Thresholds, load_thresholds
 
 __all__ = [
     "DEFAULT_THRESHOLDS",
+    "History",
     "MonitorReport",
     "Month",
     "MonthResult",
     "Thresholds",
     "load_thresholds",
     "measure_development",
+    "model_name_of",
     "monitor_table",
     "parse_month",
+    "read_history",
     "spec_text_with_baseline",
     "write_spec_with_baseline",
 ]

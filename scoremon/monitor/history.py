@@ -8,6 +8,9 @@
                               a figure of the whole run (``rows_out_of_range``) has an
                               empty month.
 
+:func:`read_history` reads them back for one model (every run, or some runs, over a range of
+months) into a :class:`History`, for the history pack.
+
 A run only ever adds rows: re-running a month adds a run and leaves earlier runs alone. The
 tables are created if missing and the rows inserted in one transaction
 (:meth:`~scoremon.engines.Engine.execute_atomically`), so a run that fails part-way leaves the
@@ -21,13 +24,16 @@ import json
 import math
 from dataclasses import dataclass
 from datetime import datetime
+from pathlib import Path
 from typing import Iterator, Sequence
 
 from sqlglot import exp
 
 from ..dialects import render_sql
 from ..engines import Engine
-from ..trees import identifier, integer, number, text
+from ..errors import EngineError, InputError
+from ..spec import load_spec
+from ..trees import column, identifier, integer, number, text
 from .records import MATURE, MonitorReport
 
 RUNS_TABLE = "scoremon_monitor_runs"
@@ -203,6 +209,173 @@ def write_history(engine: Engine, report: MonitorReport) -> int:
     engine.execute_atomically(create_statements() + insert_statements(report),
                               "appending the run to the monitoring history")
     return len(metric_rows(report))
+
+
+# ---------------------------------------------------------------- reading the history back
+
+# The figures a history pack draws: (family, metric) of the whole month (subject empty).
+PACK_METRICS = (
+    ("month", "status"),
+    ("data_quality", "rows"),
+    ("stability", "score_psi"),
+    ("stability", "score_psi_critical_value"),
+    ("stability", "mean_score_shift"),
+    ("calibration", "mature"),
+    ("calibration", "status"),
+    ("calibration", "rows"),
+    ("calibration", "events"),
+    ("calibration", "mean_pd"),
+    ("calibration", "event_rate"),
+    ("calibration", "jeffreys_p"),
+    ("discrimination", "auc"),
+    ("discrimination", "auc_lower"),
+    ("discrimination", "auc_upper"),
+    ("discrimination", "auc_change"),
+)
+
+
+@dataclass(frozen=True)
+class RunRow:
+    """One run as the history's runs table holds it (dates and times as ISO text)."""
+
+    run_id: str
+    run_at: str
+    model_version: str
+    model_fingerprint: str
+    as_of: str
+    source: str
+    baseline_source: str
+    months: int
+    status: str
+    thresholds: dict
+
+
+@dataclass(frozen=True)
+class Figure:
+    """One figure of one month of one run."""
+
+    value: float | None
+    status: str | None
+
+
+@dataclass(frozen=True)
+class History:
+    """What the history holds for one model: its runs (oldest first) and their month figures.
+
+    ``figures[run_id][month][(family, metric)]`` is a :class:`Figure`; only the whole-month
+    figures of :data:`PACK_METRICS` are read.
+    """
+
+    model_name: str
+    runs: tuple[RunRow, ...]
+    figures: dict[str, dict[str, dict[tuple[str, str], Figure]]]
+    first_month: str | None = None
+    last_month: str | None = None
+
+    @property
+    def versions(self) -> tuple[tuple[str, str], ...]:
+        """(version, fingerprint) pairs in the order the runs first met them."""
+        seen: dict[tuple[str, str], None] = {}
+        for run in self.runs:
+            seen.setdefault((run.model_version, run.model_fingerprint))
+        return tuple(seen)
+
+    def latest(self, version: tuple[str, str]) -> dict[str, tuple[RunRow, dict[tuple[str, str], Figure]]]:
+        """Month → (run, its figures) from the latest run of ``version`` that measured the month.
+
+        A later run knows more outcomes (a later as-of date), so its figures stand for the month.
+        """
+        found: dict[str, tuple[RunRow, dict]] = {}
+        for run in self.runs:  # oldest first: a later run overwrites
+            if (run.model_version, run.model_fingerprint) != version:
+                continue
+            for month, figures in self.figures.get(run.run_id, {}).items():
+                found[month] = (run, figures)
+        return dict(sorted(found.items()))
+
+
+def _history_queries(model_name: str, run_ids: Sequence[str], first: str | None,
+                     last: str | None) -> tuple[exp.Select, exp.Select]:
+    """The two queries a pack needs: the model's runs, and their whole-month figures."""
+    runs_filter = exp.EQ(this=column("model_name"), expression=text(model_name))
+    if run_ids:
+        runs_filter = exp.and_(runs_filter, exp.In(this=column("run_id"), expressions=[text(r) for r in run_ids]))
+    runs = (exp.select(*[column(c) for c in ("run_id", "run_at", "model_version", "model_fingerprint", "as_of",
+                                              "source", "baseline_source", "months", "status", "thresholds")])
+            # run_at has whole seconds: runs within one second are ordered by their as-of date
+            .from_(_table(RUNS_TABLE)).where(runs_filter).order_by(column("run_at"), column("as_of"),
+                                                                   column("run_id")))
+    wanted = exp.or_(*[exp.and_(exp.EQ(this=column("family"), expression=text(family)),
+                                exp.EQ(this=column("metric"), expression=text(metric)))
+                       for family, metric in PACK_METRICS])
+    chosen = exp.select(column("run_id")).from_(_table(RUNS_TABLE)).where(runs_filter.copy())
+    conditions = [exp.In(this=column("run_id"), query=exp.Subquery(this=chosen)),
+                  exp.EQ(this=column("subject"), expression=text("")), exp.paren(wanted)]
+    if first is not None:
+        conditions.append(exp.GTE(this=column("month"), expression=text(first)))
+    if last is not None:
+        conditions.append(exp.LTE(this=column("month"), expression=text(last)))
+    metrics = (exp.select(*[column(c) for c in ("run_id", "month", "family", "metric", "value", "status")])
+               .from_(_table(METRICS_TABLE)).where(exp.and_(*conditions)))
+    return runs, metrics
+
+
+def _iso(value) -> str:
+    return value.isoformat(sep=" ") if isinstance(value, datetime) else (
+        value.isoformat() if hasattr(value, "isoformat") else str(value))
+
+
+def model_name_of(spec_or_model: str) -> str:
+    """The model a history pack is for: the ``model.name`` of a spec file, or the text as a
+    model name when it is not a file. Raises :class:`~scoremon.errors.SpecError` for a spec
+    file that does not load."""
+    path = Path(spec_or_model)
+    if path.suffix.lower() in (".yaml", ".yml") or path.is_file():
+        return load_spec(path).model.name
+    return spec_or_model
+
+
+def _thresholds(value) -> dict:
+    try:
+        found = json.loads(value) if value else {}
+    except (TypeError, ValueError):  # written by scoremon as JSON; anything else is shown without thresholds
+        return {}
+    return found if isinstance(found, dict) else {}
+
+
+def read_history(engine: Engine, model_name: str, run_ids: Sequence[str] = (), first: str | None = None,
+                 last: str | None = None) -> History:
+    """The history of ``model_name``: every run (or the runs ``run_ids``), months ``first`` to
+    ``last`` (``YYYY-MM``, both included; None: no bound).
+
+    Raises :class:`InputError` when the database holds no history, no run of the model, or a
+    run id that is not one of the model's runs.
+    """
+    runs_query, metrics_query = _history_queries(model_name, run_ids, first, last)
+    try:
+        # the only two engine calls of the pack, kept together
+        run_rows = engine.query(runs_query, "reading the monitoring runs")
+        figure_rows = engine.query(metrics_query, "reading the monitoring figures") if run_rows else []
+    except EngineError as error:
+        raise InputError(f"could not read the monitoring history ({RUNS_TABLE}, {METRICS_TABLE}): {error}; give "
+                         "the database that `scoremon monitor` wrote its history to") from error
+    runs = tuple(RunRow(str(r.run_id), _iso(r.run_at), str(r.model_version), str(r.model_fingerprint), _iso(r.as_of),
+                        str(r.source), str(r.baseline_source), int(r.months), str(r.status), _thresholds(r.thresholds))
+                 for r in run_rows)
+    if run_ids:
+        missing = sorted(set(run_ids) - {r.run_id for r in runs})
+        if missing:
+            raise InputError(f"run {', '.join(missing)} is not a monitoring run of {model_name} in this database; "
+                             "list the runs with their ids from the table " + RUNS_TABLE)
+    if not runs:
+        raise InputError(f"the monitoring history holds no run of model {model_name!r}; check the model name "
+                         "(the spec's model.name) and the database")
+    figures: dict[str, dict[str, dict[tuple[str, str], Figure]]] = {}
+    for row in figure_rows:
+        value = None if row.value is None or (isinstance(row.value, float) and math.isnan(row.value)) else float(row.value)
+        figures.setdefault(str(row.run_id), {}).setdefault(str(row.month), {})[(str(row.family), str(row.metric))] = (
+            Figure(value, None if row.status is None else str(row.status)))
+    return History(model_name, runs, figures, first, last)
 
 
 if __name__ == "__main__":

@@ -182,6 +182,11 @@ class MonitorReport:
         return self.status == "alert"
 
     @property
+    def latest_month_with_rows(self) -> MonthResult:
+        """The latest month that has rows (months after it, up to the as-of month, are empty)."""
+        return next((m for m in reversed(self.months) if m.rows), self.months[-1])
+
+    @property
     def latest_mature_month(self) -> MonthResult | None:
         mature = [m for m in self.months if m.maturity == MATURE and m.calibration is not None]
         return mature[-1] if mature else None

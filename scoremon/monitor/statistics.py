@@ -125,6 +125,20 @@ def jeffreys_p(rows: int, events: int, pd: float, two_sided: bool = False) -> fl
     return _both_tails(upper, float(stats.beta.sf(pd, events + 0.5, rows - events + 0.5))) if two_sided else upper
 
 
+def jeffreys_interval(rows: int, events: int, confidence: float = 0.95) -> tuple[float, float] | None:
+    """Equal-tailed Jeffreys interval of an event rate: the Beta(D+½, N−D+½) quantiles at
+    (1 ∓ confidence)/2, with the lower end 0 when D = 0 and the upper end 1 when D = N
+    (Brown, Cai & DasGupta, Statistical Science 16(2), 2001). ``None`` without rows."""
+    from scipy import stats
+
+    if rows <= 0:
+        return None
+    tail = (1.0 - confidence) / 2.0
+    lower = 0.0 if events <= 0 else float(stats.beta.ppf(tail, events + 0.5, rows - events + 0.5))
+    upper = 1.0 if events >= rows else float(stats.beta.ppf(1.0 - tail, events + 0.5, rows - events + 0.5))
+    return lower, upper
+
+
 def binomial_p(rows: int, events: int, pd: float, two_sided: bool = False) -> float | None:
     """Binomial p-value for X ~ Bin(N, PD): one-sided P(X ≥ D), small when events exceed the PD;
     with ``two_sided`` twice the smaller of P(X ≥ D) and P(X ≤ D)."""

@@ -14,6 +14,7 @@ from scoremon.monitor.statistics import (
     binomial_p,
     brier,
     grade_chi_square,
+    jeffreys_interval,
     jeffreys_p,
     points_shift,
     psi,
@@ -115,6 +116,28 @@ def test_points_shift_hand_worked():
 ])
 def test_jeffreys_p_values(rows, events, pd, published):
     assert jeffreys_p(rows, events, pd) == pytest.approx(published, abs=5e-6)
+
+
+@pytest.mark.parametrize("rows, events", [(6, 2), (1000, 10), (2545, 13), (40, 39)])
+@pytest.mark.parametrize("confidence", [0.95, 0.99])
+def test_jeffreys_interval_matches_statsmodels(rows, events, confidence):
+    # [lib] statsmodels.stats.proportion.proportion_confint(method="jeffreys"): the equal-tailed
+    # Beta(D+½, N−D+½) quantiles, computed live
+    from statsmodels.stats.proportion import proportion_confint
+
+    lower, upper = proportion_confint(events, rows, alpha=1 - confidence, method="jeffreys")
+    assert jeffreys_interval(rows, events, confidence) == pytest.approx((lower, upper), rel=1e-9)
+
+
+def test_jeffreys_interval_at_the_boundaries():
+    # Brown, Cai & DasGupta (2001), §4.1.2 (from memory): with no events the lower end is 0, with
+    # every row an event the upper end is 1; the other end stays the Beta quantile
+    # (statsmodels leaves the Beta quantile at both ends, so only the free end is compared with it).
+    from statsmodels.stats.proportion import proportion_confint
+
+    assert jeffreys_interval(50, 0) == pytest.approx((0.0, proportion_confint(0, 50, method="jeffreys")[1]))
+    assert jeffreys_interval(50, 50) == pytest.approx((proportion_confint(50, 50, method="jeffreys")[0], 1.0))
+    assert jeffreys_interval(0, 0) is None
 
 
 @pytest.mark.parametrize("rows, events, pd, published", [
