@@ -1,4 +1,4 @@
-"""The library's entry points: load, check, compile, score, diff, baseline and monitor.
+"""The library's entry points: load, check, compile, score, diff, baseline, monitor, bin and fit.
 
 The CLI is a thin layer on these. This module is a face: each name is handed on from the module
 that owns the job when it is first asked for (scoring from :mod:`scoremon.scoring`, the
@@ -36,6 +36,19 @@ _OWNERS = {
     "score": (".scoring", "score"),
     "source_relation": (".sources", "source_relation"),
     "write_spec_with_baseline": (".monitor", "write_spec_with_baseline"),
+    # model development: bin and fit
+    "BinReport": (".develop.binning", "BinReport"),
+    "Binning": (".develop.binning_file", "Binning"),
+    "FitReport": (".develop.records", "FitReport"),
+    "FitSettings": (".develop.records", "FitSettings"),
+    "Naming": (".develop.spec_writer", "Naming"),
+    "Settings": (".develop.binning_file", "Settings"),
+    "bin_development": (".develop.run", "bin_development"),
+    "fit_development": (".develop.run", "fit_development"),
+    "penalty_alpha": (".develop.fitting", "penalty_alpha"),
+    "read_binning": (".develop.binning_file", "read_binning"),
+    "recount_binning": (".develop.run", "recount_binning"),
+    "write_binning": (".develop.binning_file", "write_binning"),
 }
 
 __all__ = sorted(_OWNERS)

@@ -19,6 +19,7 @@ import traceback
 from . import __version__
 from .dialects import DIALECTS, dialects_help
 from .engines import ENGINE_URLS
+from .develop.settings import TRENDS, Settings as BinSettings
 from .errors import InputError, ScoremonError, SpecError, cut
 
 EXIT_OK, EXIT_FOUND, EXIT_INVALID, EXIT_INTERNAL, EXIT_INTERRUPTED = 0, 1, 2, 3, 130
@@ -138,6 +139,91 @@ def build_parser() -> argparse.ArgumentParser:
     baseline.add_argument("--out", required=True, metavar="NEW_SPEC", help="the new spec file to write")
     baseline.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
     baseline.set_defaults(run="baseline")
+
+    bin_ = commands.add_parser(
+        "bin", help="bin every characteristic of a development table (WoE, IV) into a binning file",
+        description="Count fine classes of every characteristic inside the database (quantiles of numbers, "
+                    "values of text; NULL, NaN and ±inf apart), merge them into the bins with the largest IV "
+                    "where every bin holds a minimum share of rows and of events (WoE in one direction when "
+                    "asked), and write a binning file in the spec's own bin syntax. Edit that file by hand and "
+                    "recount it with --recount.",
+        epilog="exit codes: 0 written; 2 invalid input, one line per problem",
+    )
+    bin_.add_argument("--db", required=True, help=f"engine URL holding --table: {ENGINE_URLS}")
+    bin_.add_argument("--table", help="the development table (NAME or SCHEMA.NAME); with --recount, default: the file's")
+    bin_.add_argument("--outcome", help="the 0/1 (or true/false) outcome column, 1 = event; with --recount, "
+                                        "default: the file's")
+    bin_.add_argument("--key", help="a column that identifies each row; checked to be unique")
+    bin_.add_argument("--month-column", help="the month of each row, recorded as the months covered")
+    chosen = bin_.add_mutually_exclusive_group()
+    chosen.add_argument("--features", nargs="+", metavar="COLUMN", help="bin only these columns (default: every "
+                                                                          "number and text column but the outcome, key and month)")
+    chosen.add_argument("--exclude", nargs="+", metavar="COLUMN", help="bin every column but these")
+    bin_.add_argument("--categorical", nargs="+", metavar="COLUMN", default=(),
+                      help="whole-number columns to bin as categories (codes), not as numbers")
+    bin_.add_argument("--out", required=True, metavar="BINS.yaml", help="the binning file to write")
+    bin_.add_argument("--replace", action="store_true", help="replace --out if it exists")
+    bin_.add_argument("--recount", metavar="BINS.yaml", help="count the bins of this (hand-edited) binning file "
+                                                             "again exactly as written, instead of binning anew")
+    defaults = BinSettings()
+    bin_.add_argument("--fine-classes", type=int, default=defaults.fine_classes,
+                      help=f"quantile classes per numeric characteristic, 2 to 100 (default {defaults.fine_classes})")
+    bin_.add_argument("--min-share", type=float, default=defaults.min_share,
+                      help=f"least share of the table's rows in a bin (default {defaults.min_share})")
+    bin_.add_argument("--min-events", type=int, default=defaults.min_events,
+                      help=f"least number of events in a bin (default {defaults.min_events})")
+    bin_.add_argument("--trend", choices=TRENDS, default=defaults.trend,
+                      help="WoE across a numeric characteristic's bins: increasing, decreasing, auto (the one "
+                           f"with the larger IV) or none (default {defaults.trend})")
+    bin_.add_argument("--max-bins", type=int, default=defaults.max_bins,
+                      help=f"most bins per characteristic, missing and catch-all aside (default {defaults.max_bins})")
+    bin_.set_defaults(run="bin_")
+
+    fit = commands.add_parser(
+        "fit", help="fit a logistic model on a binning file's characteristics and write a new spec",
+        description="Transform each characteristic to its WoE inside the database, select characteristics "
+                    "(minimum IV, a cap on WoE correlation, --keep/--drop), fit by Newton-Raphson with an optional "
+                    "L2, L1 or elastic-net penalty whose weight λ is chosen by K-fold cross-validation over a path "
+                    "from λ_max down, and write a new spec with scaling, grades, one reason per characteristic, "
+                    "the baseline and a development record. Only sums leave the database.",
+        epilog="exit codes: 0 written; 2 invalid input, one line per problem; 3 internal error; 130 interrupted",
+    )
+    fit.add_argument("binning", metavar="BINS.yaml", help="the binning file (from scoremon bin)")
+    fit.add_argument("--db", required=True, help=f"engine URL holding --table: {ENGINE_URLS}")
+    fit.add_argument("--table", help="the development table (default: the binning file's)")
+    fit.add_argument("--outcome", help="the 0/1 outcome column (default: the binning file's)")
+    fit.add_argument("--key", help="the unique key the folds come from (default: the binning file's)")
+    fit.add_argument("--month-column", help="the month column, for the baseline volume (default: the file's)")
+    fit.add_argument("--penalty", choices=("none", "l2", "l1", "elastic"), default="none",
+                     help="none (default), l2 (ridge), l1 (lasso) or elastic (net, with --alpha)")
+    fit.add_argument("--alpha", type=float, default=None, help="elastic net: the L1 share α in (0, 1) (default 0.5)")
+    fit.add_argument("--folds", type=int, default=5, help="cross-validation folds (default 5; 1: none)")
+    fit.add_argument("--lambdas", type=int, default=20, help="λ values on the path (default 20)")
+    fit.add_argument("--lambda-ratio", type=float, default=1e-3, help="smallest λ ÷ λ_max (default 0.001)")
+    fit.add_argument("--one-se", action="store_true", help="choose the largest λ within one standard error of the best")
+    fit.add_argument("--cv-metric", choices=("deviance", "auc"), default="deviance",
+                     help="held-out measure that chooses λ (default deviance)")
+    fit.add_argument("--min-iv", type=float, default=0.02, help="leave out characteristics under this IV (default 0.02)")
+    fit.add_argument("--max-correlation", type=float, default=0.7,
+                     help="leave out a characteristic whose WoE correlates beyond this with a stronger one (default 0.7)")
+    fit.add_argument("--keep", nargs="+", metavar="NAME", help="characteristics to fit whatever the rules say")
+    fit.add_argument("--drop", nargs="+", metavar="NAME", help="characteristics to leave out")
+    fit.add_argument("--base-score", type=float, default=600.0, help="score at --base-odds (default 600)")
+    fit.add_argument("--base-odds", type=float, default=50.0, help="good:bad odds at --base-score (default 50)")
+    fit.add_argument("--pdo", type=float, default=20.0, help="points to double the odds (default 20)")
+    fit.add_argument("--rounding", choices=("none", "per_bin", "total"), default="none",
+                     help="rounding of points (default none)")
+    fit.add_argument("--grades", default="quantiles:10",
+                     help="quantiles:N (score deciles, N ≤ 10; default quantiles:10) or pd:P1,P2,… (PD bands)")
+    fit.add_argument("--name", help="the model's name (default: the table's)")
+    fit.add_argument("--model-version", default="1", help="the model's version (default 1)")
+    fit.add_argument("--owner", default="model development", help="the model's owner")
+    fit.add_argument("--event", help="what y = 1 means, in words")
+    fit.add_argument("--performance-window", type=int, default=12, help="outcome window in months (default 12)")
+    fit.add_argument("--out", required=True, metavar="SPEC.yaml", help="the new spec file")
+    fit.add_argument("--replace", action="store_true", help="replace --out if it exists")
+    fit.add_argument("--json", metavar="FILE", help="write the fit report as JSON")
+    fit.set_defaults(run="fit")
 
     monitor = commands.add_parser(
         "monitor", help="stability, data quality, calibration and discrimination by month, with history",

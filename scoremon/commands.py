@@ -17,7 +17,9 @@ from .report import terminal
 from .report.json import to_json
 from .report.markdown import diff_markdown
 from .report.terminal import bench as bench_view
+from .report.terminal import binning as binning_view
 from .report.terminal import diff as diff_view
+from .report.terminal import fit as fit_view
 from .report.terminal import monitor as monitor_view
 from .report.terminal import score as score_view
 from .spec import fingerprint
@@ -191,6 +193,69 @@ def baseline(args) -> int:
         terminal.print_problems([warning])
     if baseline.rows_out_of_range:
         terminal.print_problems([f"note: {out_of_range_note(baseline.rows_out_of_range, date.today())}"])
+    return EXIT_OK
+
+
+def bin_(args) -> int:
+    kept = [("the binning file being recounted", args.recount), *outputs.kept_database(args.db)]
+    out = _file_output(args.out, "--out", args.replace, kept)
+    edited = None
+    if args.recount:
+        edited = api.read_binning(args.recount, counted=False)
+        given = [name for name, value in (("--features", args.features), ("--exclude", args.exclude),
+                                          ("--categorical", args.categorical)) if value]
+        if given:
+            raise InputError(f"{', '.join(given)}: a recount counts the features of {args.recount} as written; "
+                             "remove them from the file instead")
+    else:
+        missing = [name for name, value in (("--table", args.table), ("--outcome", args.outcome)) if value is None]
+        if missing:
+            raise InputError(f"give {' and '.join(missing)} (or --recount FILE to recount a binning file)")
+        settings = api.Settings(fine_classes=args.fine_classes, min_share=args.min_share, min_events=args.min_events,
+                                trend=args.trend, max_bins=args.max_bins)
+    outputs.require_database_file(args.db)
+    engine = api.open_engine(args.db)
+    try:
+        with terminal.progress_bar("recounting" if edited else "binning") as progress:
+            if edited is not None:
+                report = api.recount_binning(engine, edited, args.table, args.outcome, args.key, args.month_column,
+                                             progress)
+            else:
+                report = api.bin_development(engine, args.table, args.outcome, args.key, args.month_column,
+                                             args.features, args.exclude or (), settings, progress,
+                                             args.categorical)
+    finally:
+        engine.close()
+    written = api.write_binning(report.binning, out, replace=args.replace)
+    binning_view.print_bin_report(report, str(written))
+    return EXIT_OK
+
+
+def fit(args) -> int:
+    kept = [("the binning file", args.binning), *outputs.kept_database(args.db)]
+    out = _file_output(args.out, "--out", args.replace, kept)
+    json_file = _file_output(args.json, "--json", args.replace, kept + [("--out", args.out)])
+    binning = api.read_binning(args.binning)
+    alpha = api.penalty_alpha(args.penalty, args.alpha)
+    settings = api.FitSettings(
+        penalty=args.penalty, alpha=alpha, folds=args.folds, lambdas=args.lambdas, lambda_ratio=args.lambda_ratio,
+        cv_metric=args.cv_metric, one_se=args.one_se, min_iv=args.min_iv, max_correlation=args.max_correlation,
+        keep=tuple(args.keep or ()), drop=tuple(args.drop or ()), key=args.key if args.key else binning.key,
+        base_score=args.base_score, base_odds=args.base_odds, pdo=args.pdo, rounding=args.rounding,
+        grades=args.grades)
+    naming = api.Naming(name=args.name or (args.table or binning.table), version=args.model_version,
+                        owner=args.owner, event=args.event or "",
+                        performance_window_months=args.performance_window)
+    outputs.require_database_file(args.db)
+    engine = api.open_engine(args.db)
+    try:
+        report = api.fit_development(engine, binning, settings, naming, out, args.table, args.outcome,
+                                     args.month_column, args.replace)
+    finally:
+        engine.close()
+    if json_file is not None:
+        files.write_text(json_file, to_json(report) + "\n")
+    fit_view.print_fit_report(report)
     return EXIT_OK
 
 

@@ -305,6 +305,16 @@ def _one_number(spec: Spec, terms: FeatureTerms) -> str | None:
     return None
 
 
+def bin_case(spec: Spec, feature, x: exp.Expression, outcomes: Sequence[exp.Expression],
+             may_be_odd: bool = True) -> exp.Case:
+    """The scoring query's CASE that finds a row's bin of a numeric or categorical ``feature``
+    of ``spec`` in column ``x``, yielding ``outcomes[b]`` for bin ``b`` in
+    :func:`~scoremon.spec.terms.feature_terms` order (intervals by lower edge or groups by label,
+    then the catch-all, then the missing bin). Model development builds its WoE columns with it,
+    so a fitted row is binned exactly as it will be scored."""
+    return _bin_choice(feature, feature_terms(spec, feature), x, may_be_odd, outcomes)
+
+
 def _bin_choice(feature, terms: FeatureTerms, x: exp.Expression, may_be_odd: bool,
                 outcomes: Sequence[exp.Expression], kind: FixedPoint | None = None) -> exp.Case:
     """The CASE that finds a row's bin, yielding ``outcomes[b]`` for bin ``b``."""

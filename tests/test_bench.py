@@ -15,7 +15,7 @@ from scoremon.cli import main
 from scoremon.compiler import compile_model
 from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature
 
-EVERY_LINE = ["a0", "a", "b", "a+", "a-r", "c", "d0", "d1", "d", "f", "g", "h", "e"]
+EVERY_LINE = ["a0", "a", "b", "a+", "a-r", "c", "d0", "d1", "d", "f", "g", "h", "i", "e"]
 
 
 @pytest.fixture(scope="module")
@@ -47,7 +47,7 @@ def test_every_comparison_is_reported_with_both_sides_and_a_goal(report):
     ratio = {line.key: line.ratio for line in report.lines}
     assert goals == {"a": f"≤ 1.35 × (a0) = {1.35 * ratio['a0']:.2f}", "b": "≤ 0.8", "c": "≥ 10",
                      "d": f"≤ (d0) + (d1) + 0.5 = {ratio['d0'] + ratio['d1'] + 0.5:.2f}", "e": "< 2", "f": "≤ 2",
-                     "g": "≤ 4", "h": "≤ 6"}
+                     "g": "≤ 4", "h": "≤ 6", "i": "≤ 4"}
     assert all(isinstance(line.goal_met, bool) for line in report.lines if line.goal)
     memory = report.lines[-1]
     assert memory.unit == "GiB" and "3,000 rows" in memory.detail

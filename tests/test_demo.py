@@ -17,7 +17,7 @@ import pytest
 import scipy.stats
 
 from demo_warehouse import fit_spec, generate
-from demo_warehouse.run import DATABASE_NAME, SCORED, SPEC_V1
+from demo_warehouse.run import DATABASE_NAME, FITTED_SPEC_FILE, SCORED, SPEC_V1
 from scoremon import api, cli
 from scoremon.report.cautions import CAUTIONS
 
@@ -291,6 +291,11 @@ def test_demo_runs_end_to_end_and_scores_every_row(tmp_path, capsys):
                (SELECT count(*) FROM {SCORED} WHERE score IS NOT NULL AND pd > 0 AND pd < 1 AND grade IS NOT NULL)
     """)[0]
     assert applications == scored == matched == complete == 20_000
+    # the development step: `bin` and `fit` on the development table wrote a binning file and a spec
+    fitted = api.load_spec(tmp_path / FITTED_SPEC_FILE)
+    assert fitted.development.table == "development" and fitted.development.rows > 0
+    assert {"age", "region"}.isdisjoint(f.name for f in fitted.features)
+    assert "develop a model: bin and fit" in printed and "held-out folds" in printed
     grades = dict(query(database, f"SELECT grade, count(*) FROM {SCORED} GROUP BY 1"))
     spec = api.load_spec(SPEC_V1)
     assert set(grades) <= {g.name for g in spec.grades}

@@ -1,7 +1,7 @@
 """The benchmark run: generate the rows, time each comparison side by side, measure memory.
 
 Comparisons, each a ratio of two timings taken in turns in this one run (see
-:mod:`scoremon.bench.timing`), eight with the goal the project set and some for information.
+:mod:`scoremon.bench.timing`), nine with the goal the project set and some for information.
 Two goals are set by other lines of the same run, which measured DuckDB's floor for this work:
 finding the bins alone costs about five bare scans ((a0)), and writing the scored rows costs
 what copying costs ((d0)).
@@ -19,6 +19,7 @@ what copying costs ((d0)).
 (g) ``scoremon --help`` ÷ ``python -c pass``, fresh processes          goal ≤ 4
 (h) ``scoremon check`` on the demo spec ÷ ``python -c pass``           goal ≤ 6
 (e) peak memory of a fresh process scoring ``memory_rows`` rows to Parquet     goal < 2 GiB
+(i) one Newton step of `scoremon fit` (one model) ÷ bare scan of its columns    goal ≤ 4
 
 The run exits 1 (``scoremon bench``) when a goal is missed.
 (a)–(c) time an aggregate over the scored rows (rows, mean score and mean PD per grade), so
@@ -44,7 +45,7 @@ from ..errors import InputError
 from ..sources import describe_source, float_columns
 from ..spec.model import Spec
 from ..trees import alias, case, column, integer, text
-from . import queries, startup, workload
+from . import fitting, queries, startup, workload
 from .memory import measure_peak_memory
 from .numpy_scorer import GradeSummary, score_with_numpy
 from .timing import PairTiming, time_pair
@@ -289,6 +290,15 @@ class _Bench:
         self.timed_line("h", "scoremon check (demo spec) ÷ python -c pass", "check", startup.check_start(),
                         "python -c pass", bare, Goal(6.0, at_most=True))
 
+    def compare_newton_step(self) -> None:
+        design = fitting.newton_design(self.spec, TABLE)
+        step = self.sql(fitting.newton_step(design))
+        bare = self.sql(queries.bare_scan(TABLE, *fitting.design_columns(design)))
+        run = self.engine.query
+        self.timed_line("i", "one Newton step of the fit ÷ bare scan",
+                        "Newton step", lambda: run(step, "one Newton step"),
+                        "bare scan", lambda: run(bare, "bare scan"), Goal(4.0, at_most=True))
+
     def measure_memory(self) -> None:
         rows = self.settings.memory_rows
         database = self.folder / "memory.duckdb"
@@ -354,7 +364,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
 
     >>> report = run_bench(BenchSettings(rows=2_000, repeat=1, skip_memory=True))
     >>> [line.key for line in report.lines]
-    ['a0', 'a', 'b', 'a+', 'a-r', 'c', 'd0', 'd1', 'd', 'f', 'g', 'h']
+    ['a0', 'a', 'b', 'a+', 'a-r', 'c', 'd0', 'd1', 'd', 'f', 'g', 'h', 'i']
     """
     _check_settings(settings)
     observer = observer or SilentObserver()
@@ -371,6 +381,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
             bench.compare_parquet()
             bench.compare_monitor()
             bench.compare_startup()
+            bench.compare_newton_step()
             threads = bench.threads()
         finally:
             bench.engine.close()

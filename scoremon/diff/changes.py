@@ -54,6 +54,7 @@ def diff_models(old: Spec, new: Spec, old_source: str = "", new_source: str = ""
     if old.baseline != new.baseline:
         notes.append("the development baselines differ; a baseline is reference data for monitoring, "
                      "not part of the model")
+    notes += development_notes(old, new)
     return ModelDiff(
         VersionInfo(old.model.name, old.model.version, fp_old, old_source),
         VersionInfo(new.model.name, new.model.version, fp_new, new_source),
@@ -69,6 +70,26 @@ def overall_effect(changes) -> Effect:
     if top is Effect.ONE_FEATURE and len(touched) > 1:
         return Effect.STRUCTURE
     return top
+
+
+def development_notes(old: Spec, new: Spec) -> list[str]:
+    """One note per field of the development record that differs (the record is documentation:
+    it does not change the fingerprint, so it is a note, not a change)."""
+    if old.development == new.development:
+        return []
+    if old.development is None or new.development is None:
+        which = "added" if old.development is None else "removed"
+        return [f"development record {which}; it documents how the model was fitted and is not part of the model"]
+    was, now = old.development.model_dump(mode="json"), new.development.model_dump(mode="json")
+    notes = []
+    for key in was:
+        if key == "settings":
+            for name in sorted(set(was[key]) | set(now[key])):
+                if was[key].get(name) != now[key].get(name):
+                    notes.append(f"development setting {name}: {now[key].get(name)!r} (was {was[key].get(name)!r})")
+        elif was[key] != now[key]:
+            notes.append(f"development {key.replace('_', ' ')}: {now[key]!r} (was {was[key]!r})")
+    return notes
 
 
 # ---------------------------------------------------------------- identity and scaling

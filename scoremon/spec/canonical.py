@@ -6,7 +6,9 @@ category groups by label, values sorted, grades by lower edge); -0.0 is written 
 the reason count as the number of reasons a row can get. Its SHA-256 is the fingerprint:
 reformatting the YAML, reordering keys or bins keeps it; any change that can alter an output
 changes it. The baseline is reference data about the development sample, not part of the
-model, and is left out.
+model, and is left out; so is the development record (how the model was fitted): it changes
+no output, and scored rows carry the fingerprint, so correcting or completing the record must
+not cut them off from the model.
 """
 from __future__ import annotations
 
@@ -60,7 +62,7 @@ def canonical_form(spec: Spec) -> dict:
     The result holds only dicts, lists, text, numbers (±inf for open edges) and None, so
     ``json.loads(json.dumps(form)) == form``.
     """
-    data = spec.model_dump(mode="json", exclude={"baseline"})
+    data = spec.model_dump(mode="json", exclude={"baseline", "development"})
     data["features"] = [_feature(f) for f in spec.features]
     data["grades"] = sorted(data["grades"], key=lambda g: g["lower"])
     # Rows get at most one reason per statement: an unstated count (3) over two statements gives two.

@@ -300,6 +300,29 @@ class Baseline(Part):
         default_factory=dict, description="share of rows per categorical feature whose value no group lists")
 
 
+SettingValue = Union[bool, int, float, str, list[str], None]
+
+
+class Development(Part):
+    """How the model was fitted (written by `scoremon fit`): documentation for a validator.
+
+    Like the baseline it is not part of the model: two specs that score alike have one
+    fingerprint whatever their development records say, so scored rows stay linked to the
+    model when the record is corrected or completed.
+    """
+
+    table: str = Field(min_length=1)
+    engine: str = Field(min_length=1, description="the engine's dialect name")
+    rows: int = Field(ge=0)
+    events: int = Field(ge=0)
+    months: list[str] | None = Field(default=None, description="first and last month of the development rows")
+    binning_fingerprint: str = Field(default="", description="fingerprint of the binning file the fit read")
+    settings: dict[str, SettingValue] = Field(default_factory=dict, description="every setting of the fit")
+    chosen_lambda: FiniteFloat | None = Field(default=None, ge=0, description="the penalty weight λ chosen")
+    fitted_at: str = ""
+    scoremon_version: str = ""
+
+
 class Spec(Part):
     """One version of a scoring model, as written in its YAML file."""
 
@@ -310,3 +333,4 @@ class Spec(Part):
     grades: list[Grade] = Field(min_length=1)
     reasons: Reasons = Field(default_factory=Reasons)
     baseline: Baseline | None = None
+    development: Development | None = None

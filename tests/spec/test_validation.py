@@ -75,7 +75,7 @@ def test_reasons_are_not_checked_against_features_that_are_not_a_list():
     assert problems(text) == [
         "19:11: features: expected a list (lines starting with '- '), got a mapping",
         "20:1: unused: unknown key 'unused'; valid keys here: model, intercept, scaling, features, grades, "
-        "reasons, baseline",
+        "reasons, baseline, development",
     ]
 
 
