@@ -64,6 +64,8 @@ def build_parser() -> argparse.ArgumentParser:
     score.add_argument("--replace", action="store_true", help="replace --out-table or --out when it exists (without it, an existing output is an error)")
     score.add_argument("--allow-empty", action="store_true",
                        help="write the output even when the input holds no rows (refused without it)")
+    score.add_argument("--reason-text", action="store_true",
+                       help="put each reason's statement text beside its code (reason_1_text, …), e.g. for letters")
     score.add_argument("--threads", type=int, default=None,
                        help="DuckDB threads, or the cores of a spark://local session (default: all cores for DuckDB)")
     score.set_defaults(run="score")
@@ -255,6 +257,13 @@ def build_parser() -> argparse.ArgumentParser:
     against.add_argument("--baseline-months", metavar="FROM:TO", help="measure the baseline from these months of "
                                                                       "--table, e.g. 2024-05:2025-04")
     monitor.add_argument("--months-in-range", type=int, metavar="N", help=MONTHS_IN_RANGE_HELP)
+    monitor.add_argument("--expected-rows", default="trailing", metavar="RULE",
+                         help="what each month's volume is judged against: trailing (default: the median of the "
+                              "book's own previous 6 months), a monthly count such as 12000, or development "
+                              "(the baseline's rows per month)")
+    monitor.add_argument("--two-sided", action="store_true",
+                         help="calibration tests both ways (default one-sided: only more events than the PD "
+                              "predicts is flagged, so an over-estimating model reads ok)")
     monitor.add_argument("--json", metavar="FILE", help="also write every figure as JSON to FILE")
     monitor.add_argument("--html", metavar="FILE", help="also write a report with charts, one self-contained HTML "
                                                         "file, to FILE")

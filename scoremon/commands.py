@@ -62,7 +62,7 @@ def score(args) -> int:
     try:
         with terminal.progress_bar("scoring") as progress:
             result = api.score(spec, engine, source, args.key or (), args.out_table, args.out, progress,
-                               replace=args.replace, allow_empty=args.allow_empty)
+                               replace=args.replace, allow_empty=args.allow_empty, reason_text=args.reason_text)
     finally:
         engine.close()
     score_view.print_score_result(result)
@@ -281,7 +281,8 @@ def monitor(args) -> int:
     try:
         report = api.monitor(spec, engine, args.table, args.month_column, as_of, args.outcome, thresholds,
                              args.baseline_table, months, record_history=not args.no_history,
-                             months_in_range=months_in_range)
+                             months_in_range=months_in_range,
+                             expected_rows=_expected_rows(args.expected_rows), two_sided=args.two_sided)
     finally:
         engine.close()
     monitor_view.print_monitor_report(report, history_written=not args.no_history)
@@ -293,6 +294,19 @@ def monitor(args) -> int:
 
         _write_html(html_file, lambda: monitor_html(report, dialect))
     return EXIT_FOUND if report.has_alert else EXIT_OK
+
+
+def _expected_rows(text: str) -> str | float:
+    if text in ("trailing", "development"):
+        return text
+    try:
+        value = float(text.replace(",", "").replace("_", ""))
+    except ValueError:
+        value = 0.0
+    if not value > 0 or value == float("inf"):
+        raise InputError(f"--expected-rows {text!r}: give trailing, development or a positive monthly count, "
+                         "e.g. 12000")
+    return value
 
 
 def pack(args) -> int:

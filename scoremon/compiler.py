@@ -15,14 +15,17 @@ The query reads the source once and runs through four steps (CTEs):
 ``pointed``  labels, points and contributions to η (from the number, or looked up by bin
              number), and η = intercept + Σ contributions;
 ``totalled`` the score (base points + Σ points, rounded as the spec says) and, per reason
-             statement, its shortfall = reference − points of its features;
+             statement, its shortfall = reference − points of its features, held as a whole
+             number of billionths of a point (:data:`~scoremon.spec.terms.SHORTFALL_UNITS`), so
+             that shortfalls apart only in a double's last bits tie;
 ``best_k`` / ``picked_k``, for each reason slot k = 1..N: the largest shortfall not yet
              picked (GREATEST over the shortfalls, with those picked for slots 1..k−1 set
              to 0), then the first statement in declaration order holding it — so ties go
              to the statement declared first, and a slot is NULL once no positive
              shortfall is left;
 then the final SELECT adds PD = 1 / (1 + e^(−η)) with η clamped to ±700 (EXP overflows to an
-error on PostgreSQL), the grade, reason 1..N (the picked statements' codes) and the model's
+error on PostgreSQL) — η itself, or with ``pd_from: score`` the η the score stands for,
+(offset − score) / factor — the grade, reason 1..N (the picked statements' codes) and the model's
 identity.
 
 Portable choices, and why:
@@ -31,7 +34,7 @@ Portable choices, and why:
   the top bin.
 * Every number is ``CAST(<literal> AS DOUBLE)``: a bare ``0.1`` is DECIMAL on DuckDB and Spark,
   and sums of DECIMALs would not give the same bits as double arithmetic.
-* Rounding is FLOOR and a comparison in doubles (:func:`round_half_away_sql`): ROUND on a
+* Rounding is FLOOR and exact comparisons in doubles (:func:`round_half_away_sql`): ROUND on a
   double rounds half to even on PostgreSQL and half away from zero on DuckDB, and a DECIMAL
   cast is not exact on DuckDB.
 * Reasons take successive maxima rather than ranking every pair of statements: with ten
@@ -45,15 +48,19 @@ from __future__ import annotations
 import math
 import struct
 from dataclasses import dataclass
-from typing import Iterable, Sequence
+from typing import Iterable, Mapping, Sequence
 
 from sqlglot import exp
 
 from .errors import InputError
+from .exact import FixedPoint, exact_test, literal_text
 from .spec.canonical import fingerprint
 from .spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
 from .spec.terms import (
-    ROUND_UP_FROM,
+    HOLD_FLOOR_SIZE,
+    HOLD_RELATIVE,
+    SHORTFALL_UNITS,
+    WHOLE_FROM,
     FeatureTerms,
     base_points,
     feature_terms,
@@ -75,19 +82,27 @@ LOG_ODDS, POINTS = "log_odds", "points"  # see _one_number
 def round_half_away_sql(value: exp.Expression) -> exp.Expression:
     """:func:`scoremon.spec.terms.round_half_away` in double arithmetic, the same on every engine.
 
-    Below 2**52 a double splits exactly into ``whole = FLOOR(|x|)`` and ``|x| − whole``, and
-    the rule goes up exactly when that fraction is at least ``ROUND_UP_FROM``; from 2**52 on
-    every double is whole already. No DECIMAL: DuckDB converts a double to DECIMAL by a
-    multiplication in floating point, which misplaced values next to a 12-decimal half, and a
-    DECIMAL(38, 12) cannot hold 1e26. ``0 − rounded`` for negatives gives +0.0, not −0.0.
+    Below 2**52 a double splits exactly into ``whole = FLOOR(|x|)`` and ``|x| − whole``; the
+    value goes up when ``0.5 − (|x| − whole) <= hold``, with ``hold = max(|x|, 128) · 2**-48``.
+    Each step is exact, so the test is the definition's exact comparison: the fraction is a
+    double in [0, 1), ``0.5 − fraction`` is exact from a fraction of 0.25 up (Sterbenz) and
+    above 0.25 (beyond any hold) below it, and scaling by a power of two is exact. From 2**52
+    on every double is whole already. No DECIMAL: DuckDB converts a double to DECIMAL by a
+    multiplication in floating point, and a DECIMAL(38, 12) cannot hold 1e26. ``0 − rounded``
+    for negatives gives +0.0, not −0.0.
     """
     size = exp.Abs(this=value.copy())
     # Spark's FLOOR of a double is a BIGINT: back to DOUBLE (exact below 2**52)
     whole = exp.Cast(this=exp.Floor(this=size.copy()), to=exp.DataType.build("DOUBLE"))
-    goes_up = exp.GTE(this=exp.Sub(this=size.copy(), expression=whole.copy()), expression=number(ROUND_UP_FROM))
+    # a CASE, not GREATEST: engines differ on GREATEST with NULL
+    hold = case([(exp.LT(this=size.copy(), expression=number(HOLD_FLOOR_SIZE)),
+                  number(HOLD_FLOOR_SIZE * HOLD_RELATIVE))],
+                exp.Mul(this=size.copy(), expression=number(HOLD_RELATIVE)))
+    short_of_half = exp.Sub(this=number(0.5), expression=exp.paren(exp.Sub(this=size.copy(), expression=whole.copy()), copy=False))
+    goes_up = exp.LTE(this=short_of_half, expression=hold)
     rounded = case([(goes_up, exp.Add(this=whole.copy(), expression=number(1.0)))], whole.copy())
     return case([
-        (exp.GTE(this=size.copy(), expression=number(2.0 ** 52)), value.copy()),
+        (exp.GTE(this=size.copy(), expression=number(WHOLE_FROM)), value.copy()),
         (exp.LT(this=value.copy(), expression=number(0.0)), exp.Sub(this=number(0.0), expression=rounded.copy())),
     ], rounded)
 
@@ -101,6 +116,7 @@ class OutputColumns:
     keys: tuple[str, ...]
     features: tuple[tuple[str, str], ...]  # (bin column, points column) per feature
     reasons: tuple[str, ...]
+    reason_texts: tuple[str, ...] = ()  # reason_k_text beside each reason_k, when asked for
 
     FIXED = ("score", "pd", "grade")
     IDENTITY = ("model_name", "model_version", "model_fingerprint")
@@ -108,14 +124,17 @@ class OutputColumns:
     @property
     def all(self) -> tuple[str, ...]:
         flat = [name for pair in self.features for name in pair]
-        return self.keys + tuple(flat) + self.FIXED + self.reasons + self.IDENTITY
+        reasons = [name for pair in zip(self.reasons, self.reason_texts) for name in pair] if self.reason_texts \
+            else list(self.reasons)
+        return self.keys + tuple(flat) + self.FIXED + tuple(reasons) + self.IDENTITY
 
 
-def output_columns(spec: Spec, keys: Sequence[str] = ()) -> OutputColumns:
-    """The output column names for ``spec``; raises :class:`InputError` if a key collides."""
+def output_columns(spec: Spec, keys: Sequence[str] = (), reason_text: bool = False) -> OutputColumns:
+    """The output column names for ``spec``; raises :class:`InputError` if a key collides.
+    ``reason_text`` adds ``reason_k_text`` (the statement's text) beside each ``reason_k``."""
     features = tuple((f"{f.name}_bin", f"{f.name}_points") for f in spec.features)
     reasons = tuple(f"reason_{k}" for k in range(1, min(spec.reasons.count, len(spec.reasons.statements)) + 1))
-    columns = OutputColumns(tuple(keys), features, reasons)
+    columns = OutputColumns(tuple(keys), features, reasons, tuple(f"{r}_text" for r in reasons) if reason_text else ())
     seen: dict[str, str] = {}
     for name in columns.all:
         folded = name.casefold()
@@ -136,6 +155,8 @@ def compile_model(
     source: exp.Expression,
     keys: Sequence[str] = (),
     float_columns: Iterable[str] | None = None,
+    exact_columns: Mapping[str, FixedPoint] | None = None,
+    reason_text: bool = False,
 ) -> exp.Select:
     """The scoring query for ``spec`` over ``source`` as an engine-neutral sqlglot tree.
 
@@ -151,8 +172,9 @@ def compile_model(
     >>> sql.startswith("WITH")
     True
     """
-    names = output_columns(spec, keys)
+    names = output_columns(spec, keys, reason_text)
     floats = None if float_columns is None else set(float_columns)
+    exact = dict(exact_columns or {})
     terms = [feature_terms(spec, f) for f in spec.features]
     fp = fingerprint(spec)
 
@@ -170,17 +192,18 @@ def compile_model(
         source_column = feature.source_column
         x = column(source_column)
         may_be_odd = floats is None or source_column in floats
+        kind = exact.get(source_column)
         if isinstance(feature, LinearFeature):
             binned.append(exp.alias_(_linear_bin(feature, x, may_be_odd), bin_col[i], quoted=True))
             binned.append(exp.alias_(_linear_value(feature, x), value_col[i], quoted=True))
         elif follows[i] is None:
             numbers = [integer(b) for b in range(len(terms[i].bins))]
-            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, numbers), bin_col[i], quoted=True))
+            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, numbers, kind), bin_col[i], quoted=True))
         else:
             labels = [text(t.label) for t in terms[i].bins]
             values = [number(t.log_odds if follows[i] == LOG_ODDS else t.points) for t in terms[i].bins]
-            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, labels), names.features[i][0], quoted=True))
-            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, values), value_col[i], quoted=True))
+            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, labels, kind), names.features[i][0], quoted=True))
+            binned.append(exp.alias_(_bin_choice(feature, terms[i], x, may_be_odd, values, kind), value_col[i], quoted=True))
     binned_query = exp.select(*binned).from_(source.copy())
 
     # pointed: labels, points and η
@@ -215,7 +238,7 @@ def compile_model(
     for r, statement in enumerate(spec.reasons.statements):
         reference = statement_reference(statement, max_of)
         shortfall = exp.Sub(this=number(reference), expression=exp.paren(total([points_of[n].copy() for n in statement.features]), copy=False))
-        totalled.append(exp.alias_(shortfall, short_col[r], quoted=True))
+        totalled.append(exp.alias_(_held(shortfall), short_col[r], quoted=True))
     totalled_query = exp.select(*totalled).from_(exp.to_table(identifier("pointed")))
 
     steps = [("binned", binned_query), ("pointed", pointed_query), ("totalled", totalled_query)]
@@ -234,13 +257,23 @@ def compile_model(
 
     # final
     final = [c.copy() for c in carried] + [column("score")]
-    final.append(exp.alias_(_probability(column(eta)), "pd", quoted=True))
+    if spec.scaling.reported_pd == "score":
+        # the η the (rounded) score stands for, so rows with one score carry one PD
+        stood_for = exp.Div(this=exp.paren(exp.Sub(this=number(spec.scaling.offset), expression=column("score")), copy=False),
+                            expression=number(spec.scaling.factor))
+        final.append(exp.alias_(_probability(stood_for), "pd", quoted=True))
+    else:
+        final.append(exp.alias_(_probability(column(eta)), "pd", quoted=True))
     final.append(exp.alias_(_grade(spec, column("score")), "grade", quoted=True))
     codes = [text(s.code) for s in spec.reasons.statements]
-    for pick, name in zip(picks, names.reasons):
+    texts = [text(s.text) for s in spec.reasons.statements]
+    for k, (pick, name) in enumerate(zip(picks, names.reasons)):
         # no ELSE: a slot left empty (pick NULL) has no reason
         reason = case([(exp.EQ(this=column(pick), expression=integer(r)), code) for r, code in enumerate(codes)])
         final.append(exp.alias_(reason, name, quoted=True))
+        if names.reason_texts:
+            words = case([(exp.EQ(this=column(pick), expression=integer(r)), t.copy()) for r, t in enumerate(texts)])
+            final.append(exp.alias_(words, names.reason_texts[k], quoted=True))
     final.append(exp.alias_(text(spec.model.name), "model_name", quoted=True))
     final.append(exp.alias_(text(spec.model.version), "model_version", quoted=True))
     final.append(exp.alias_(text(fp), "model_fingerprint", quoted=True))
@@ -283,15 +316,15 @@ def bin_case(spec: Spec, feature, x: exp.Expression, outcomes: Sequence[exp.Expr
 
 
 def _bin_choice(feature, terms: FeatureTerms, x: exp.Expression, may_be_odd: bool,
-                outcomes: Sequence[exp.Expression]) -> exp.Case:
+                outcomes: Sequence[exp.Expression], kind: FixedPoint | None = None) -> exp.Case:
     """The CASE that finds a row's bin, yielding ``outcomes[b]`` for bin ``b``."""
     if isinstance(feature, NumericFeature):
-        return _numeric_bin(feature, terms, x, may_be_odd, outcomes)
+        return _numeric_bin(feature, terms, x, may_be_odd, outcomes, kind)
     return _categorical_bin(feature, terms, x, outcomes)
 
 
 def _numeric_bin(feature: NumericFeature, terms: FeatureTerms, x: exp.Expression, may_be_odd: bool,
-                 outcomes: Sequence[exp.Expression]) -> exp.Case:
+                 outcomes: Sequence[exp.Expression], kind: FixedPoint | None = None) -> exp.Case:
     """The bin's outcome: the half-open comparisons first, the rare values' tests after them.
 
     Most rows stop at a comparison, so testing NULL and NaN last saves two passes over every
@@ -300,7 +333,8 @@ def _numeric_bin(feature: NumericFeature, terms: FeatureTerms, x: exp.Expression
     number (DuckDB, PostgreSQL, Spark) or unordered (IEEE engines), and +inf is above every
     inner edge, which are finite. Only −inf passes a comparison (the first, bin 0), so its
     test goes first when the spec sends it elsewhere; +inf needs a test only when it does not
-    go to the top bin, the ELSE.
+    go to the top bin, the ELSE. A column of exact type ``kind`` is compared exactly
+    (:func:`_below`).
     """
     missing = len(terms.bins) - 1
     ordered = numeric_bins_in_order(feature)
@@ -313,9 +347,25 @@ def _numeric_bin(feature: NumericFeature, terms: FeatureTerms, x: exp.Expression
         last.append((_is_odd(x, "NaN"), outcomes[routes["nan"]].copy()))
         if routes["positive_infinity"] != top:
             last.append((_is_odd(x, "Infinity"), outcomes[routes["positive_infinity"]].copy()))
-    compare = exp.LT if feature.closed == "lower" else exp.LTE
-    below = [compare(this=x.copy(), expression=number(b.upper)) for b in ordered[:-1]]  # below[i]: in bin i or lower
+    below = [_below(x, b.upper, feature.closed, kind) for b in ordered[:-1]]  # below[i]: in bin i or lower
     return case(first + _runs(below, outcomes) + last, outcomes[top].copy())
+
+
+def _below(x: exp.Expression, edge: float, closed: str, kind: FixedPoint | None) -> exp.Expression:
+    """``x < edge`` (bins closed on the lower side) or ``x <= edge``; on a column of exact type
+    ``kind`` against a literal of that kind, worked out by :func:`scoremon.exact.exact_test`
+    (a double would round a BIGINT above 2**53 or a DECIMAL of 16 digits before comparing)."""
+    if kind is None:
+        compare = exp.LT if closed == "lower" else exp.LTE
+        return compare(this=x.copy(), expression=number(edge))
+    test = exact_test(edge, closed, kind)
+    if isinstance(test, bool):
+        return exp.true() if test else exp.false()
+    inclusive, value = test
+    literal: exp.Expression = exp.Literal.number(literal_text(value))
+    if value < 0:
+        literal = exp.Neg(this=literal)
+    return (exp.LTE if inclusive else exp.LT)(this=x.copy(), expression=literal)
 
 
 def _runs(below: Sequence[exp.Expression], outcomes: Sequence[exp.Expression]) -> list[tuple[exp.Expression, exp.Expression]]:
@@ -406,6 +456,17 @@ def _contribution(feature, terms: FeatureTerms, b: exp.Expression, value: exp.Ex
         linear = exp.Mul(this=number(linear_slope(feature)), expression=_centred(feature, value))
         return case([(exp.EQ(this=b, expression=integer(LINEAR_MISSING)), number(terms.bins[0].log_odds))], linear)
     return by_bin(b, [number(t.log_odds) for t in terms.bins])
+
+
+def _held(shortfall: exp.Expression) -> exp.Expression:
+    """A shortfall as the whole billionths of a point it is ranked by, 0 when not positive
+    (the rule is stated beside :data:`scoremon.spec.terms.SHORTFALL_UNITS`)."""
+    units = exp.Mul(this=exp.paren(shortfall, copy=False), expression=number(SHORTFALL_UNITS))
+    # Spark's FLOOR of a double is a BIGINT: back to DOUBLE (exact below 2**52)
+    rounded = exp.Cast(this=exp.Floor(this=exp.Add(this=units.copy(), expression=number(0.5))),
+                       to=exp.DataType.build("DOUBLE"))
+    return case([(exp.GTE(this=units.copy(), expression=number(2.0 ** 52)), units.copy()),
+                 (exp.LT(this=units.copy(), expression=number(0.5)), number(0.0))], rounded)
 
 
 def _not_picked(r: int, picks: Sequence[str]) -> list[exp.Expression]:

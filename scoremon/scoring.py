@@ -19,20 +19,25 @@ from sqlglot import exp
 
 from . import files, outputs
 from .compiler import compile_model, output_columns
-from .dialects import render_sql
+from .dialects import comment_line, render_sql
 from .engines import Engine, Progress
 from .errors import EngineError, InputError
-from .sources import check_columns, describe_source, float_columns, source_relation, table_name
+from .exact import exact_columns
+from .sources import check_columns, describe_source, float_columns, source_relation, spec_columns, table_name
 from .spec.canonical import fingerprint
 from .spec.model import Spec
 from .trees import alias, column, table_path
+from .version import VERSION
 
 
 def compile_sql(spec: Spec, dialect: str = "duckdb", table: str = "input", keys: Sequence[str] = (),
                 float_columns: Sequence[str] | None = None, pretty: bool = True) -> str:
-    """The scoring SQL for ``spec`` reading ``table``, as text for ``dialect``."""
+    """The scoring SQL for ``spec`` reading ``table``, as text for ``dialect``, beginning with a
+    comment naming the model, its version and fingerprint, and scoremon's version."""
     tree = compile_model(spec, source_relation(table=table), keys, float_columns)
-    return render_sql(tree, dialect, pretty=pretty)
+    stamp = comment_line(f"{spec.model.name} version {spec.model.version}, fingerprint {fingerprint(spec)}; "
+                         f"compiled by scoremon {VERSION}")
+    return stamp + "\n" + render_sql(tree, dialect, pretty=pretty)
 
 
 @dataclass(frozen=True)
@@ -46,6 +51,7 @@ class ScoreResult:
     model_version: str
     model_fingerprint: str
     grade_counts: dict[str, int] = field(default_factory=dict)
+    pd_source: str = ""  # which PD the rows report, in words (the spec's scaling.pd_from)
 
 
 def score(
@@ -58,6 +64,7 @@ def score(
     progress: Progress | None = None,
     replace: bool = False,
     allow_empty: bool = False,
+    reason_text: bool = False,
 ) -> ScoreResult:
     """Score every row of ``source`` inside ``engine`` and write the result atomically.
 
@@ -66,7 +73,8 @@ def score(
     starts, :class:`InputError` refuses: an output that exists unless ``replace``, an output
     that is the input or a monitoring history table (:mod:`scoremon.outputs`), an input
     without rows unless ``allow_empty``, and input columns that do not fit the spec (every
-    misfit listed).
+    misfit listed). ``reason_text`` puts each reason's statement text beside its code
+    (``reason_k_text``).
     """
     if (out_table is None) == (out_file is None):
         raise InputError("give either an output table or an output file, not both and not neither")
@@ -86,16 +94,16 @@ def score(
         outputs.refuse_table(out_table, "--out-table", engine.dialect, input_table)
         if not replace and _table_exists(engine, out_table):
             raise InputError(f"--out-table {out_table} exists; give --replace to replace it, or choose another name")
-    columns = describe_source(engine, source)
+    columns = describe_source(engine, source, spec_columns(spec) + list(keys))
     problems = check_columns(spec, columns, keys)
     if problems:
         raise InputError("the input does not fit the spec", problems)
-    output_columns(spec, keys)  # a key colliding with an output column is an input error, found now
+    output_columns(spec, keys, reason_text)  # a key colliding with an output column is an input error, found now
     first_row = exp.select(alias(exp.Literal.number(1), "one")).from_(source.copy()).limit(1)
     if not allow_empty and not engine.query(first_row, "looking for a first input row"):
         raise InputError("the input holds no rows; scoring it would write an empty output (replacing any "
                          "previous one); give --allow-empty to write it anyway")
-    scoring = compile_model(spec, source, keys, float_columns(columns))
+    scoring = compile_model(spec, source, keys, float_columns(columns), exact_columns(columns), reason_text)
     started = time.perf_counter()
     if out_table is not None:
         parts = table_name(out_table)
@@ -111,7 +119,7 @@ def score(
     seconds = time.perf_counter() - started
     counts = grade_counts(engine, written)
     return ScoreResult(sum(counts.values()), seconds, target, spec.model.name, spec.model.version,
-                       fingerprint(spec), counts)
+                       fingerprint(spec), counts, spec.scaling.reported_pd_words)
 
 
 def _source_file(source: exp.Expression) -> str | None:

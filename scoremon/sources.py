@@ -7,6 +7,7 @@ Scoring, the impact of a change and monitoring all start here: the source become
 """
 from __future__ import annotations
 
+from difflib import get_close_matches
 from pathlib import Path
 from typing import Mapping, Sequence
 
@@ -43,10 +44,27 @@ def source_relation(table: str | None = None, file: str | Path | None = None) ->
     return exp.Anonymous(this=reader, expressions=[exp.Literal.string(str(path))])
 
 
-def describe_source(engine: Engine, source: exp.Expression) -> dict[str, Column]:
-    """Column name → :class:`~scoremon.engines.Column` (portable kind, engine's type name) of a source."""
+def describe_source(engine: Engine, source: exp.Expression, wanted: Sequence[str] = ()) -> dict[str, Column]:
+    """Column name → :class:`~scoremon.engines.Column` (portable kind, engine's type name) of a source.
+
+    Where the engine matches column names ignoring case (:attr:`Engine.ignores_column_case`:
+    DuckDB; Spark unless ``spark.sql.caseSensitive`` is on), a ``wanted`` name that the source
+    spells in another case is listed under the wanted spelling, which is how the compiled SQL
+    names it.
+    """
     query = exp.select(exp.Star()).from_(source.copy())
-    return {column.name: column for column in engine.describe(query, "reading the input's columns")}
+    columns = {column.name: column for column in engine.describe(query, "reading the input's columns")}
+    if getattr(engine, "ignores_column_case", False):
+        for name in wanted:
+            matches = [actual for actual in columns if actual.casefold() == name.casefold()]
+            if name not in columns and len(matches) == 1:
+                columns[name] = columns.pop(matches[0])
+    return columns
+
+
+def spec_columns(spec: Spec) -> list[str]:
+    """The input columns a spec reads, in feature order."""
+    return list(dict.fromkeys(feature.source_column for feature in spec.features))
 
 
 def float_columns(columns: Mapping[str, Column]) -> list[str]:
@@ -64,7 +82,7 @@ def check_columns(spec: Spec, columns: Mapping[str, Column], keys: Sequence[str]
         name = feature.source_column
         found = columns.get(name)
         if found is None:
-            problems.append(f"column {name!r} (feature {feature.name!r}) is not in the input{suggest(name, list(columns))}")
+            problems.append(_missing_column(feature, list(columns)))
             continue
         if isinstance(feature, CategoricalFeature):
             wants_text = any(isinstance(v, str) for v in feature.listed_values)
@@ -78,3 +96,16 @@ def check_columns(spec: Spec, columns: Mapping[str, Column], keys: Sequence[str]
             problems.append(f"column {name!r} (feature {feature.name!r}) is {found.type_name}, not a number; "
                             f"a {feature.type} feature needs a numeric column")
     return problems
+
+
+def _missing_column(feature, columns: Sequence[str]) -> str:
+    """A feature's column is not in the input: the nearest input column, and the spec key to edit."""
+    name = feature.source_column
+    where = "its `column:` in the spec" if feature.column else "read by its name; give it `column:` in the spec"
+    problem = f"column {name!r} (feature {feature.name!r}, {where}) is not in the input"
+    folded = {c.casefold(): c for c in columns}
+    nearest = get_close_matches(name.casefold(), list(folded), n=1, cutoff=0.0)
+    if not nearest:
+        return problem + "; it has no columns"
+    actual = folded[nearest[0]]
+    return f"{problem}; the nearest is {actual!r}: rename that column or set `column: {actual}` in the spec"

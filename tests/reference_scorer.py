@@ -14,13 +14,18 @@ points, scores, grades and reasons can be compared with the SQL exactly:
 * a linear feature adds ``(coefficient / scale) * (clip(x) - center)`` to η and scores
   ``-(factor * (coefficient / scale)) * (clip(x) - center)``;
 * base points = offset − factor · intercept; score = base points + Σ points in feature
-  order; η = intercept + Σ contributions in feature order; PD = 1 / (1 + e^(−η));
-* rounding is half away from zero after holding 12 decimals: per bin (each bin's points,
+  order; η = intercept + Σ contributions in feature order; PD = 1 / (1 + e^(−η)), from η, or
+  with ``pd_from: score`` (the default when the score is rounded) from (offset − score) / factor;
+* a whole-number or DECIMAL value is compared with the bin edges exactly, as the spec writes
+  them (the shortest decimal of each edge's double); a DOUBLE value with the edges' doubles;
+* rounding is half away from zero, a fraction short of the half by at most
+  max(|value|, 128) · 2⁻⁴⁸ counting as the half: per bin (each bin's points,
   each row's linear points and the base points) or on the total score;
 * a reason statement's shortfall = reference − (its features' points summed in listed
   order); the reference defaults to the sum, in listed order, of each feature's largest
-  possible points; positive shortfalls are ranked, largest first, ties to the statement
-  listed first.
+  possible points; shortfalls are held to whole billionths of a point (round(shortfall ×
+  10⁹), half up; 0 below half a billionth) and the positive ones ranked, largest first, ties to the
+  statement listed first.
 
 Input values: ``None`` or ``pd.NA`` is SQL NULL; a float NaN is NaN (so a NULL in a numeric
 column needs an ``object`` column).
@@ -29,20 +34,26 @@ from __future__ import annotations
 
 import math
 import numbers
-from decimal import ROUND_HALF_UP, Decimal
+from decimal import ROUND_FLOOR, Decimal, localcontext
 
 import pandas as pd
 
 from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
 
-HELD_DECIMALS = Decimal("1e-12")
-WHOLE = Decimal(1)
 
 
 def round_half_away(value: float) -> float:
-    """Half away from zero (Decimal's ROUND_HALF_UP), after holding 12 decimals of the exact double."""
-    held = Decimal(value).quantize(HELD_DECIMALS, rounding=ROUND_HALF_UP)
-    return float(held.quantize(WHOLE, rounding=ROUND_HALF_UP))
+    """Half away from zero, a fraction short of the half by at most max(|value|, 128) · 2⁻⁴⁸
+    counting as the half (README, "The spec", scaling); exact, with Decimal."""
+    size = Decimal(abs(value))  # the exact double
+    if size >= 2 ** 52:
+        return value
+    with localcontext() as context:
+        context.prec = 200  # enough for every step below to be exact
+        whole = size.to_integral_value(rounding=ROUND_FLOOR)
+        hold = max(size, Decimal(128)) * Decimal(2.0 ** -48)
+        rounded = whole + 1 if Decimal("0.5") - (size - whole) <= hold else whole
+    return float(rounded if value > 0 else -rounded) + 0.0
 
 
 def is_null(value) -> bool:
@@ -131,6 +142,10 @@ class ReferenceScorer:
 
     @staticmethod
     def _inside(x, lower: float, upper: float, closed: str) -> bool:
+        if isinstance(x, (int, Decimal)) and not isinstance(x, bool):
+            # an exact value (whole number, DECIMAL) meets the edges as the spec writes them;
+            # Python compares int and Decimal with these exactly, never through a float
+            lower, upper = (Decimal(repr(e)) if math.isfinite(e) else e for e in (lower, upper))
         if closed == "lower":
             return lower <= x < upper
         return lower < x <= upper
@@ -202,14 +217,20 @@ class ReferenceScorer:
         if self.on_total:
             score = round_half_away(score)
         result["score"] = score
-        result["pd"] = logistic(eta)
+        # the PD from the score when the spec says so (its default for a rounded score): the η
+        # the score stands for, (offset − score) / factor
+        pd_from = self.spec.scaling.pd_from or ("log_odds" if self.spec.scaling.rounding == "none" else "score")
+        result["pd"] = logistic(eta if pd_from == "log_odds" else (self.offset - score) / self.factor)
         result["grade"] = self.grade(score)
         shortfalls = []
         for position, statement in enumerate(self.spec.reasons.statements):
             own = points_of[statement.features[0]]
             for name in statement.features[1:]:
                 own = own + points_of[name]
-            shortfalls.append((self.reference(statement) - own, position, statement.code))
+            # ranked held to whole billionths of a point, rounded half up (0 below half a billionth)
+            units = (self.reference(statement) - own) * 1e9
+            held = units if units >= 2.0 ** 52 else (0.0 if units < 0.5 else float(math.floor(units + 0.5)))
+            shortfalls.append((held, position, statement.code))
         ranked = sorted((s for s in shortfalls if s[0] > 0), key=lambda s: (-s[0], s[1]))
         for k in range(1, min(self.spec.reasons.count, len(shortfalls)) + 1):
             result[f"reason_{k}"] = ranked[k - 1][2] if k <= len(ranked) else None

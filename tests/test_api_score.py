@@ -113,7 +113,7 @@ def _with_column(changes: dict) -> dict:
 
 @pytest.mark.parametrize("output", ["table", "parquet"])
 @pytest.mark.parametrize("changes, expected", [
-    ({"region_code": None}, "column 'region_code' (feature 'region') is not in the input"),
+    ({"region_code": None}, "column 'region_code' (feature 'region', its `column:` in the spec) is not in the input"),
     ({"age": ("VARCHAR", ["30"] * 10)}, "column 'age' (feature 'age') is VARCHAR, not a number"),
     ({"region_code": ("BIGINT", list(range(10)))},
      "column 'region_code' (feature 'region') is BIGINT but the spec lists text categories"),
@@ -135,13 +135,13 @@ def test_every_misfit_is_listed_at_once(spec, engine):
     with pytest.raises(InputError) as raised:
         api.score(spec, engine, api.source_relation(table="applications"), KEYS, out_table="scored")
     message = str(raised.value)
-    assert "column 'age' (feature 'age') is not in the input" in message
+    assert "column 'age' (feature 'age', read by its name; give it `column:` in the spec) is not in the input" in message
     assert "column 'utilisation' (feature 'utilisation') is VARCHAR, not a number" in message
     # the misfits stay a list, one per problem, so nothing has to split the message again
     assert raised.value.message == "the input does not fit the spec"
-    assert [p.split(";")[0].split(",")[0] for p in raised.value.problems] == [
-        "column 'age' (feature 'age') is not in the input",
-        "column 'utilisation' (feature 'utilisation') is VARCHAR"]
+    assert [p.split(" is ")[0] for p in raised.value.problems] == [
+        "column 'age' (feature 'age', read by its name; give it `column:` in the spec)",
+        "column 'utilisation' (feature 'utilisation')"]
 
 
 def test_the_cli_prints_each_misfit_on_its_own_line(spec, engine, tmp_path, capsys):
@@ -153,7 +153,8 @@ def test_the_cli_prints_each_misfit_on_its_own_line(spec, engine, tmp_path, caps
     assert code == 2
     lines = capsys.readouterr().err.splitlines()
     assert lines[0] == "error: the input does not fit the spec"
-    assert lines[1].startswith("  - column 'age' (feature 'age') is not in the input")
+    assert lines[1].startswith("  - column 'age' (feature 'age', read by its name; give it `column:` in the spec) is not in "
+                               "the input; the nearest is")
     assert lines[2].startswith("  - column 'utilisation' (feature 'utilisation') is VARCHAR, not a number")
 
 

@@ -13,8 +13,8 @@ def test_valid_spec_prints_ok_and_exits_0(capsys):
     path = FIXTURES / "small.yaml"
     assert main(["check", str(path)]) == 0
     out, err = capsys.readouterr()
-    assert out.splitlines() == [f"ok {path}: small_test_model version 3, 3 features, 3 grades, "
-                                f"fingerprint {fingerprint(load_spec(path))}"]
+    assert out.splitlines() == [f"ok {path}: small_test_model version 3, 3 features, 3 grades, rounding none, "
+                                f"PD from the exact log-odds, fingerprint {fingerprint(load_spec(path))}"]
     assert err == ""
 
 

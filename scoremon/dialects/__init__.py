@@ -18,7 +18,7 @@ DIALECTS: dict[str, bool] = {
 }
 
 # The portable column kinds engines can create tables with (see Engine.write_rows).
-COLUMN_KINDS = ("DOUBLE", "BIGINT", "VARCHAR", "BOOLEAN", "DATE")
+COLUMN_KINDS = ("DOUBLE", "BIGINT", "DECIMAL(18,6)", "VARCHAR", "BOOLEAN", "DATE")
 
 
 def dialects_help() -> str:
@@ -26,6 +26,14 @@ def dialects_help() -> str:
     run = ", ".join(name for name, tested in DIALECTS.items() if tested)
     rendered = ", ".join(name for name, tested in DIALECTS.items() if not tested)
     return f"{run} (run on real engines in the tests); {rendered} (rendered only, not run in the tests)"
+
+
+def comment_line(words: str) -> str:
+    """``/* words */`` on one line, to stand before a statement. ``words`` may hold text from a
+    spec (a model's name), so it can neither end the comment nor break the line: ``*/`` and
+    ``/*`` are split and control characters become spaces."""
+    flat = "".join(" " if ord(ch) < 32 or ord(ch) == 127 else ch for ch in words)
+    return "/* " + flat.replace("*/", "* /").replace("/*", "/ *") + " */"
 
 
 _RENDERING = ("render_name", "render_sql", "render_table", "render_type")

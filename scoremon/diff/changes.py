@@ -139,6 +139,11 @@ def _scaling(old: Spec, new: Spec) -> list[Change]:
                         "relative weights change and rows can change order")
         found.append(Change(ChangeKind.SCALING_CHANGED, f"scaling.{key}", summary, effect, outputs,
                             None, was, now, delta))
+    was, now = old.scaling.reported_pd, new.scaling.reported_pd
+    if was != now:
+        found.append(Change(ChangeKind.SCALING_CHANGED, "scaling.pd_from",
+                            f"{new.scaling.reported_pd_words} (was {old.scaling.reported_pd_words.replace('PD ', '')})",
+                            Effect.SCALING_ONLY, ("pd",), None, was, now, None))
     return found
 
 

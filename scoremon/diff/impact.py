@@ -35,6 +35,7 @@ from sqlglot import exp
 from ..compiler import compile_model, output_columns
 from ..engines.protocol import BOOLEAN, Column
 from ..errors import InputError
+from ..exact import FixedPoint
 from ..spec.model import Spec
 from ..trees import INTERNAL, alias, as_double, case, column, identifier, integer, number, window
 
@@ -167,7 +168,7 @@ PLACEHOLDER = f"{INTERNAL}rows"  # stands for a scoring query's source until the
 
 
 def _scoring_step(spec: Spec, source: exp.Subquery, prefix: str, keys: Sequence[str],
-                  float_columns: Sequence[str]) -> exp.Select:
+                  float_columns: Sequence[str], exact_columns: Mapping[str, FixedPoint] | None = None) -> exp.Select:
     """``spec``'s scoring query over ``source``, its steps (CTEs) renamed ``prefix + name``.
 
     The two scoring queries nest inside each other and both name their steps ``binned``,
@@ -176,7 +177,8 @@ def _scoring_step(spec: Spec, source: exp.Subquery, prefix: str, keys: Sequence[
     source, and here the source holds the whole first scoring query; renaming before the
     source is in also leaves a table in the source called ``binned`` alone.
     """
-    query = compile_model(spec, exp.Table(this=identifier(PLACEHOLDER)), keys=keys, float_columns=float_columns)
+    query = compile_model(spec, exp.Table(this=identifier(PLACEHOLDER)), keys=keys, float_columns=float_columns,
+                          exact_columns=exact_columns)
     ctes = query.args["with_"].expressions
     names = {cte.alias: f"{prefix}{cte.alias}" for cte in ctes}
     for cte in ctes:
@@ -215,13 +217,16 @@ def impact_query(
     outcome: str | None = None,
     outcome_is_boolean: bool = False,
     cutoffs: tuple[float, float] | None = None,
+    exact_columns: Mapping[str, FixedPoint] | None = None,
 ) -> exp.Select:
     """The one query that scores ``source`` under both versions and aggregates the pairs.
 
     ``float_columns`` names the source's FLOAT/DOUBLE columns (the others need no NaN test).
     ``outcome`` is an optional 0/1 (or boolean) column; NULL means not yet known, any other
     value is counted in ``invalid_outcomes``. ``cutoffs`` is (old cut-off, new cut-off).
-    The caller checks beforehand that the source has the columns both specs need.
+    ``exact_columns`` gives the source's whole-number and DECIMAL columns, compared with bin
+    edges exactly (:mod:`scoremon.exact`). The caller checks beforehand that the source has
+    the columns both specs need.
     """
     floats = set(float_columns)
     inputs_old, inputs_new = _inputs(old), _inputs(new)
@@ -237,7 +242,7 @@ def impact_query(
     # step 1: the old version scores each row and passes the carried columns through
     population = exp.Subquery(this=step0, alias=exp.TableAlias(this=identifier("population")))
     step1 = _scoring_step(old, population, f"{INTERNAL}old_", [carry[n] for n in carried],
-                          [n for n in inputs_old if n in floats])
+                          [n for n in inputs_old if n in floats], exact_columns)
     old_names = {k: _fresh(f"old_{k}", taken) for k in ("score", "pd", "grade", "reason")}
     outcome_name = carry[outcome] if outcome else None
     old_reason = "reason_1" if output_columns(old).reasons else None
@@ -256,7 +261,8 @@ def impact_query(
     keys = [old_names["score"], old_names["pd"], old_names["grade"], old_names["reason"]]
     keys += [outcome_name] if outcome else []
     carried_rows = exp.Subquery(this=step1b, alias=exp.TableAlias(this=identifier("carried")))
-    step2 = _scoring_step(new, carried_rows, f"{INTERNAL}new_", keys, [n for n in inputs_new if n in floats])
+    step2 = _scoring_step(new, carried_rows, f"{INTERNAL}new_", keys, [n for n in inputs_new if n in floats],
+                          exact_columns)
     new_reason = "reason_1" if output_columns(new).reasons else None
 
     # paired: our own names from here on

@@ -10,7 +10,8 @@ from sqlglot import exp
 
 from ..engines import Engine, Progress
 from ..errors import InputError
-from ..sources import check_columns, describe_source, float_columns
+from ..exact import exact_columns
+from ..sources import check_columns, describe_source, float_columns, spec_columns
 from ..spec.model import Spec
 from .impact import Impact, check_outcome_type, impact_query, summarise_impact
 
@@ -46,7 +47,7 @@ def measure_impact(
     """
     if new_cutoff is not None and cutoff is None:
         raise InputError("a cut-off for the new version needs one for the old version too; give --cutoff")
-    columns = describe_source(engine, source)
+    columns = describe_source(engine, source, spec_columns(old) + spec_columns(new) + ([outcome] if outcome else []))
     problems = []
     for side, spec in (("old", old), ("new", new)):
         problems += [f"{side} version: {p}" for p in check_columns(spec, columns, ())]
@@ -59,6 +60,7 @@ def measure_impact(
     if problems:
         raise InputError("the input does not fit the specs", problems)
     cutoffs = None if cutoff is None else (float(cutoff), float(cutoff if new_cutoff is None else new_cutoff))
-    query = impact_query(old, new, source, float_columns(columns), outcome, outcome_is_boolean, cutoffs)
+    query = impact_query(old, new, source, float_columns(columns), outcome, outcome_is_boolean, cutoffs,
+                         exact_columns(columns))
     rows = engine.query(query, "scoring the population under both versions", progress)
     return summarise_impact(rows, old, new, population, outcome, cutoffs)

@@ -26,6 +26,7 @@ from dataclasses import dataclass, field
 from enum import Enum
 from typing import Any
 
+from ..version import VERSION
 from .impact import Impact
 
 
@@ -178,3 +179,4 @@ class DiffReport:
     diff: ModelDiff
     impact: Impact | None
     run_at: str
+    scoremon_version: str = VERSION

@@ -36,6 +36,7 @@ class DuckDBEngine(Engine):
     """
 
     dialect = "duckdb"
+    ignores_column_case = True  # DuckDB matches names ignoring case, quoted or not
     is_transactional = True
     reads_files = True
     writes_parquet = True

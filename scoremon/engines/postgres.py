@@ -31,6 +31,7 @@ class PostgresEngine(Engine):
     """
 
     dialect = "postgres"
+    ignores_column_case = False  # a quoted name matches only its own spelling
     is_transactional = True
     reads_files = False
     writes_parquet = False

@@ -137,6 +137,7 @@ class Engine(Protocol):
     """
 
     dialect: str
+    ignores_column_case: bool  # a query's column names match the table's ignoring case (DuckDB, Spark by default)
     label: str  # the engine as messages name it, e.g. "duckdb" or "postgres postgresql://scorer@db/book"
     _driver_errors: tuple[type[BaseException], ...]  # the driver's exceptions, raised again as EngineError
     # Capabilities: what the engine can do, declared, so that no caller asks which engine it is.

@@ -15,6 +15,7 @@ from .protocol import ColumnSpec
 ARROW_TYPES = {
     "DOUBLE": pa.float64(),
     "BIGINT": pa.int64(),
+    "DECIMAL(18,6)": pa.decimal128(18, 6),
     "VARCHAR": pa.string(),
     "BOOLEAN": pa.bool_(),
     "DATE": pa.date32(),

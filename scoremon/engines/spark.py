@@ -121,6 +121,11 @@ class SparkEngine(Engine):
         self.session.sparkContext.setLogLevel("ERROR")
         self._owns_session = True
 
+    @property
+    def ignores_column_case(self) -> bool:
+        """Spark resolves column names ignoring case unless ``spark.sql.caseSensitive`` is on."""
+        return str(self.session.conf.get("spark.sql.caseSensitive", "false")).lower() != "true"
+
     # -- the protocol
 
     def execute(self, statement: Query, purpose: str) -> None:

@@ -2,8 +2,9 @@
 
 :func:`read_months` runs the month pass (volume, score and points sums, unseen values) and
 decides which months are reported: every month in range (:mod:`scoremon.monitor.months`) from
-the first to the last that has rows, up to the as-of date, a month without rows in between
-included (its volume is then zero); rows out of range are counted, not reported as months.
+the first that has rows to the as-of month, a month without rows in between or after the last
+month with rows included (its volume is then zero, and it is on alert); rows out of range are
+counted, not reported as months.
 :func:`measure_book` runs the other three passes once each — bins and score bands over every
 reported month, calibration and discrimination over the mature ones — and turns their small
 result tables into a :class:`~scoremon.monitor.records.MonitorReport`.
@@ -14,12 +15,16 @@ Statuses (thresholds in :mod:`scoremon.monitor.thresholds`):
   the sample-size-aware critical value at the watch confidence; ``alert`` likewise with the
   alert levels. A shift must be both material and more than sampling would produce.
 * volume: its drop (1 − rows / expected rows) and its rise (rows / expected rows − 1), each with
-  its own levels, the expected rows being the baseline's rows per month;
+  its own levels. The expected rows are, by default, the median rows of the book's own
+  previous :data:`TRAILING_MONTHS` months (reported months, empty ones counting 0; the first
+  month has none and no volume figure); or a monthly count the user gives; or, when asked,
+  the development rows per month. A month without rows is on alert whatever it is judged against;
 * missing rate, unseen-category rate, catch-all share: |month − baseline|, and, as for PSI,
   only when the change also exceeds what sampling produces at the ``psi_confidence`` levels
   (z·√(r(1−r)(1/M + 1/N)), r the baseline rate);
 * calibration of a month: the traffic light of its Jeffreys p-value (the month as one pool,
-  at its mean PD; ECB 2019 §2.5), raised to ``alert`` when the grade-level chi-square is at
+  at its mean PD; ECB 2019 §2.5; one-sided by default, so a model that over-estimates reads
+  ok, or two-sided when asked), raised to ``alert`` when the grade-level chi-square is at
   alert. The chi-square and each grade's Jeffreys test also get their own traffic lights,
   shown by grade: with a test per grade every month, a yellow light somewhere is routine and
   belongs to the grade table, not to the month's headline;
@@ -76,6 +81,9 @@ from .statistics import (
     z_value,
 )
 from .thresholds import ALERT, OK, STATUS_ORDER, WATCH, Limit, Thresholds, worst
+
+TRAILING_MONTHS = 6  # the book's own earlier months a month's volume is judged against
+TRAILING, DEVELOPMENT = "trailing", "development"
 
 
 @contextmanager
@@ -145,7 +153,7 @@ def read_months(engine, spec: Spec, rows: MonitoredRows, relation: exp.Expressio
                          "--months-in-range")
     ordered = sorted(found)
     months = []
-    for month in calendar_between(ordered[0], ordered[-1]):
+    for month in calendar_between(ordered[0], Month(as_of.year, as_of.month)):
         months.append(found.get(month) or MonthRow(month, None, 0, 0.0, (0.0,) * features, {}, 0))
     return BookMonths(tuple(months), tuple(sorted_months.notes(as_of)), sorted_months.rows_out_of_range,
                       months_in_range)
@@ -222,8 +230,15 @@ def measure_book(
     source: str,
     notes: Sequence[str] = (),
     fingerprint: str,
+    expected_rows: str | float = TRAILING,
+    two_sided: bool = False,
 ) -> MonitorReport:
-    """Every figure for every reported month of ``book``, with statuses (see the module docstring)."""
+    """Every figure for every reported month of ``book``, with statuses (see the module docstring).
+
+    ``expected_rows`` is what a month's volume is judged against: ``"trailing"`` (the default,
+    the book's own earlier months), ``"development"`` (the baseline's rows per month) or a
+    monthly count. ``two_sided`` makes the Jeffreys and binomial tests two-sided.
+    """
     notes = list(notes) + list(book.notes)
     window = spec.model.performance_window_months
     edges = band_edges(baseline.score_bands)
@@ -245,11 +260,10 @@ def measure_book(
         histograms = histogram_sums(engine, relation, where, True, "measuring discrimination per month")
         passes.histograms = {by_value[value]: found for value, found in histograms.items() if value in by_value}
 
-    expected_rows = baseline.rows_per_month
-    if expected_rows is None:
-        expected_rows = median([m.rows for m in with_rows])
+    expected, volume_rule = _expected_rows(book, baseline, expected_rows, with_rows)
+    if expected_rows == DEVELOPMENT and baseline.rows_per_month is None:
         notes.append(f"the baseline has no rows per month; volume is compared with this run's median month "
-                     f"({expected_rows:,.0f} rows)")
+                     f"({expected[0]:,.0f} rows)")
     missing_baseline = [f.name for f in spec.features if f.name not in baseline.feature_shares]
     if missing_baseline:
         notes.append(f"the baseline has no bin shares for {', '.join(missing_baseline)}: no PSI for them")
@@ -260,9 +274,9 @@ def measure_book(
         notes.append(f"the raw column of {', '.join(unreadable)} is not in the table: no unseen-category rate for it")
 
     results = []
-    for m in book.months:
-        results.append(_month_result(spec, m, baseline, expected_rows, thresholds, passes,
-                                     is_mature(m.month, window, as_of), rows))
+    for m, month_expected in zip(book.months, expected):
+        results.append(_month_result(spec, m, baseline, month_expected, thresholds, passes,
+                                     is_mature(m.month, window, as_of), rows, two_sided))
     drifts = _drifts(spec, results)
     status = worst(*(r.status for r in results)) or OK
     return MonitorReport(
@@ -276,25 +290,48 @@ def measure_book(
         source=source,
         baseline_source=baseline_source,
         baseline_rows=baseline.rows,
-        expected_monthly_rows=expected_rows,
+        expected_monthly_rows=None if expected_rows == TRAILING else expected[0],
         thresholds=thresholds.as_dict(),
         months=tuple(results),
         drifts=tuple(drifts),
         notes=tuple(notes),
         status=status,
+        volume_rule=volume_rule,
+        rows=sum(m.rows for m in book.months),
+        calibration_test="two-sided" if two_sided else "one-sided",
         rows_out_of_range=book.rows_out_of_range,
         months_in_range=book.months_in_range,
     )
 
 
-def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: float, thresholds: Thresholds,
-                  passes: _Passes, mature: bool, rows: MonitoredRows) -> MonthResult:
-    volume_change = _ratio(m.rows, expected_rows)
+def _expected_rows(book: BookMonths, baseline: Baseline, given: str | float,
+                   with_rows: Sequence[MonthRow]) -> tuple[list[float | None], str]:
+    """The rows each reported month is judged against, and the rule in words."""
+    if given == TRAILING:
+        counts = [m.rows for m in book.months]
+        expected = [float(median(counts[max(0, k - TRAILING_MONTHS):k])) if k else None for k in range(len(counts))]
+        return expected, (f"volume against the median of the book's own previous {TRAILING_MONTHS} months "
+                          "(trailing; the first month has none)")
+    if given == DEVELOPMENT:
+        rows = baseline.rows_per_month
+        if rows is None:
+            rows = float(median([m.rows for m in with_rows]))
+        return [rows] * len(book.months), f"volume against the development rows per month ({rows:,.0f})"
+    if isinstance(given, bool) or not isinstance(given, (int, float)) or not given > 0:
+        raise InputError(f"expected rows {given!r}: give 'trailing', 'development' or a positive monthly count")
+    return [float(given)] * len(book.months), f"volume against the expected {float(given):,.0f} rows a month (given)"
+
+
+def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: float | None, thresholds: Thresholds,
+                  passes: _Passes, mature: bool, rows: MonitoredRows, two_sided: bool = False) -> MonthResult:
+    volume_change = None if expected_rows is None else _ratio(m.rows, expected_rows)
     volume_change = None if volume_change is None else volume_change - 1.0
     volume_status = None
     if volume_change is not None:
         volume_status = worst(thresholds.volume_drop.status(max(-volume_change, 0.0)),
                               thresholds.volume_rise.status(max(volume_change, 0.0)))
+    if not m.rows:
+        volume_status = ALERT  # a month without rows is a finding whatever it is judged against
 
     # score bands
     bands = sorted(baseline.score_bands, key=lambda b: b.lower)
@@ -315,7 +352,7 @@ def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: fl
 
     calibration = discrimination_record = None
     if mature and rows.has_outcome and m.rows:
-        calibration = _calibration(spec, passes.grades.get(m.month, {}), m, thresholds)
+        calibration = _calibration(spec, passes.grades.get(m.month, {}), m, thresholds, two_sided)
         discrimination_record = _discrimination(passes.histograms.get(m.month), baseline, thresholds)
 
     stability_status = worst(score_psi_status, *(c.status for c in characteristics))
@@ -326,6 +363,7 @@ def _month_result(spec: Spec, m: MonthRow, baseline: Baseline, expected_rows: fl
         month=m.month.label,
         rows=m.rows,
         maturity=MATURE if mature else IMMATURE,
+        expected_rows=expected_rows,
         volume_change=volume_change,
         volume_status=volume_status,
         score_psi=shift.psi,
@@ -408,7 +446,8 @@ def _quality(feature, m: MonthRow, counts: dict[str, int], baseline: Baseline, t
                           worst(missing_status, unseen_status, catch_all_status))
 
 
-def _calibration(spec: Spec, grades: dict[str, GradeSums], m: MonthRow, thresholds: Thresholds) -> Calibration:
+def _calibration(spec: Spec, grades: dict[str, GradeSums], m: MonthRow, thresholds: Thresholds,
+                 two_sided: bool = False) -> Calibration:
     limit = thresholds.calibration_p_value
     records = []
     total_rows = total_events = 0
@@ -417,9 +456,9 @@ def _calibration(spec: Spec, grades: dict[str, GradeSums], m: MonthRow, threshol
         sums = grades.get(grade.name) or GradeSums(0, 0, 0.0, 0.0, 0.0, 0.0)
         n, d = sums.rows, sums.events
         mean_pd = _ratio(sums.pd_sum, n)
-        jeffreys = jeffreys_p(n, d, mean_pd) if n else None
+        jeffreys = jeffreys_p(n, d, mean_pd, two_sided) if n else None
         records.append(GradeCalibration(grade.name, n, d, mean_pd, _ratio(d, n), jeffreys,
-                                        binomial_p(n, d, mean_pd) if n else None, limit.status(jeffreys)))
+                                        binomial_p(n, d, mean_pd, two_sided) if n else None, limit.status(jeffreys)))
         total_rows += n
         total_events += d
         pd_sum += sums.pd_sum
@@ -427,7 +466,7 @@ def _calibration(spec: Spec, grades: dict[str, GradeSums], m: MonthRow, threshol
         variance += sums.spiegelhalter_variance
         squared_error += sums.squared_error_sum
     mean_pd = _ratio(pd_sum, total_rows)
-    jeffreys = jeffreys_p(total_rows, total_events, mean_pd) if total_rows else None
+    jeffreys = jeffreys_p(total_rows, total_events, mean_pd, two_sided) if total_rows else None
     chi = grade_chi_square([g.rows for g in records], [g.events for g in records], [g.mean_pd for g in records])
     z = spiegelhalter(numerator, variance) if total_rows else None
     chi_p = chi.p_value if chi else None
@@ -437,7 +476,7 @@ def _calibration(spec: Spec, grades: dict[str, GradeSums], m: MonthRow, threshol
         mean_pd=mean_pd,
         event_rate=_ratio(total_events, total_rows),
         jeffreys_p=jeffreys,
-        binomial_p=binomial_p(total_rows, total_events, mean_pd) if total_rows else None,
+        binomial_p=binomial_p(total_rows, total_events, mean_pd, two_sided) if total_rows else None,
         chi_square=chi.statistic if chi else None,
         chi_square_df=chi.degrees_of_freedom if chi else None,
         chi_square_p=chi_p,

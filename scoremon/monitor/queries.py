@@ -40,6 +40,7 @@ from sqlglot import exp
 from ..compiler import compile_model
 from ..engines.protocol import BOOLEAN, DATE, INTEGER, TEXT, Column
 from ..errors import InputError
+from ..exact import exact_columns
 from ..spec.model import CategoricalFeature, Reasons, Spec
 from ..trees import case, category_literal, column, identifier, integer, number, text
 
@@ -113,7 +114,7 @@ def monitored_rows(
                 keys.append(name)
         # monitoring reads no reasons, so the scoring steps that rank them are left out
         scoring_only = spec.model_copy(update={"reasons": Reasons(count=0, statements=[])})
-        scoring = compile_model(scoring_only, source, keys, float_columns)
+        scoring = compile_model(scoring_only, source, keys, float_columns, exact_columns(columns))
         relation = exp.Subquery(this=scoring, alias=exp.TableAlias(this=identifier("scored")))
 
     selected: list[exp.Expression] = []

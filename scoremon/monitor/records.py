@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 from datetime import date
 
 from .months import MONTHS_IN_RANGE
+from ..version import VERSION
 
 MATURE, IMMATURE = "mature", "immature"
 
@@ -112,6 +113,7 @@ class MonthResult:
     month: str
     rows: int
     maturity: str
+    expected_rows: float | None  # what the month's rows are judged against (see MonitorReport.volume_rule)
     volume_change: float | None  # rows / expected rows − 1
     volume_status: str | None
     score_psi: float | None
@@ -170,12 +172,21 @@ class MonitorReport:
     drifts: tuple[Drift, ...]
     notes: tuple[str, ...] = field(default_factory=tuple)
     status: str | None = None
+    volume_rule: str = ""  # what each month's volume is judged against, in words
+    rows: int = 0  # rows of the book in the reported months
+    scoremon_version: str = VERSION
+    calibration_test: str = "one-sided"  # or "two-sided": the Jeffreys and binomial p-values
     rows_out_of_range: int = 0  # rows in months before the range (scoremon.monitor.months), left out
     months_in_range: int = MONTHS_IN_RANGE  # the range's length in months (--months-in-range)
 
     @property
     def has_alert(self) -> bool:
         return self.status == "alert"
+
+    @property
+    def latest_month_with_rows(self) -> MonthResult:
+        """The latest month that has rows (months after it, up to the as-of month, are empty)."""
+        return next((m for m in reversed(self.months) if m.rows), self.months[-1])
 
     @property
     def latest_mature_month(self) -> MonthResult | None:

@@ -15,7 +15,7 @@ from sqlglot import exp
 
 from ..engines import Engine
 from ..errors import InputError
-from ..sources import check_columns, describe_source, float_columns, source_relation
+from ..sources import check_columns, describe_source, float_columns, source_relation, spec_columns
 from ..spec.canonical import fingerprint
 from ..spec.model import Baseline, Spec
 from .baseline import measure_baseline, small_baseline_warning
@@ -40,6 +40,8 @@ def monitor_table(
     baseline_months: tuple[Month, Month] | None = None,
     record_history: bool = True,
     months_in_range: int = MONTHS_IN_RANGE,
+    expected_rows: str | float = "trailing",
+    two_sided: bool = False,
 ) -> MonitorReport:
     """Monitor ``table`` month by month against a baseline; append the run to the history.
 
@@ -48,8 +50,12 @@ def monitor_table(
     has the scored columns, and ``month_column`` / ``outcome`` kept as keys) or raw (it is
     scored on the fly). Months are reported when they lie in the ``months_in_range`` months
     ending with the as-of month (:mod:`scoremon.monitor.months`); rows of earlier months are
-    counted as out of range. Raises :class:`InputError` for anything the user can fix; the history
-    is written last, in one transaction, so a failing run leaves it unchanged.
+    counted as out of range. ``expected_rows`` is what each month's volume is judged against:
+    ``"trailing"`` (default: the median of the book's own previous six months), a monthly
+    count, or ``"development"`` (the baseline's rows per month). ``two_sided`` makes the
+    calibration tests two-sided (default one-sided: only more events than the PD predicts is
+    flagged). Raises :class:`InputError` for anything the user can fix; the history is
+    written last, in one transaction, so a failing run leaves it unchanged.
     """
     if baseline_table is not None and baseline_months is not None:
         raise InputError("give a baseline table or a range of baseline months, not both")
@@ -82,7 +88,8 @@ def monitor_table(
             notes.append(warning.removeprefix("warning: "))
         report = measure_book(engine, spec, rows, relation, book, as_of=as_of, month_column=month_column,
                               baseline=baseline, baseline_source=baseline_source, thresholds=thresholds,
-                              source=f"table {table}", notes=notes, fingerprint=fingerprint(spec))
+                              source=f"table {table}", notes=notes, fingerprint=fingerprint(spec),
+                              expected_rows=expected_rows, two_sided=two_sided)
     if record_history:
         write_history(engine, report)
     return report
@@ -109,7 +116,7 @@ def measure_development(spec: Spec, engine: Engine, source: exp.Expression, outc
 def _monitored(spec: Spec, engine: Engine, source: exp.Expression, month_column: str | None,
                outcome: str | None) -> tuple[MonitoredRows, list[str]]:
     """The monitored rows over ``source`` (scored already, or scored on the fly), and notes."""
-    columns = describe_source(engine, source)
+    columns = describe_source(engine, source, spec_columns(spec) + [name for name in (month_column, outcome) if name])
     notes = []
     if is_scored(spec, columns):
         if "model_fingerprint" in columns:

@@ -108,13 +108,21 @@ def points_shift(actual: Sequence[float], expected: Sequence[float], points: Seq
     return float(np.sum((a - e) * p))
 
 
-def jeffreys_p(rows: int, events: int, pd: float) -> float | None:
-    """One-sided Jeffreys p-value: F_Beta(D+½, N−D+½)(PD); small when events exceed the PD."""
+def _both_tails(upper: float, lower: float) -> float:
+    """The equal-tailed two-sided p-value: twice the smaller one-sided tail, at most 1."""
+    return min(1.0, 2.0 * min(upper, lower))
+
+
+def jeffreys_p(rows: int, events: int, pd: float, two_sided: bool = False) -> float | None:
+    """Jeffreys p-value: one-sided F_Beta(D+½, N−D+½)(PD), small when events exceed the PD
+    (H0: PD ≥ the true rate, ECB 2019 §2.5), so a model that over-estimates reads ok; with
+    ``two_sided`` twice the smaller tail, small when events are far above or below the PD."""
     from scipy import stats
 
     if rows <= 0 or pd is None:
         return None
-    return float(stats.beta.cdf(pd, events + 0.5, rows - events + 0.5))
+    upper = float(stats.beta.cdf(pd, events + 0.5, rows - events + 0.5))
+    return _both_tails(upper, float(stats.beta.sf(pd, events + 0.5, rows - events + 0.5))) if two_sided else upper
 
 
 def jeffreys_interval(rows: int, events: int, confidence: float = 0.95) -> tuple[float, float] | None:
@@ -131,13 +139,15 @@ def jeffreys_interval(rows: int, events: int, confidence: float = 0.95) -> tuple
     return lower, upper
 
 
-def binomial_p(rows: int, events: int, pd: float) -> float | None:
-    """One-sided binomial p-value P(X ≥ D) for X ~ Bin(N, PD); small when events exceed the PD."""
+def binomial_p(rows: int, events: int, pd: float, two_sided: bool = False) -> float | None:
+    """Binomial p-value for X ~ Bin(N, PD): one-sided P(X ≥ D), small when events exceed the PD;
+    with ``two_sided`` twice the smaller of P(X ≥ D) and P(X ≤ D)."""
     from scipy import stats
 
     if rows <= 0 or pd is None:
         return None
-    return float(stats.binom.sf(events - 1, rows, pd))
+    upper = float(stats.binom.sf(events - 1, rows, pd))
+    return _both_tails(upper, float(stats.binom.cdf(events, rows, pd))) if two_sided else upper
 
 
 @dataclass(frozen=True)

@@ -1,7 +1,8 @@
 """Markdown renderings of result records, for the audit file.
 
 :func:`diff_markdown` writes a :class:`~scoremon.diff.records.DiffReport` as one document
-stamped with both fingerprints, the population used and the time of the run, so that it can
+stamped with both fingerprints, the population used and its row count, scoremon's version and
+the time of the run, so that it can
 be filed as it is. Nothing here computes; shares and rates come from the records.
 """
 from __future__ import annotations
@@ -38,8 +39,9 @@ def diff_markdown(report) -> str:
         ["old", diff.old.version, f"`{diff.old.fingerprint}`", diff.old.source],
         ["new", diff.new.version, f"`{diff.new.fingerprint}`", diff.new.source],
     ])
-    lines += [f"- Run at: {report.run_at}",
-              f"- Population: {impact.population if impact else 'none given (structural comparison only)'}"]
+    population = f"{impact.population} ({impact.rows:,} rows)" if impact else "none given (structural comparison only)"
+    lines += [f"- Run at: {report.run_at}", f"- scoremon version: {report.scoremon_version}",
+              f"- Population: {population}"]
     if diff.is_equivalent:
         lines += ["- Result: **no change** — the two specs are the same model (equal fingerprints).", ""]
     else:

@@ -67,6 +67,11 @@ def canonical_form(spec: Spec) -> dict:
     data["grades"] = sorted(data["grades"], key=lambda g: g["lower"])
     # Rows get at most one reason per statement: an unstated count (3) over two statements gives two.
     data["reasons"]["count"] = min(spec.reasons.count, len(spec.reasons.statements))
+    # The PD's source is written only when it is the score: the log-odds were the only source
+    # before the key existed, so specs that report them keep their fingerprints.
+    del data["scaling"]["pd_from"]
+    if spec.scaling.reported_pd == "score":
+        data["scaling"]["pd_from"] = "score"
     return _without_negative_zero(data)
 
 

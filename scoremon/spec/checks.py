@@ -13,6 +13,7 @@ import difflib
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
+from decimal import Decimal, InvalidOperation
 
 from ..errors import Problem
 from .model import Baseline, CategoricalFeature, Feature, Grade, LinearFeature, NumericFeature, Reasons, Spec, Value
@@ -91,6 +92,7 @@ def check_parts(parts: ValidParts, source: SpecSource) -> list[Problem]:
                 report(path + ("column",), f"column name {feature.column!r} {trouble}")
         if isinstance(feature, NumericFeature):
             _check_numeric(feature, path, report)
+            _check_edges_written(feature, path, source, report)
         elif isinstance(feature, CategoricalFeature):
             _check_categorical(feature, path, report)
         else:
@@ -230,6 +232,25 @@ def _check_numeric(feature: NumericFeature, path: tuple, report: Report) -> None
         if target is not None and target not in labels:
             hint = suggest(target, labels) or f"; use one of {', '.join(repr(label) for label in labels)}"
             report(path + (key,), f"{key} goes to {target!r}, which is no bin of this feature{hint}")
+
+
+def _check_edges_written(feature: NumericFeature, path: tuple, source: SpecSource, report: Report) -> None:
+    """An edge must be written as the number its double stands for: whole-number and DECIMAL
+    columns are compared with the edge as written (:mod:`scoremon.exact`), DOUBLE columns with
+    the double, and the two must be the same number."""
+    for i, b in enumerate(feature.bins):
+        for key in ("lower", "upper"):
+            written, edge = source.written(path + ("bins", i, key)), getattr(b, key)
+            if written is None or not math.isfinite(edge):
+                continue
+            try:
+                exact = Decimal(written.replace("_", ""))
+            except InvalidOperation:
+                continue  # a YAML spelling Decimal does not read (hexadecimal, sexagesimal)
+            if exact != Decimal(repr(edge)):
+                reads = str(int(edge)) if edge.is_integer() else repr(edge)
+                report(path + ("bins", i, key), f"edge {written} has more digits than a double holds and reads as "
+                                                f"{reads}; write {reads} (or an edge with at most 15 significant digits)")
 
 
 def _check_categorical(feature: CategoricalFeature, path: tuple, report: Report) -> None:

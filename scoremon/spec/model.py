@@ -12,6 +12,9 @@ The semantics a reviewer needs, in one place:
   bin given in ``points``, ``−points / factor``.
 * factor = pdo / ln 2; offset = base_score − factor · ln(base_odds), odds being good:bad.
   score = offset − factor · η, written as base points plus one points value per feature.
+* The reported PD is 1 / (1 + e^(−η)) from the exact η, or, with ``pd_from: score`` (the
+  default when the score is rounded), from the η the score stands for, (offset − score) /
+  factor, so that rows with one score carry one PD.
 """
 from __future__ import annotations
 
@@ -105,6 +108,21 @@ class Scaling(Part):
     base_odds: FiniteFloat = Field(gt=0)
     pdo: FiniteFloat = Field(gt=0)
     rounding: Literal["none", "per_bin", "total"] = "none"
+    pd_from: Literal["score", "log_odds"] | None = Field(
+        default=None, description="which PD a row reports: from its score (the default for a rounded scorecard, so "
+                                  "one score has one PD) or from the exact log-odds (the default without rounding)")
+
+    @property
+    def reported_pd(self) -> str:
+        """``score`` or ``log_odds``: ``pd_from``, or its default for this rounding."""
+        return self.pd_from or ("log_odds" if self.rounding == "none" else "score")
+
+    @property
+    def reported_pd_words(self) -> str:
+        """The PD's source in words, as ``check``, ``diff`` and the reports say it."""
+        if self.reported_pd == "log_odds":
+            return "PD from the exact log-odds"
+        return "PD from the score" if self.rounding == "none" else "PD from the rounded score"
 
     @property
     def factor(self) -> float:

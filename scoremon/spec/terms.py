@@ -6,7 +6,8 @@ and any reference computation give the same bits):
 
 * contribution to η: ``coefficient * woe``, ``log_odds``, or ``-(points / factor)``;
 * points: ``-(factor * contribution)``, or the given ``points`` as written;
-* with ``rounding: per_bin`` points are rounded half away from zero (:func:`round_half_away`);
+* with ``rounding: per_bin`` points are rounded half away from zero, holding binary noise just
+  below a half as the half (:func:`round_half_away`);
 * base points = ``offset - factor * intercept`` (rounded too under ``per_bin``);
 * a linear feature contributes ``slope * (clip(x) - center)`` with ``slope = coefficient / scale``
   and scores ``points_slope * (clip(x) - center)`` with ``points_slope = -(factor * slope)``.
@@ -15,36 +16,45 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from decimal import ROUND_HALF_UP, Decimal, localcontext
+from fractions import Fraction
 
 from .model import CategoricalFeature, LinearFeature, NumericFeature, ReasonStatement, Spec, Value
 
-# Rounding holds a value to this many decimals before rounding to a whole number, so that
-# binary noise just below a half (0.49999999999999994) rounds as the half it stands for.
-ROUNDING_DECIMALS = 12
-# Enough digits to hold any double's whole part and 12 decimals exactly (doubles stay below 1e309).
-_HOLDING_DIGITS = 309 + ROUNDING_DECIMALS + 10
+# Rounding is half away from zero with a hold: a value whose fraction falls short of the half
+# by at most HOLD_RELATIVE · max(|value|, HOLD_FLOOR_SIZE) rounds as the half it stands for.
+# Binary noise grows with a value's size: a sum near 520 is off by units of 2**-43 in its last
+# place, one near 4,500 by units of 2**-40, so a fixed hold (12 decimals) missed noise beyond a
+# few units at 500 and any noise above about 4,500. 2**-48 · |value| is between 16 and 32 units
+# in the last place of the value; below 128 the hold stays 2**-41 ≈ 4.5e-13 (the noise of sums
+# whose terms are larger than their result).
+HOLD_RELATIVE = 2.0 ** -48
+HOLD_FLOOR_SIZE = 128.0
+WHOLE_FROM = 2.0 ** 52  # every double from here on is whole
 
 
 def round_half_away(value: float) -> float:
-    """Round to a whole number, half away from zero, after holding 12 decimals of the exact
-    double. This is the rule's definition; the SQL computes the same in doubles
-    (compiler.round_half_away_sql, with :data:`ROUND_UP_FROM`). Zero comes back as +0.0."""
-    with localcontext() as context:
-        context.prec = _HOLDING_DIGITS
-        held = Decimal(value).quantize(Decimal(1).scaleb(-ROUNDING_DECIMALS), rounding=ROUND_HALF_UP)
-        return float(held.quantize(Decimal(1), rounding=ROUND_HALF_UP)) + 0.0
+    """Round to a whole number, half away from zero, with the hold above. This is the rule's
+    definition, in exact arithmetic (:class:`~fractions.Fraction`); the SQL computes the same in
+    doubles (compiler.round_half_away_sql). Zero comes back as +0.0.
+
+    >>> round_half_away(519.4999999999994), round_half_away(519.4999999999), round_half_away(-2.5)
+    (520.0, 519.0, -3.0)
+    """
+    size = abs(value)
+    if not size < WHOLE_FROM:
+        return value + 0.0
+    whole = math.floor(size)
+    hold = Fraction(max(size, HOLD_FLOOR_SIZE)) * Fraction(HOLD_RELATIVE)
+    rounded = whole + 1 if Fraction(1, 2) - (Fraction(size) - whole) <= hold else whole
+    return float(rounded if value > 0 else -rounded) + 0.0
 
 
-def _smallest_double_from(bound: Decimal) -> float:
-    candidate = float(bound)
-    return candidate if Decimal(candidate) >= bound else math.nextafter(candidate, math.inf)
-
-
-# Under :func:`round_half_away` a value goes up exactly when its fraction is at least
-# 0.5 − 0.5·10⁻¹² (that fraction holds as 0.5); a fraction is a double, so "at least the
-# smallest double from that bound" is the same test.
-ROUND_UP_FROM = _smallest_double_from(Decimal("0.5") - Decimal("0.5").scaleb(-ROUNDING_DECIMALS))
+# Reason shortfalls are compared in whole billionths of a point, rounded half up: shortfalls
+# equal in exact arithmetic but apart in a double's last bits tie, and the tie goes to the
+# statement listed first. Below 2**52 billionths ``v + 0.5`` is exact, so FLOOR(v + 0.5) is the
+# rounding on every engine; from 2**52 on every double is whole already. A shortfall below half
+# a billionth holds as 0 and gives no reason.
+SHORTFALL_UNITS = 1e9
 
 
 @dataclass(frozen=True)

@@ -87,8 +87,11 @@ def test_scaling_worked_example_through_sql(rounding):
         assert scores[3] == pytest.approx(600.0, abs=1e-9)
     else:  # half away from zero on the total: 487.12… → 487
         assert scores == [620.0, 580.0, 487.0, 600.0]
-    # PD = bad share = 1 / (1 + good:bad odds)
-    assert [row["pd"] for row in rows] == pytest.approx([1 / 101, 1 / 26, 1 / 2, 1 / 51], rel=1e-12)
+    # PD = bad share = 1 / (1 + good:bad odds); a rounded score reports the PD of the score itself:
+    # 487 stands for the odds 50 · 2^((487 − 600) / 20)
+    at_487 = 1 / (1 + 50 * 2 ** ((487 - 600) / 20))
+    expected = [1 / 101, 1 / 26, 1 / 2 if rounding == "none" else at_487, 1 / 51]
+    assert [row["pd"] for row in rows] == pytest.approx(expected, rel=1e-12)
 
 
 # ---------------------------------------------------------------- Spector & Mazzeo, CHECKS.md §7

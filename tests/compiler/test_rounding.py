@@ -1,8 +1,9 @@
-"""Rounding in the SQL: half away from zero after holding 12 decimals, hand-worked cases.
+"""Rounding in the SQL: half away from zero with a hold that grows with the value, hand-worked cases.
 
 Half away from zero is the usual commercial rounding of a score [practice: common practice];
-holding 12 decimals first lets binary noise just below a half (0.49999999999999994, the
-double nearest to but below 0.5) round as the half it stands for. A spec with
+the hold (a fraction short of .5 by at most max(|x|, 128) · 2⁻⁴⁸ counts as .5) lets binary
+noise just below a half (0.49999999999999994, the double nearest to but below 0.5) round as
+the half it stands for. A spec with
 ``pdo = ln 2`` has factor exactly 1, so a linear feature with coefficient −1 scores its
 input as points, and the SQL rounds values we choose.
 """
@@ -60,8 +61,9 @@ def test_total_rounds_the_score_and_keeps_points_unrounded():
     assert [row["x_points"] for row in rows] == [value for value, _ in CASES]
 
 
-def test_a_value_just_below_a_twelve_decimal_half_is_held_below_it():
-    # 1.4999999999995 is exactly 1.49999999999949995…: held as 1.499999999999, it rounds down
+def test_a_value_just_beyond_the_hold_rounds_down():
+    # 1.4999999999995 is exactly 1.49999999999949995…: 5.0e-13 short of the half, beyond the
+    # hold of 2**-41 ≈ 4.55e-13 for values below 128, so it rounds down
     rows = scored("total", [1.4999999999995])
     assert rows[0]["score"] == 1.0
 
@@ -73,3 +75,27 @@ def test_rounding_has_no_size_limit(rounding):
     column = "x_points" if rounding == "per_bin" else "score"
     rows = scored(rounding, values, bound=1e300)
     assert [row[column] for row in rows] == [round_half_away(v) for v in values] == values[:-1] + [123456790.0]
+
+
+# Binary noise scales with the value: a score near 520 carries noise in units of its last place
+# (2**-43 ≈ 1.1e-13), one near 4,500 in units of 2**-40 ≈ 9.1e-13, already more than a fixed
+# hold of 12 decimals. 519.4999999999994 is the issue's score aimed at 519.5 (5 units below);
+# the others are one unit below the half (math.nextafter), hand-worked to round up.
+LARGE = [
+    (519.4999999999994, 520.0),
+    (math.nextafter(4500.5, 0.0), 4501.0),
+    (-math.nextafter(7000.5, 0.0), -7001.0),
+    (math.nextafter(123456.5, 0.0), 123457.0),
+    # far from the half in units of the value's last place: rounds down
+    (519.4999999999, 519.0),
+    (4500.49999999, 4500.0),
+    (123456.4999999, 123456.0),
+]
+
+
+@pytest.mark.parametrize("rounding", ["per_bin", "total"])
+def test_noise_just_below_a_half_rounds_up_at_large_scores(rounding):
+    values = [value for value, _ in LARGE]
+    column = "x_points" if rounding == "per_bin" else "score"
+    rows = scored(rounding, values, bound=1e6)
+    assert [row[column] for row in rows] == [rounded for _, rounded in LARGE]

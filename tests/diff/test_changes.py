@@ -88,7 +88,9 @@ CASES = [
     ("intercept", _set(("intercept",), -2.3), [ChangeKind.INTERCEPT_CHANGED], Effect.SCALING_ONLY),
     ("base score", _set(("scaling", "base_score"), 620), [ChangeKind.SCALING_CHANGED], Effect.SCALING_ONLY),
     ("base odds", _set(("scaling", "base_odds"), 100), [ChangeKind.SCALING_CHANGED], Effect.SCALING_ONLY),
-    ("rounding", _set(("scaling", "rounding"), "per_bin"), [ChangeKind.SCALING_CHANGED], Effect.SCALING_ONLY),
+    # the rounding, and with it the default PD source (from the rounded score now): two changes
+    ("rounding", _set(("scaling", "rounding"), "per_bin"), [ChangeKind.SCALING_CHANGED] * 2, Effect.SCALING_ONLY),
+    ("pd_from", _set(("scaling", "pd_from"), "score"), [ChangeKind.SCALING_CHANGED], Effect.SCALING_ONLY),
     ("pdo with points and woe features", _set(("scaling", "pdo"), 40), [ChangeKind.SCALING_CHANGED],
      Effect.STRUCTURE),
     ("feature removed", _drop_tenure, [ChangeKind.FEATURE_REMOVED, ChangeKind.REASON_FEATURES_CHANGED],

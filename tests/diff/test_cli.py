@@ -130,7 +130,8 @@ def test_a_population_without_the_columns_exits_2(capsys, tmp_path, book):
     code = main(["diff", str(BASE), str(renamed), "--db", str(book), "--table", "book"])
     err = capsys.readouterr().err
     assert code == 2
-    assert "new version: column 'age_years' (feature 'age') is not in the input" in err
+    assert ("new version: column 'age_years' (feature 'age', its `column:` in the spec) is not in the input; "
+            "the nearest is 'age'") in err
 
 
 def test_an_outcome_that_is_not_0_or_1_exits_2(capsys, tmp_path, new_spec):

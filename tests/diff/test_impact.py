@@ -239,7 +239,7 @@ def test_missing_columns_are_listed_for_each_version(book):
     with pytest.raises(InputError) as caught:
         measure(book, base(), variant(rename), outcome="no_such_column")
     message = str(caught.value)
-    assert "new version: column 'age_years' (feature 'age') is not in the input" in message
+    assert "new version: column 'age_years' (feature 'age', its `column:` in the spec) is not in the input" in message
     assert "old version" not in message
     assert "outcome column 'no_such_column' is not in the input" in message
 

@@ -5,7 +5,10 @@ value appears (and, through different cycle lengths, in many combinations):
 
 * numeric (DOUBLE): every finite cut point and its neighbours one ulp below and above
   (``math.nextafter``), NULL, NaN, ±inf, ±0, the largest and smallest doubles;
-* numeric (BIGINT): every whole cut point and ±1, NULL, very large values;
+* numeric (BIGINT): every cut point's whole neighbours (⌊edge⌋ − 1 … ⌈edge⌉ + 1, exactly, with
+  no float in between), NULL, very large values;
+* numeric (DECIMAL(18,6)): every cut point and its neighbours one step (0.000001) below and
+  above, NULL, zero and the type's extremes;
 * categorical text: every listed value, look-alikes (case, leading and trailing spaces), an
   unseen value, the empty string, NULL;
 * categorical whole numbers: every listed value, unseen values, NULL;
@@ -14,6 +17,8 @@ value appears (and, through different cycle lengths, in many combinations):
 from __future__ import annotations
 
 import math
+from decimal import Decimal
+from fractions import Fraction
 from typing import Any
 
 from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature, Spec
@@ -35,9 +40,22 @@ def numeric_values(edges: list[float]) -> list[float | None]:
 
 
 def whole_values(edges: list[float]) -> list[int | None]:
-    values: list[Any] = [None, 0, 2**62, -(2**62)]
+    values: list[Any] = [None, 0, 2**62, -(2**62), 2**63 - 1, -(2**63)]
     for edge in edges:
-        values += [int(edge) - 1, int(edge), int(edge) + 1]
+        exact = Fraction(edge)  # the double's exact value; these edges are whole or halves
+        values += list(range(math.floor(exact) - 1, math.ceil(exact) + 2))
+    return values
+
+
+DECIMAL_STEP = Decimal("0.000001")
+DECIMAL_LARGEST = Decimal("999999999999.999999")  # DECIMAL(18,6)
+
+
+def decimal_values(edges: list[float]) -> list[Decimal | None]:
+    values: list[Any] = [None, Decimal(0), DECIMAL_LARGEST, -DECIMAL_LARGEST]
+    for edge in edges:
+        exact = Decimal(repr(edge))  # the edge as the spec writes it
+        values += [exact - DECIMAL_STEP, exact, exact + DECIMAL_STEP]
     return values
 
 
@@ -56,7 +74,7 @@ def column_of(feature) -> str:
     return feature.column or feature.name
 
 
-def deck_columns(spec: Spec, whole_number_columns: set[str]) -> list[tuple[str, str, list]]:
+def deck_columns(spec: Spec, whole_number_columns: set[str], decimal_columns: set[str]) -> list[tuple[str, str, list]]:
     """(column, kind, values to try) for every input column of ``spec``."""
     columns = []
     for feature in spec.features:
@@ -74,14 +92,17 @@ def deck_columns(spec: Spec, whole_number_columns: set[str]) -> list[tuple[str, 
             edges = sorted({edge for b in feature.bins for edge in (b.lower, b.upper) if math.isfinite(edge)})
             if name in whole_number_columns:
                 columns.append((name, "BIGINT", whole_values(edges)))
+            elif name in decimal_columns:
+                columns.append((name, "DECIMAL(18,6)", decimal_values(edges)))
             else:
                 columns.append((name, "DOUBLE", numeric_values(edges)))
     return columns
 
 
-def build_deck(spec: Spec, whole_number_columns: set[str] = frozenset()) -> tuple[list[tuple[str, str]], list[tuple]]:
+def build_deck(spec: Spec, whole_number_columns: set[str] = frozenset(),
+               decimal_columns: set[str] = frozenset()) -> tuple[list[tuple[str, str]], list[tuple]]:
     """(columns as (name, kind), rows): the key first, then each input column."""
-    columns = deck_columns(spec, set(whole_number_columns))
+    columns = deck_columns(spec, set(whole_number_columns), set(decimal_columns))
     longest = max(len(values) for _, _, values in columns)
     rows = []
     for i in range(2 * longest):

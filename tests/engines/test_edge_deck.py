@@ -23,6 +23,7 @@ from tests.reference_scorer import ReferenceScorer
 
 PD_TOLERANCE = 1e-12
 WHOLE_NUMBER_COLUMNS = {"Order"}
+DECIMAL_COLUMNS = {"Amount"}
 SPEC_TEXT = (FIXTURES / "edge_deck.yaml").read_text(encoding="utf-8")
 ROUNDINGS = ["total", "per_bin", "none"]
 
@@ -35,7 +36,7 @@ def edge_spec(rounding: str):
 
 def score_deck(engine, spec) -> tuple[list[str], list[tuple]]:
     """Load the deck into ``engine``, score it into a table, read the table back ordered by key."""
-    columns, rows = build_deck(spec, WHOLE_NUMBER_COLUMNS)
+    columns, rows = build_deck(spec, WHOLE_NUMBER_COLUMNS, DECIMAL_COLUMNS)
     engine.write_rows(["edge_deck"], columns, rows, "loading the edge deck")
     api.score(spec, engine, api.source_relation(table="edge_deck"), keys=[KEY], out_table="edge_scores")
     query = (exp.select(exp.Star()).from_(table_path(["edge_scores"]))
@@ -71,7 +72,7 @@ def test_edge_deck_scores_like_the_reference_and_like_duckdb(each_engine, roundi
     # the hostile output names arrive intact, in order
     assert names == list(output_columns(spec, [KEY]).all)
 
-    columns, rows = build_deck(spec, WHOLE_NUMBER_COLUMNS)
+    columns, rows = build_deck(spec, WHOLE_NUMBER_COLUMNS, DECIMAL_COLUMNS)
     scorer = ReferenceScorer(spec)
     expected = []
     for row in rows:
@@ -94,7 +95,7 @@ def test_edge_deck_scores_like_the_reference_and_like_duckdb(each_engine, roundi
 def test_edge_deck_reaches_every_edge_case():
     """The deck really holds what the cross-engine test relies on (a guard on the deck itself)."""
     spec = edge_spec("total")
-    columns, rows = build_deck(spec, WHOLE_NUMBER_COLUMNS)
+    columns, rows = build_deck(spec, WHOLE_NUMBER_COLUMNS, DECIMAL_COLUMNS)
     scorer = ReferenceScorer(spec)
     names = [name for name, _ in columns]
     scored = [scorer.score_row(dict(zip(names, row))) for row in rows]

@@ -1,7 +1,7 @@
 """The SQL rounding rule gives, on DuckDB, PostgreSQL and Spark, exactly what the rule's
-definition gives: Python's ``decimal`` module (ROUND_HALF_UP to 12 decimals of the exact double,
-then to a whole number; scoremon.spec.terms.round_half_away) — the standard library as the
-outside check. Half away from zero is the usual commercial rounding of a score [common practice].
+definition gives in exact arithmetic with Python's ``fractions`` module (up when the fraction falls
+short of the half by at most max(|x|, 128) · 2⁻⁴⁸; scoremon.spec.terms.round_half_away) — the
+standard library as the outside check. Half away from zero is the usual commercial rounding of a score [common practice].
 """
 from __future__ import annotations
 
@@ -24,6 +24,12 @@ def tricky_values() -> list[float]:
         for fraction in (0.5, 0.4999999999995, 0.4999999999994, 0.4999999999996, 0.9999999999995):
             middle = whole + fraction
             values += [math.nextafter(middle, -math.inf), middle, math.nextafter(middle, math.inf)]
+    # large scores: the half and up to 40 units in the last place below it, either side of the hold
+    for whole in (519, 4500, 7000, 123456, 2 ** 40):
+        middle = whole + 0.5
+        for _ in range(40):
+            middle = math.nextafter(middle, -math.inf)
+            values.append(middle)
     draw = random.Random(20261202)
     values += [draw.uniform(-1, 1) * 10 ** draw.randint(-3, 18) for _ in range(300)]
     return values + [-v for v in values]

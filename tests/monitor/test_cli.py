@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import json
+from importlib.metadata import version
 
 import pytest
 
@@ -63,8 +64,9 @@ def test_a_quiet_book_exits_0_and_reads_well_at_80_columns(quiet, tmp_path, caps
     assert max(len(line) for line in lines) <= 80
     cautions = next(i for i, line in enumerate(lines) if line.startswith("Decision support"))
     assert all(line == line.rstrip() for line in lines[:cautions])
-    month_lines = [line for line in lines if line.startswith("  2024-")]
-    assert len(month_lines) == 12
+    table = next(i for i, line in enumerate(lines) if line.startswith("  month "))
+    month_lines = [line for line in lines[table + 1:] if line.startswith("  2024-")][:12]
+    assert [line[2:9] for line in month_lines] == [f"2024-{k:02d}" for k in range(1, 13)]
     assert "immature" in month_lines[-1] and "immature" not in month_lines[0]
     assert any(line.startswith("calibration by grade, 2024-06 (latest mature month)") for line in lines)
     assert "Decision support, not an automatic decision" in out
@@ -87,6 +89,25 @@ def test_a_shifted_book_exits_1_names_the_drift_and_writes_every_figure_as_json(
     assert data["months"][-1]["maturity"] == "immature" and data["months"][-1]["calibration"] is None
 
 
+def test_each_month_says_why_and_repeated_findings_are_grouped_at_80_columns(shifted, tmp_path, capsys):
+    spec = baseline_spec(shifted, tmp_path, capsys)
+    assert main(["monitor", spec, "--db", str(shifted), "--table", "book", "--month-column", "application_month",
+                 "--outcome", "bad", "--as-of", "2025-02-28"]) == 1
+    lines = capsys.readouterr().out.splitlines()
+    assert max(len(line) for line in lines) <= 80
+    drifts = next(i for i, line in enumerate(lines) if line.startswith("characteristics that drift"))
+    table = next(i for i, line in enumerate(lines) if line.startswith("  month "))
+    assert drifts < table  # drifting characteristics first
+    month = {line[2:9]: line for line in lines[table + 1:] if line[2:4] == "20" and line[9] == " "}
+    assert "alert" in month["2024-10"] and "stability: age PSI" in month["2024-10"]
+    # the months after the last month with rows, up to the as-of month, are listed and flagged
+    assert "data quality: no rows" in month["2025-01"] and "data quality: no rows" in month["2025-02"]
+    findings = next(i for i, line in enumerate(lines) if line.startswith("findings by month range"))
+    grouped = [line for line in lines[findings:] if line.startswith("  2024-10–2024-12")]
+    assert any("age PSI" in line and line.endswith("alert") for line in grouped)
+    assert any(line.startswith("  2025-01–2025-02") and "no rows" in line for line in lines[findings:])
+
+
 def test_a_wide_terminal_shows_more_columns(quiet, tmp_path, capsys, monkeypatch):
     spec = baseline_spec(quiet, tmp_path, capsys)
     monkeypatch.setattr(terminal.out, "_width", 140)
@@ -107,12 +128,13 @@ def test_thresholds_file_changes_the_statuses(shifted, tmp_path, capsys):
 
 def test_baseline_from_a_table_or_months_on_the_command_line(quiet, capsys):
     assert monitor(quiet, str(SPEC_PATH), "--baseline-table", "development") == 0
-    assert "baseline  table development: 1,800 rows" in capsys.readouterr().out
+    assert "  baseline     table development: 1,800 rows" in capsys.readouterr().out
     assert monitor(quiet, str(SPEC_PATH), "--baseline-months", "2024-01:2024-06") == 0
-    assert "baseline  months 2024-01 to 2024-06 of book: 1,800 rows" in capsys.readouterr().out
+    assert "  baseline     months 2024-01 to 2024-06 of book: 1,800 rows" in capsys.readouterr().out
 
 
 @pytest.mark.parametrize("arguments, message", [
+    (["--expected-rows", "lots"], "--expected-rows 'lots': give trailing, development or a positive monthly count"),
     (["--as-of", "31.12.2024"], "error: --as-of '31.12.2024' is not a date; write it as YYYY-MM-DD"),
     (["--baseline-months", "2024-06:2024-01"], "the end comes before the start"),
     (["--baseline-months", "2024-6"], "is not a month; write it as YYYY-MM"),
@@ -141,3 +163,22 @@ def test_baseline_refuses_to_overwrite_the_spec(quiet, tmp_path, capsys):
     assert code == 2
     assert "is the spec itself; a spec is never overwritten in place" in capsys.readouterr().err
     assert copy.read_text() == SPEC_PATH.read_text()
+
+
+def test_the_calibration_test_says_its_sides_and_volume_its_rule(quiet, tmp_path, capsys):
+    spec = baseline_spec(quiet, tmp_path, capsys)
+    monitor(quiet, spec, "--expected-rows", "300")
+    out = capsys.readouterr().out
+    assert "Jeffreys and binomial tests one-sided" in out and "volume against the expected 300 rows a month" in out
+    monitor(quiet, spec, "--two-sided", "--expected-rows", "development")
+    out = capsys.readouterr().out
+    assert "tests two-sided" in out and "volume against the development rows per month (300)" in out
+
+
+def test_the_json_carries_scoremon_version_and_the_row_count(quiet, tmp_path, capsys):
+    spec = baseline_spec(quiet, tmp_path, capsys)
+    json_path = tmp_path / "run.json"
+    monitor(quiet, spec, "--json", str(json_path))
+    data = json.loads(json_path.read_text())
+    assert data["scoremon_version"] == version("scoremon")  # the distribution's own metadata
+    assert data["rows"] == 12 * 300  # the book: 12 months of 300 rows

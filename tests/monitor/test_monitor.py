@@ -209,7 +209,9 @@ def test_a_month_without_rows_a_feature_always_missing_and_empty_grades(engine):
     report = api.monitor(spec, engine, "book", "application_month", date(2025, 12, 31), "bad",
                          baseline_months=(Month(2024, 1), Month(2024, 2)), record_history=False)
     months = {m.month: m for m in report.months}
-    assert list(months) == ["2024-01", "2024-02", "2024-03", "2024-04", "2024-05", "2024-06"]
+    # every month to the as-of month 2025-12, the empty ones after the last with rows included
+    assert list(months)[:6] == ["2024-01", "2024-02", "2024-03", "2024-04", "2024-05", "2024-06"]
+    assert len(months) == 24 and months["2025-12"].rows == 0
     empty = months["2024-03"]
     assert empty.rows == 0 and empty.volume_change == pytest.approx(-1.0) and empty.volume_status == "alert"
     assert empty.score_psi is None and empty.calibration is None and empty.discrimination is None
@@ -355,3 +357,49 @@ def test_a_first_run_that_fails_creates_no_history_tables(engine, loaded, monkey
 def test_the_readable_copy_of_the_history_tables_is_current():
     # regenerate on purpose with: python -m scoremon.monitor.history > sql/monitor_history.sql
     assert (ROOT / "sql" / "monitor_history.sql").read_text() == history.history_ddl_text()
+
+
+# ---------------------------------------------------------------- volume, empty months, two-sided tests
+
+
+def test_volume_is_judged_against_the_books_own_trailing_months(engine, book):
+    # a development sample of a third of the book: 100 rows a month against 300 in the book
+    load_book(engine, "book", book)
+    engine.execute(tree("CREATE TABLE development AS SELECT * FROM book WHERE application_month < DATE '2024-07-01' "
+                        "AND hash(age, utilisation, region_code) % 3 = 0"), "sampling a third")
+    spec = api.load_spec(SPEC_PATH)
+    baseline = api.measure_development(spec, engine, api.source_relation(table="development"), "bad",
+                                       "application_month", "table development")
+    spec = spec.model_copy(update={"baseline": baseline})
+    trailing = run(engine, spec)
+    # the first month has no earlier month to compare with; later ones the median of up to six
+    # earlier months: 300 rows each (hand-worked from the book's 300 rows a month)
+    assert trailing.months[0].expected_rows is None and trailing.months[0].volume_status is None
+    assert [m.expected_rows for m in trailing.months[1:]] == [300.0] * 11
+    assert {m.volume_status for m in trailing.months[1:]} == {"ok"}
+    development = run(engine, spec, expected_rows="development")
+    assert {m.volume_status for m in development.months} == {"alert"}
+    given = run(engine, spec, expected_rows=400.0)
+    assert [m.volume_change for m in given.months] == pytest.approx([-0.25] * 12)
+    assert "trailing" in trailing.volume_rule and "400" in given.volume_rule
+
+
+def test_months_without_rows_up_to_the_as_of_month_are_listed_and_flagged(engine):
+    load_book(engine, "book", make_book(months=6, rows_per_month=200, seed=5))
+    spec = api.load_spec(SPEC_PATH)
+    report = api.monitor(spec, engine, "book", "application_month", date(2024, 9, 30), "bad",
+                         baseline_months=(Month(2024, 1), Month(2024, 3)), record_history=False)
+    months = {m.month: m for m in report.months}
+    assert list(months)[-4:] == ["2024-06", "2024-07", "2024-08", "2024-09"]
+    for label in ("2024-07", "2024-08", "2024-09"):
+        assert months[label].rows == 0 and months[label].volume_status == "alert" and months[label].status == "alert"
+
+
+def test_calibration_is_one_sided_by_default_and_two_sided_when_asked(engine, loaded):
+    one, two = run(engine, loaded), run(engine, loaded, two_sided=True)
+    assert one.calibration_test == "one-sided" and two.calibration_test == "two-sided"
+    month = two.latest_mature_month.calibration
+    # two-sided Jeffreys: twice the smaller tail of Beta(D+½, N−D+½) at the mean PD (scipy, live)
+    upper = stats.beta.cdf(month.mean_pd, month.events + 0.5, month.rows - month.events + 0.5)
+    assert month.jeffreys_p == pytest.approx(min(1.0, 2 * min(upper, 1 - upper)), rel=1e-9)
+    assert one.latest_mature_month.calibration.jeffreys_p == pytest.approx(upper, rel=1e-9)

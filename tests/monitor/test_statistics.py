@@ -193,3 +193,21 @@ def test_brier_hand_worked():
     # hand-worked: p = (0.2, 0.5, 0.8), y = (0, 1, 1): (0.04 + 0.25 + 0.04) / 3 = 0.11
     assert brier(0.33, 3) == pytest.approx(0.11)
     assert brier(0.0, 0) is None
+
+
+# Two-sided calibration tests: the equal-tailed p-value, twice the smaller one-sided tail,
+# capped at 1 (common practice for an interval-style two-sided test). The one-sided tails are
+# live calls into scipy: the Beta(D+½, N−D+½) distribution at the PD (ECB 2019 §2.5, Jeffreys)
+# and the binomial's lower and upper tails.
+@pytest.mark.parametrize("rows, events, pd", [(1000, 10, 0.005), (1000, 1, 0.02), (6, 2, 0.0367), (100, 0, 0.0003)])
+def test_two_sided_p_values_take_both_tails(rows, events, pd):
+    upper = stats.beta.cdf(pd, events + 0.5, rows - events + 0.5)
+    assert jeffreys_p(rows, events, pd, two_sided=True) == pytest.approx(min(1.0, 2 * min(upper, 1 - upper)), rel=1e-12)
+    above, below = stats.binom.sf(events - 1, rows, pd), stats.binom.cdf(events, rows, pd)
+    assert binomial_p(rows, events, pd, two_sided=True) == pytest.approx(min(1.0, 2 * min(above, below)), rel=1e-12)
+
+
+def test_an_over_estimating_model_reads_ok_one_sided_and_not_two_sided():
+    # 1 event in 1,000 rows at a PD of 2 %: far fewer events than predicted
+    assert jeffreys_p(1000, 1, 0.02) > 0.99
+    assert jeffreys_p(1000, 1, 0.02, two_sided=True) < 0.001

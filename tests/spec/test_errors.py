@@ -32,6 +32,12 @@ CASES = [
     ('bins_overlap', [
         '22:10: features[0].bins[2].lower: overlaps bins[1], which runs to 40; set this lower edge to 40',
     ]),
+    ('edge_too_many_digits', [
+        '22:21: features[0].bins[2].upper: edge 9007199254740993 has more digits than a double holds and reads '
+        'as 9007199254740992; write 9007199254740992 (or an edge with at most 15 significant digits)',
+        '23:10: features[0].bins[3].lower: edge 9007199254740993 has more digits than a double holds and reads '
+        'as 9007199254740992; write 9007199254740992 (or an edge with at most 15 significant digits)',
+    ]),
     ('category_in_two_groups', [
         "28:37: features[1].groups[1].values[1]: category 'N2' is already in group 'north'; a category "
         'belongs to one group only',
@@ -180,7 +186,7 @@ CASES = [
         "25:11: features[1].type: unknown feature type 'categorial'; did you mean 'categorical'?",
     ]),
     ('unknown_key_no_match', [
-        "15:3: scaling.colour: unknown key 'colour'; valid keys here: base_score, base_odds, pdo, rounding",
+        "15:3: scaling.colour: unknown key 'colour'; valid keys here: base_score, base_odds, pdo, rounding, pd_from",
     ]),
     ('unknown_key_typo', [
         "18:5: features[0].coeficient: unknown key 'coeficient'; did you mean 'coefficient'?",

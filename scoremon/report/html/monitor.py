@@ -113,7 +113,7 @@ def _overview(report: MonitorReport) -> Section:
 # ---------------------------------------------------------------- 2 score bands
 
 def _bands(report: MonitorReport) -> Section:
-    latest = report.months[-1]
+    latest = report.latest_month_with_rows
     bands = latest.score_bands
     if not bands:
         return Section("Score bands", (paragraph("The baseline has no score bands."),), key="bands")
@@ -230,7 +230,7 @@ def _grid(report: MonitorReport) -> Section:
 # ---------------------------------------------------------------- 5 mean score shift
 
 def _waterfall(report: MonitorReport) -> Section:
-    latest = report.months[-1]
+    latest = report.latest_month_with_rows
     shifts = [(c.feature, c.points_shift) for c in latest.characteristics if c.points_shift is not None]
     if latest.mean_score is None or latest.mean_score_shift is None:
         return Section("Mean score shift", (paragraph("The latest month has no mean score."),), key="shift")

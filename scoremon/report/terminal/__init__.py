@@ -61,7 +61,8 @@ def print_text(text: str) -> None:
 def print_check_ok(path: str, spec, fingerprint: str) -> None:
     m = spec.model
     out.print("[green]ok[/green] " + escape(f"{path}: {m.name} version {m.version}, {len(spec.features)} features, "
-                                            f"{len(spec.grades)} grades, fingerprint {fingerprint}"), soft_wrap=True)
+                                            f"{len(spec.grades)} grades, rounding {spec.scaling.rounding}, "
+                                            f"{spec.scaling.reported_pd_words}, fingerprint {fingerprint}"), soft_wrap=True)
 
 
 @contextmanager

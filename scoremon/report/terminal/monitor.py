@@ -1,10 +1,11 @@
-"""The terminal view of ``scoremon monitor``: who and against what, one line per month, the
-characteristics that drift, what drives the score shift, data-quality findings, calibration
-by grade for the latest mature month, notes and the cautions.
+"""The terminal view of ``scoremon monitor``: who and against what, the characteristics that
+drift, one line per month saying what put it on watch or alert (each family with its worst
+figure), the findings grouped into month ranges, what drives the score shift, calibration by
+grade for the latest mature month, notes and the cautions.
 
-Reads well at 80 columns; from 90 columns the month table adds the data-quality status, and
-from 110 the mean score shift, events against PD and the AUC. Every figure is in the JSON
-(``--json``).
+Reads well at 80 columns; from 90 columns the month table adds the volume change and the score
+PSI, and from 110 the mean score shift, events against PD and the AUC. Every figure is in the
+JSON (``--json``).
 """
 from __future__ import annotations
 
@@ -71,11 +72,11 @@ def print_monitor_report(report, history_written: bool = True, indent: int = 0) 
     view = Indented(indent)
     _header(view, report, history_written)
     out.print()
+    _drifts(view, report)
     _months(view, report)
     out.print()
-    _drifts(view, report)
-    _drivers(view, report)
     _findings(view, report)
+    _drivers(view, report)
     _calibration(view, report)
     if report.notes:
         view.emit(Text("notes", style="bold"), 0)
@@ -98,6 +99,12 @@ def _header(view: Indented, report, history_written: bool) -> None:
                           f"{report.performance_window_months} months")
     expected = "" if report.expected_monthly_rows is None else f", {report.expected_monthly_rows:,.0f} rows a month"
     facts.add_row("baseline", f"{report.baseline_source}: {report.baseline_rows:,} rows{expected}")
+    if report.volume_rule:
+        facts.add_row("volume", report.volume_rule)
+    sides = ("one-sided: only more events than the PD predicts is flagged, so an over-estimating model reads "
+             "ok (--two-sided tests both ways)") if report.calibration_test == "one-sided" else \
+        "two-sided: events far above or far below the PD are flagged"
+    facts.add_row("calibration", f"Jeffreys and binomial tests {sides}")
     alerts = sum(1 for m in report.months if m.status == "alert")
     watches = sum(1 for m in report.months if m.status == "watch")
     verdict = Text.assemble(_status(report.status), f"  {len(report.months)} months: {alerts} on alert, "
@@ -111,47 +118,99 @@ def _header(view: Indented, report, history_written: bool) -> None:
     view.emit(facts)
 
 
-def _back_test(month) -> Text:
-    """Calibration and discrimination status side by side, or why there are none."""
-    if month.maturity == "immature":
-        return _status("immature")
-    if month.calibration is None:
-        return _status("no outcome" if month.rows else None)
-    return Text.assemble(_status(month.calibration_status), " ", _status(month.discrimination_status))
-
-
 def _months(view: Indented, report) -> None:
+    """One row per month; the last column says what put the month on watch or alert."""
     width = view.width
     roomy, wide = width >= ROOMY, width >= WIDE
     rows_width = max([len(f"{m.rows:,}") for m in report.months] + [4])
-    columns = [("month", "left", 7), ("rows", "right", rows_width), ("vol.", "right", 5), ("PSI", "right", 5),
-               ("worst characteristic", "left"), ("PSI", "right", 5)] + ([("DQ", "left", 5)] if roomy else []) + \
-              [("calib discr", "left", 11)]
+    columns = [("month", "left", 7), ("rows", "right", rows_width)]
+    if roomy:
+        columns += [("vol.", "right", 5), ("PSI", "right", 5)]
     if wide:
-        columns[4:4] = [("Δ score", "right", 7)]
-        columns += [("events / PD", "right", 13), ("AUC", "right", 5)]
-    columns.append(("status", "left", 6))
+        columns += [("Δ score", "right", 7), ("events / PD", "right", 13), ("AUC", "right", 5)]
+    columns += [("status", "left", 8)]
     table = _table(view, *columns)
+    table.add_column("why: family and its worst figure", justify="left", overflow="fold")
     for m in report.months:
-        psi = Text(_number(m.score_psi), style=STATUS_STYLE.get(m.score_psi_status or "", ""))
-        top = m.worst_characteristic
-        name = Text("–" if top is None else top.feature)
-        top_psi = Text("–") if top is None else Text(_number(top.psi), style=STATUS_STYLE.get(top.status or "", ""))
-        cells = [m.month, f"{m.rows:,}", Text(_signed_pct(m.volume_change), style=STATUS_STYLE.get(m.volume_status or "", "")),
-                 psi, name, top_psi] + ([_status(m.data_quality_status)] if roomy else []) + [_back_test(m)]
+        cells = [m.month, f"{m.rows:,}"]
+        if roomy:
+            cells += [Text(_signed_pct(m.volume_change), style=STATUS_STYLE.get(m.volume_status or "", "")),
+                      Text(_number(m.score_psi), style=STATUS_STYLE.get(m.score_psi_status or "", ""))]
         if wide:
-            cells[4:4] = [_points(m.mean_score_shift)]
             calibration = m.calibration
             ratio = "–" if calibration is None or calibration.event_rate is None else \
                 f"{_pct(calibration.event_rate)} / {_pct(calibration.mean_pd)}"
-            auc = "–" if m.discrimination is None else _number(m.discrimination.auc)
-            cells += [ratio, auc]
-        cells.append(_status(m.status))
+            cells += [_points(m.mean_score_shift), ratio, "–" if m.discrimination is None else _number(m.discrimination.auc)]
+        cells += [_status(m.status), _why(m)]
         table.add_row(*cells)
     view.emit(table)
-    view.emit(Text("PSI: score bands, then the worst characteristic; " + ("DQ: data quality; " if roomy else "")
-               + "calib discr: calibration and discrimination, on mature months; status: the worst of all",
-               style="dim"))
+    view.emit(Text("why: per family on watch or alert, its worst figure, drifting characteristics first; "
+               "immature: outcomes not known yet, so no calibration or discrimination"
+               + ("; vol.: rows against the expected rows; PSI: score bands" if roomy else ""), style="dim"))
+
+
+FAMILY_ORDER = ("stability", "data quality", "calibration", "discrimination")
+
+
+def _month_findings(m) -> list[tuple[str, str, str, float, str]]:
+    """Every figure of month ``m`` on watch or alert: (family, what, figure, size, status).
+
+    ``what`` names the finding the same way every month (so repeats group into ranges);
+    ``size`` orders findings of one family, largest first.
+    """
+    found = []
+
+    def add(family, what, figure, size, status):
+        if status in ("watch", "alert"):
+            found.append((family, what, figure, abs(size or 0.0), status))
+
+    for c in m.characteristics:
+        add("stability", f"{c.feature} PSI", _number(c.psi), c.psi, c.status)
+    add("stability", "score PSI", _number(m.score_psi), m.score_psi, m.score_psi_status)
+    if not m.rows:
+        add("data quality", "no rows", "", 1.0, m.volume_status)
+    else:
+        add("data quality", "volume", _signed_pct(m.volume_change), m.volume_change, m.volume_status)
+    for q in m.quality:
+        for figure, words in (("missing_rate", "missing"), ("unseen_rate", "unseen"), ("catch_all_share", "catch-all")):
+            change = getattr(q, f"{figure}_change")
+            add("data quality", f"{q.feature} {words}",
+                f"{_pct(getattr(q, figure))} ({change * 100:+.1f} pts)".replace("-", "−") if change is not None else "–",
+                change, getattr(q, f"{figure}_status"))
+    c = m.calibration
+    if c is not None:
+        add("calibration", "events", f"{_pct(c.event_rate)} vs PD {_pct(c.mean_pd)}",
+            1.0 - (c.jeffreys_p or 0.0), worst_of(c.status, None))
+        add("calibration", "grade chi-square", f"p {_p(c.chi_square_p)}", 1.0 - (c.chi_square_p or 0.0),
+            c.chi_square_status if c.chi_square_status == "alert" else None)
+    d = m.discrimination
+    if d is not None:
+        add("discrimination", "AUC change", _number(d.auc_change), d.auc_change, d.status)
+    found.sort(key=lambda f: (FAMILY_ORDER.index(f[0]), -STATUS_RANK[f[4]], -f[3]))
+    return found
+
+
+STATUS_RANK = {"watch": 1, "alert": 2}
+
+
+def worst_of(*statuses):
+    flagged = [s for s in statuses if s in STATUS_RANK]
+    return max(flagged, key=STATUS_RANK.get) if flagged else None
+
+
+def _why(m) -> Text:
+    """Each family on watch or alert with its worst figure, in :data:`FAMILY_ORDER`."""
+    parts, seen = [], set()
+    for family, what, figure, _, status in _month_findings(m):
+        if family in seen:
+            continue
+        seen.add(family)
+        if parts:
+            parts.append("; ")
+        parts.append((f"{family}: {what} {figure}".rstrip(), STATUS_STYLE[status]))
+    if m.maturity == "immature" and m.rows:
+        parts.append(("; immature" if parts else "immature", "dim"))
+    return Text.assemble(*parts) if parts else Text("–", style="dim")
 
 
 def _drifts(view: Indented, report) -> None:
@@ -193,30 +252,39 @@ def _drivers(view: Indented, report) -> None:
 
 
 def _findings(view: Indented, report) -> None:
-    lines = []
-    for m in report.months:
-        if m.volume_status in ("watch", "alert"):
-            lines.append((m.month, "volume", f"{m.rows:,} rows", _signed_pct(m.volume_change), m.volume_status))
-        for q in m.quality:
-            for figure, words in (("missing_rate", "missing"), ("unseen_rate", "unseen categories"),
-                                  ("catch_all_share", "catch-all bin")):
-                status = getattr(q, f"{figure}_status")
-                if status in ("watch", "alert"):
-                    change = getattr(q, f"{figure}_change")
-                    lines.append((m.month, f"{q.feature} {words}", _pct(getattr(q, figure)),
-                                  f"{change * 100:+.1f} pts".replace("-", "−"), status))
-    if not lines:
-        view.emit(Text.assemble(("data quality", "bold"), "  no finding past its thresholds"), 0)
+    """Every finding, a run of consecutive months with the same finding on one line (its range,
+    its worst figure and status), drifting characteristics first."""
+    runs: list[dict] = []
+    open_runs: dict[tuple, dict] = {}
+    for position, m in enumerate(report.months):
+        for family, what, figure, size, status in _month_findings(m):
+            key = (family, what)
+            run = open_runs.get(key)
+            if run is None or run["last_position"] != position - 1:
+                run = {"family": family, "what": what, "first": m.month, "last": m.month, "figure": figure,
+                       "size": size, "status": status, "months": 0, "last_position": position}
+                runs.append(run)
+                open_runs[key] = run
+            run.update(last=m.month, last_position=position, months=run["months"] + 1)
+            if (STATUS_RANK[status], size) > (STATUS_RANK[run["status"]], run["size"]):
+                run.update(figure=figure, size=size, status=status)
+    if not runs:
+        view.emit(Text.assemble(("findings", "bold"), "  none past its thresholds"), 0)
         out.print()
         return
-    view.emit(Text(f"data quality findings ({len(lines)})", style="bold"), 0)
-    table = _table(view, ("month", "left", 7), ("what", "left"), ("now", "right", 7), ("change", "right", 10),
+    runs.sort(key=lambda r: (FAMILY_ORDER.index(r["family"]), r["first"], r["what"]))
+    view.emit(Text(f"findings by month range ({len(runs)})", style="bold"), 0)
+    figure_width = max(len(r["figure"]) for r in runs)
+    table = _table(view, ("months", "left", 15), ("family", "left", 12), ("what", "left"), ("worst", "right", figure_width),
                    ("status", "left", 6))
-    for month, what, now, change, status in lines[:MOST_FINDINGS]:
-        table.add_row(month, what, now, change, _status(status))
+    what = table.columns[2]
+    what.no_wrap, what.overflow = False, "fold"  # a long feature name wraps rather than losing its end
+    for r in runs[:MOST_FINDINGS]:
+        months = r["first"] if r["first"] == r["last"] else f"{r['first']}–{r['last']}"
+        table.add_row(months, r["family"], r["what"], r["figure"] or "–", _status(r["status"]))
     view.emit(table)
-    if len(lines) > MOST_FINDINGS:
-        view.emit(Text(f"… and {len(lines) - MOST_FINDINGS} more (every figure is in --json)", style="dim"))
+    if len(runs) > MOST_FINDINGS:
+        view.emit(Text(f"… and {len(runs) - MOST_FINDINGS} more (every figure is in --json)", style="dim"))
     out.print()
 
 

@@ -26,6 +26,8 @@ def print_score_result(result) -> None:
     out.print(escape(f"scored {result.rows:,} rows into {result.target} in {result.seconds:.2f} s"))
     out.print(escape(f"model {result.model_name} version {result.model_version}, "
                      f"fingerprint {result.model_fingerprint}"))
+    if result.pd_source:
+        out.print(escape(f"pd: {result.pd_source} (the spec's scaling.pd_from)"))
     out.print()
     out.print(grade_table(result.grade_counts))
     out.print()

@@ -91,15 +91,81 @@ WITH "binned" AS (
     "utilisation_points",
     "__scoremon_eta",
     CAST(544.830677840064 AS DOUBLE) + "age_points" + "region_points" + "utilisation_points" AS "score",
-    CAST(17.312340490667562 AS DOUBLE) - (
-      "age_points"
-    ) AS "__scoremon_shortfall_0",
-    CAST(2.885390081777927 AS DOUBLE) - (
-      "region_points"
-    ) AS "__scoremon_shortfall_1",
-    CAST(-0.0 AS DOUBLE) - (
-      "utilisation_points"
-    ) AS "__scoremon_shortfall_2"
+    CASE
+      WHEN (
+        CAST(17.312340490667562 AS DOUBLE) - (
+          "age_points"
+        )
+      ) * CAST(1000000000.0 AS DOUBLE) >= CAST(4503599627370496.0 AS DOUBLE)
+      THEN (
+        CAST(17.312340490667562 AS DOUBLE) - (
+          "age_points"
+        )
+      ) * CAST(1000000000.0 AS DOUBLE)
+      WHEN (
+        CAST(17.312340490667562 AS DOUBLE) - (
+          "age_points"
+        )
+      ) * CAST(1000000000.0 AS DOUBLE) < CAST(0.5 AS DOUBLE)
+      THEN CAST(0.0 AS DOUBLE)
+      ELSE CAST(FLOOR(
+        (
+          CAST(17.312340490667562 AS DOUBLE) - (
+            "age_points"
+          )
+        ) * CAST(1000000000.0 AS DOUBLE) + CAST(0.5 AS DOUBLE)
+      ) AS DOUBLE)
+    END AS "__scoremon_shortfall_0",
+    CASE
+      WHEN (
+        CAST(2.885390081777927 AS DOUBLE) - (
+          "region_points"
+        )
+      ) * CAST(1000000000.0 AS DOUBLE) >= CAST(4503599627370496.0 AS DOUBLE)
+      THEN (
+        CAST(2.885390081777927 AS DOUBLE) - (
+          "region_points"
+        )
+      ) * CAST(1000000000.0 AS DOUBLE)
+      WHEN (
+        CAST(2.885390081777927 AS DOUBLE) - (
+          "region_points"
+        )
+      ) * CAST(1000000000.0 AS DOUBLE) < CAST(0.5 AS DOUBLE)
+      THEN CAST(0.0 AS DOUBLE)
+      ELSE CAST(FLOOR(
+        (
+          CAST(2.885390081777927 AS DOUBLE) - (
+            "region_points"
+          )
+        ) * CAST(1000000000.0 AS DOUBLE) + CAST(0.5 AS DOUBLE)
+      ) AS DOUBLE)
+    END AS "__scoremon_shortfall_1",
+    CASE
+      WHEN (
+        CAST(-0.0 AS DOUBLE) - (
+          "utilisation_points"
+        )
+      ) * CAST(1000000000.0 AS DOUBLE) >= CAST(4503599627370496.0 AS DOUBLE)
+      THEN (
+        CAST(-0.0 AS DOUBLE) - (
+          "utilisation_points"
+        )
+      ) * CAST(1000000000.0 AS DOUBLE)
+      WHEN (
+        CAST(-0.0 AS DOUBLE) - (
+          "utilisation_points"
+        )
+      ) * CAST(1000000000.0 AS DOUBLE) < CAST(0.5 AS DOUBLE)
+      THEN CAST(0.0 AS DOUBLE)
+      ELSE CAST(FLOOR(
+        (
+          CAST(-0.0 AS DOUBLE) - (
+            "utilisation_points"
+          )
+        ) * CAST(1000000000.0 AS DOUBLE) + CAST(0.5 AS DOUBLE)
+      ) AS DOUBLE)
+    END AS "__scoremon_shortfall_2"
   FROM "pointed"
 ), "best_1" AS (
   SELECT
