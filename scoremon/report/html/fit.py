@@ -33,6 +33,7 @@ from .page import (
     tag,
 )
 
+COEFFICIENT_COLUMNS = 5  # characteristics per table of path coefficients
 STATUS_WORDS = {"converged": "converged", "separation": "quasi-separation: coefficients run away",
                 "no_convergence": "did not converge"}
 
@@ -270,15 +271,21 @@ def _path(report: FitReport) -> Section:
                f"there: λ {report.chosen_lambda:.3g} was chosen"
                + (f", with {at.nonzero} of {len(names)} characteristics, {s.cv_metric} "
                   f"{at.cv_mean:.4f} ± {at.cv_sd / math.sqrt(s.folds):.4f}." if at else "."))
-    header = ["λ", "log10 λ", "non-zero", f"CV {s.cv_metric}", "± standard error", "fit", "mark"] + names
     rows = []
     for step, error in zip(steps, errors):
         mark_words = "chosen" if step.lam == report.chosen_lambda else "best mean" if step.lam == report.best_lambda \
             else ""
         rows.append([f"{step.lam:.4g}", number(_log10(step.lam), 2), str(step.nonzero), number(step.cv_mean, 4),
-                     number(error, 4), STATUS_WORDS.get(step.status, step.status), mark_words]
-                    + [number(v, 4) for v in step.coefficients])
-    numbers = table(header, rows, [True, True, True, True, True, False, False] + [True] * len(names))
+                     number(error, 4), STATUS_WORDS.get(step.status, step.status), mark_words])
+    tables = [table(["λ", "log10 λ", "non-zero", f"CV {s.cv_metric}", "± standard error", "fit", "mark"], rows,
+                    [True, True, True, True, True, False, False])]
+    # the coefficients in tables of a few characteristics each, so that a printed page holds them
+    for first in range(0, len(names), COEFFICIENT_COLUMNS):
+        part = names[first:first + COEFFICIENT_COLUMNS]
+        tables.append(table(["λ"] + part, [[f"{step.lam:.4g}"] + [number(v, 4) for v in
+                                                                 step.coefficients[first:first + len(part)]]
+                                          for step in steps], [True] * (len(part) + 1)))
+    numbers = join(tables)
     intro = (f"{s.penalty} penalty (α = {s.alpha:g}) over {len(steps)} values of λ from λ_max "
              f"{report.lambda_max:.4g} down to {steps[-1].lam:.4g}; error bars are one standard error of the mean "
              f"over the {s.folds} folds (their standard deviation / √{s.folds})"
