@@ -15,6 +15,7 @@ import pytest
 
 from scoremon import api
 from scoremon.report.cautions import CAUTIONS
+from scoremon.report.html.fit import COEFFICIENT_COLUMNS
 from scoremon.spec import fingerprint
 
 REPORTS = ("monitor", "diff", "pack", "pack_two_versions", "fit", "fit_penalised")
@@ -154,9 +155,11 @@ def test_penalised_fit_report_draws_the_path_and_marks_the_chosen_lambda(demo_re
     page = " ".join(parsed(demo_reports.fit_penalised).text)
     assert 'id="path-' in text and "Not penalised" not in page
     assert f"λ {report.chosen_lambda:.3g} was chosen" in page
-    # the path's numbers: one row per λ, the chosen one marked in words
+    # the path's numbers: one row per λ in the path table and in each table of coefficients
+    # (a few characteristics each), the chosen λ marked in words
     rows = re.findall(r"<tr><td class=\"n\">[0-9.e+-]+</td>", text)
-    assert len(rows) == len(report.path)
+    tables = 1 + -(-len(report.characteristics) // COEFFICIENT_COLUMNS)
+    assert len(rows) == len(report.path) * tables
     assert ">chosen</td>" in text
     d = report.discrimination
     assert f"Gini {d.gini:.3f}" in page and f"KS {d.ks:.3f}" in page
