@@ -25,6 +25,7 @@ from scoremon.errors import InputError
 from scoremon.monitor.history import METRICS_TABLE, RUNS_TABLE
 from scoremon.report import terminal
 from scoremon.report.html.diff import diff_html
+from scoremon.report.html.fit import fit_html
 from scoremon.report.html.monitor import monitor_html
 from scoremon.report.html.pack import pack_html
 from scoremon.report.json import to_json
@@ -51,6 +52,7 @@ MONITOR_JSON_FILE = "monitor_v1.json"
 MONITOR_HTML_FILE = "monitor_v1.html"
 DIFF_HTML_FILE = "diff_v1_v2.html"
 PACK_HTML_FILE = "history_pack.html"
+FIT_HTML_FILE = "fit_report.html"
 
 
 @dataclass
@@ -111,14 +113,16 @@ def develop_model(run: DemoRun) -> StepOutcome:
         report = api.fit_development(engine, binned.binning, api.FitSettings(key=generate.KEY_COLUMN),
                                      api.Naming(name="quillfield_application", version="fitted"),
                                      run.folder / FITTED_SPEC_FILE, replace=True)
+        dialect = engine.dialect
     finally:
         engine.close()
+    files.write_text(run.folder / FIT_HTML_FILE, fit_html(report, dialect))
     d = report.discrimination
     return StepOutcome((
         f"binned {len(binned.binning.features)} characteristics of the development table (age and region left out "
         f"by policy), fitted {len(report.characteristics)} by Newton–Raphson: Gini {d.gini:.3f} on the development "
         f"rows, {d.cv_gini_mean:.3f} ± {d.cv_gini_sd:.3f} over 5 held-out folds. Wrote {bins.name} and "
-        f"{FITTED_SPEC_FILE}; the demo goes on with the reviewed version 1 (demo_warehouse/spec_v1.yaml).",
+        f"{FITTED_SPEC_FILE}, and the fit's report with charts, {FIT_HTML_FILE}; the demo goes on with the reviewed version 1 (demo_warehouse/spec_v1.yaml).",
     ))
 
 

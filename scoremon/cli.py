@@ -225,8 +225,11 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--event", help="what y = 1 means, in words")
     fit.add_argument("--performance-window", type=int, default=12, help="outcome window in months (default 12)")
     fit.add_argument("--out", required=True, metavar="SPEC.yaml", help="the new spec file")
-    fit.add_argument("--replace", action="store_true", help="replace --out if it exists")
+    fit.add_argument("--replace", action="store_true", help="replace --out, --json and --html files when they exist "
+                                                            "(without it, an existing output is an error)")
     fit.add_argument("--json", metavar="FILE", help="write the fit report as JSON")
+    fit.add_argument("--html", metavar="FILE", help="also write a report with charts, one self-contained HTML file, "
+                                                    "to FILE")
     fit.set_defaults(run="fit")
 
     monitor = commands.add_parser(

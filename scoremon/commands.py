@@ -235,6 +235,7 @@ def fit(args) -> int:
     kept = [("the binning file", args.binning), *outputs.kept_database(args.db)]
     out = _file_output(args.out, "--out", args.replace, kept)
     json_file = _file_output(args.json, "--json", args.replace, kept + [("--out", args.out)])
+    html_file = _file_output(args.html, "--html", args.replace, kept + [("--out", args.out), ("--json", args.json)])
     binning = api.read_binning(args.binning)
     alpha = api.penalty_alpha(args.penalty, args.alpha)
     settings = api.FitSettings(
@@ -255,6 +256,10 @@ def fit(args) -> int:
     if json_file is not None:
         files.write_text(json_file, to_json(report) + "\n")
     fit_view.print_fit_report(report)
+    if html_file is not None:
+        from .report.html.fit import fit_html  # the report modules: loaded only when a report is asked for
+
+        _write_html(html_file, lambda: fit_html(report, engine.dialect))
     return EXIT_OK
 
 

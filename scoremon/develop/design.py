@@ -34,7 +34,7 @@ import numpy as np
 from sqlglot import exp
 
 from ..compiler import bin_case, case, column, integer, number
-from ..monitor.queries import MONTH, OUTCOME, SCORE, discrimination_pass
+from ..monitor.queries import MONTH, OUTCOME, SCORE, discrimination_pass, read_curve
 from ..monitor.statistics import HistogramSums
 from ..spec.model import Grade, Identity, Scaling, Spec
 from ..spec.terms import feature_terms
@@ -196,6 +196,9 @@ def aggregates_per_model(columns: int) -> int:
     return columns + columns * (columns + 1) // 2 + 2
 
 
+Curve = tuple[tuple[tuple[float, float], ...], "tuple[float, float] | None"]  # ROC points, KS point
+
+
 class EnginePasses:
     """The passes of a fit run as aggregate queries in ``engine`` (see the module docstring).
 
@@ -242,9 +245,15 @@ class EnginePasses:
 
     def histograms(self, betas: Mapping[int, np.ndarray]) -> dict[int, HistogramSums]:
         """Per model its held-out rows' AUC/KS sums (model K: all rows), reduced in the engine."""
+        return self.histograms_and_curve(betas, 0)[0]
+
+    def histograms_and_curve(self, betas: Mapping[int, np.ndarray], points: int) -> tuple[dict[int, HistogramSums], Curve]:
+        """:meth:`histograms`, and from the same pass over all rows (model K) ``points`` points of
+        its ROC curve and its KS point (see :func:`~scoremon.monitor.queries.read_curve`)."""
         k = self.fold_count
         folded = {m: b for m, b in betas.items() if m < k}
         result = {}
+        curve: Curve = ((), None)
         design = _subquery(design_query(self.design), "design")
         if folded:
             eta = case([(exp.EQ(this=column(FOLD), expression=integer(m)), _eta(np.asarray(b, dtype=float)))
@@ -262,9 +271,12 @@ class EnginePasses:
                 exp.alias_(exp.Neg(this=exp.paren(_eta(np.asarray(betas[k], dtype=float)), copy=False)), SCORE,
                            quoted=True),
                 exp.alias_(column(Y), OUTCOME, quoted=True)).from_(design.copy()), "all_rows")
-            row = fetch_rows(self.engine, discrimination_pass(relation, None, False), "the development rows' AUC and KS")[0]
-            result[k] = HistogramSums(*[float(v) for v in row])
-        return result
+            row = fetch_rows(self.engine, discrimination_pass(relation, None, False, points),
+                             "the development rows' AUC and KS")[0]
+            result[k] = HistogramSums(*[float(v) for v in row[:7]])
+            if points:
+                curve = read_curve(row[7:], result[k].events, result[k].non_events)
+        return result, curve
 
 
 def moment_query(design: Design) -> exp.Select:

@@ -7,7 +7,7 @@ is made by :mod:`.spec_writer`.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Sequence
 
 import numpy as np
@@ -23,10 +23,11 @@ from .folds import check_key_kind
 from .newton import CONVERGED, NO_CONVERGENCE, SEPARATION, ModelFit, Penalty, SingularDesignError, fit_one
 from .outcome import RowFacts, check_rows, describe_columns, event_expression, plan_columns
 from .path import fit_path
-from .records import Characteristic, Discrimination, FitReport, FitSettings, Left, PathStep
+from .records import Bin, Characteristic, Discrimination, FitReport, FitSettings, Left, PathStep
 from .selection import select, variance_inflation
 
 PENALTIES = {"none": None, "l2": 0.0, "l1": 1.0, "elastic": None}
+CURVE_POINTS = 50  # ROC points kept for the report: one every 2 % of the development rows
 HIGH_IV = 0.5  # above this an IV suggests the outcome leaked into the characteristic (common practice)
 
 
@@ -129,7 +130,8 @@ def fit_binning(engine: Engine, source: exp.Expression, table: str, binning: Bin
         z = float(plain.coefficients[j] / se) if se else None
         rows.append(Characteristic(binned.name, binned.iv, float(final.coefficients[j]),
                                    float(plain.coefficients[j]) if inference else None, se, z,
-                                   float(2.0 * stats.norm.sf(abs(z))) if z is not None else None, float(vif[j - 1])))
+                                   float(2.0 * stats.norm.sf(abs(z))) if z is not None else None, float(vif[j - 1]),
+                                   tuple(Bin(c.label, c.rows, c.events, c.event_rate, c.woe) for c in binned.counts)))
 
     warnings += _warnings(binning, features, final, rows, chosen_point, path)
     if final.status != CONVERGED:
@@ -141,11 +143,12 @@ def fit_binning(engine: Engine, source: exp.Expression, table: str, binning: Bin
         intercept_unpenalised=float(plain.coefficients[0]) if inference else None,
         intercept_standard_error=float(errors[0]) if errors is not None else None,
         characteristics=tuple(rows),
-        left_out=chosen.left_out + tuple(
-            Left(r.name, "coefficient 0 at the chosen λ") for r in rows if r.coefficient == 0.0),
+        left_out=tuple(replace(left, iv=binning.feature(left.name).iv) for left in chosen.left_out) + tuple(
+            Left(r.name, "coefficient 0 at the chosen λ", r.iv) for r in rows if r.coefficient == 0.0),
         lambda_max=path.lambda_max if settings.penalty != "none" else None,
         chosen_lambda=chosen_point.lam, best_lambda=path.points[path.best].lam,
-        path=tuple(PathStep(pt.lam, pt.nonzero, pt.cv_mean, pt.cv_sd, pt.fit.status) for pt in path.points)
+        path=tuple(PathStep(pt.lam, pt.nonzero, pt.cv_mean, pt.cv_sd, pt.fit.status,
+                            tuple(float(b) for b in pt.fit.coefficients[1:])) for pt in path.points)
         if settings.penalty != "none" else (),
         discrimination=_discrimination(passes, chosen_point, settings.folds),
         status=final.status, warnings=tuple(warnings), passes=passes.count)
@@ -166,15 +169,15 @@ def _named(error: SingularDesignError, features: Sequence[BinnedFeature]) -> str
 def _discrimination(passes: EnginePasses, point, folds: int) -> Discrimination:
     models = {folds: point.fit.coefficients}
     models.update({m: f.coefficients for m, f in enumerate(point.folds)})
-    sums = passes.histograms(models)
+    sums, (roc, ks_point) = passes.histograms_and_curve(models, CURVE_POINTS)
     whole = discrimination(sums[folds])
     held = [discrimination(sums[m]) for m in range(len(point.folds))]
     held = [h for h in held if h is not None]
     if not held:
-        return Discrimination(whole.gini, whole.ks, None, None, None, None)
+        return Discrimination(whole.gini, whole.ks, None, None, None, None, roc, ks_point)
     gini, ks = [h.gini for h in held], [h.ks for h in held]
     sd = (lambda v: float(np.std(v, ddof=1)) if len(v) > 1 else None)
-    return Discrimination(whole.gini, whole.ks, float(np.mean(gini)), sd(gini), float(np.mean(ks)), sd(ks))
+    return Discrimination(whole.gini, whole.ks, float(np.mean(gini)), sd(gini), float(np.mean(ks)), sd(ks), roc, ks_point)
 
 
 def _warnings(binning: Binning, features: Sequence[BinnedFeature], final: ModelFit, rows, point, path) -> list[str]:

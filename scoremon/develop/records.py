@@ -1,4 +1,4 @@
-"""The typed records a fit produces: what the terminal, JSON and (later) HTML reports render.
+"""The typed records a fit produces: what the terminal, JSON and HTML reports render.
 
 Records hold values and plain-words warnings; renderers compute nothing. Field names are the
 JSON keys (:func:`scoremon.report.json.to_json`).
@@ -32,6 +32,17 @@ class FitSettings:
 
 
 @dataclass(frozen=True)
+class Bin:
+    """One bin of a characteristic as the binning file counted it on the development rows."""
+
+    label: str
+    rows: int
+    events: int
+    event_rate: float | None
+    woe: float
+
+
+@dataclass(frozen=True)
 class Characteristic:
     """One chosen characteristic: IV, fitted coefficient, and the unpenalised fit's inference.
 
@@ -49,6 +60,7 @@ class Characteristic:
     wald_z: float | None
     p_value: float | None
     vif: float
+    bins: tuple[Bin, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -60,6 +72,7 @@ class PathStep:
     cv_mean: float
     cv_sd: float
     status: str
+    coefficients: tuple[float, ...] = ()  # one per chosen characteristic, in their order; no intercept
 
 
 @dataclass(frozen=True)
@@ -72,6 +85,11 @@ class Discrimination:
     cv_gini_sd: float | None
     cv_ks_mean: float | None
     cv_ks_sd: float | None
+    # the ROC curve of the development rows, kept by the pass that measured Gini and KS: points
+    # (share of non-events, share of events) at or below a score, from (0, 0) to (1, 1), and the
+    # point where the two shares differ most (the KS)
+    roc: tuple[tuple[float, float], ...] = ()
+    ks_point: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -80,6 +98,7 @@ class Left:
 
     name: str
     reason: str
+    iv: float | None = None
 
 
 @dataclass(frozen=True)
@@ -108,3 +127,6 @@ class FitReport:
     passes: int                  # aggregate passes over the development rows
     spec_file: str = ""
     spec_fingerprint: str = ""
+    model_name: str = ""
+    model_version: str = ""
+    run_at: str = ""             # when the fit ran, UTC, ISO 8601

@@ -8,6 +8,7 @@ baseline on the same table in the same run and writes the new spec (:mod:`.spec_
 from __future__ import annotations
 
 import math
+from datetime import datetime, timezone
 from dataclasses import replace as replace_field
 from pathlib import Path
 from typing import Sequence
@@ -54,6 +55,7 @@ def fit_development(engine: Engine, binning: Binning, settings: FitSettings, nam
     :mod:`scoremon.develop.spec_writer`. Raises :class:`InputError` before any work when ``out``
     exists and ``replace`` is not given.
     """
+    run_at = datetime.now(timezone.utc).isoformat(timespec="seconds")
     out = Path(out)
     if out.exists() and not replace:
         raise InputError(f"--out {out} exists; give a new file name, or --replace to write over it")
@@ -71,4 +73,5 @@ def fit_development(engine: Engine, binning: Binning, settings: FitSettings, nam
         grades = grades_from_deciles(baseline, int(values[0]))
     spec = build_spec(fitted, naming, scaling, grades, baseline)
     written = write_spec(spec, out, replace, binning.file or "")
-    return replace_field(fitted.report, spec_file=str(written), spec_fingerprint=fingerprint(spec))
+    return replace_field(fitted.report, spec_file=str(written), spec_fingerprint=fingerprint(spec),
+                         model_name=spec.model.name, model_version=spec.model.version, run_at=run_at)

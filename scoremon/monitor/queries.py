@@ -330,12 +330,17 @@ def _running(value: exp.Expression, partition: list[exp.Expression], through_cur
                       order=order, spec=spec)
 
 
-def discrimination_pass(relation: exp.Expression, where: exp.Expression | None, by_month: bool) -> exp.Select:
+def discrimination_pass(relation: exp.Expression, where: exp.Expression | None, by_month: bool,
+                        curve: int = 0) -> exp.Select:
     """The score-value histogram of rows with a known outcome per month, reduced to
     :class:`~scoremon.monitor.statistics.HistogramSums` in the engine.
 
     Result columns: [month], events, non_events, pairs, gap_high, gap_low,
-    event_placement_squares, non_event_placement_squares.
+    event_placement_squares, non_event_placement_squares. With ``curve`` = n > 1 (and no
+    months), the same pass also keeps points of the ROC curve (see :func:`read_curve`): for
+    k = 1…n−1 the events and non-events at or below the last score value that holds at most
+    k/n of the rows, then the events and non-events at or below the score value of ``gap_high``
+    (the KS point).
     """
     month = [column(MONTH)] if by_month else []
     double = exp.DataType.build("DOUBLE")
@@ -366,7 +371,7 @@ def discrimination_pass(relation: exp.Expression, where: exp.Expression | None, 
     non_event_placement = exp.Sub(this=column("events_to"), expression=exp.Mul(this=half.copy(), expression=column("events")))
     placed = exp.select(
         *[c.copy() for c in month], column("events"), column("non_events"), column("events_total"),
-        column("non_events_total"),
+        column("non_events_total"), *([column("events_to"), column("non_events_to")] if curve else []),
         exp.alias_(gap, "gap", quoted=True),
         exp.alias_(event_placement, "event_placement", quoted=True),
         exp.alias_(non_event_placement, "non_event_placement", quoted=True),
@@ -387,8 +392,46 @@ def discrimination_pass(relation: exp.Expression, where: exp.Expression | None, 
         exp.alias_(weighted("events", "event_placement", True), "event_placement_squares", quoted=True),
         exp.alias_(weighted("non_events", "non_event_placement", True), "non_event_placement_squares", quoted=True),
     ]
+    if curve and not month:
+        selected += _curve_points(curve)
+        placed = exp.select(exp.Star(), exp.alias_(exp.Window(this=exp.Max(this=column("gap"))), "gap_top", quoted=True)
+                            ).from_(_subquery(placed, "placed"))
     query = exp.select(*selected).from_(_subquery(placed, "placed"))
     return query.group_by(*[c.copy() for c in month]) if month else query
+
+
+def _curve_points(points: int) -> list[exp.Expression]:
+    # running totals rise with the score, so the largest one under a condition on the running
+    # row count is the one at the last score value meeting it
+    rows_to = exp.paren(exp.Add(this=column("events_to"), expression=column("non_events_to")), copy=False)
+    rows_total = exp.paren(exp.Add(this=column("events_total"), expression=column("non_events_total")), copy=False)
+    selected = []
+    for k in range(1, points):
+        within = exp.LTE(this=exp.Mul(this=rows_to.copy(), expression=integer(points)),
+                         expression=exp.Mul(this=rows_total.copy(), expression=integer(k)))
+        for name in ("events_to", "non_events_to"):
+            selected.append(exp.alias_(exp.Max(this=case([(within.copy(), column(name))], exp.Null())),
+                                       f"curve_{name}_{k}", quoted=True))
+    at_top = exp.EQ(this=column("gap"), expression=column("gap_top"))
+    for name in ("events_to", "non_events_to"):
+        selected.append(exp.alias_(exp.Min(this=case([(at_top.copy(), column(name))], exp.Null())), f"ks_{name}",
+                                   quoted=True))
+    return selected
+
+
+def read_curve(values: Sequence, events: float, non_events: float
+               ) -> tuple[tuple[tuple[float, float], ...], tuple[float, float] | None]:
+    """The ROC points and the KS point from the curve columns of :func:`discrimination_pass`.
+
+    Each point is (share of non-events, share of events) at or below a score value — rows
+    below a cut-off are the ones a lender would decline — from (0, 0) to (1, 1)."""
+    if not events or not non_events:
+        return (), None
+    values = [0.0 if v is None else float(v) for v in values]
+    pairs = [(values[i + 1] / non_events, values[i] / events) for i in range(0, len(values) - 2, 2)]
+    points = tuple(sorted({(0.0, 0.0), *pairs, (1.0, 1.0)}))
+    ks = (values[-1] / non_events, values[-2] / events)
+    return points, ks
 
 
 def decile_edges_pass(relation: exp.Expression, where: exp.Expression | None = None) -> exp.Select:

@@ -114,3 +114,31 @@ def test_a_penalty_without_folds_and_folds_without_key_are_refused(development, 
     code, printed = _fit(capsys, url, bins, tmp_path / "x.yaml", "--drop", "incme")
     assert code == 2 and "--drop 'incme': no such characteristic in the binning file; did you mean 'income'?" in printed.err
     assert not (tmp_path / "x.yaml").exists()
+
+
+def test_html_report_is_written_and_an_existing_one_refused_before_any_work(development, tmp_path, capsys):
+    url, bins, _ = development
+    out, report = tmp_path / "model.yaml", tmp_path / "fit.html"
+    code, printed = _fit(capsys, url, bins, out, "--penalty", "l2", "--lambdas", "5", "--folds", "3",
+                         "--html", str(report))
+    assert code == 0, printed.err
+    assert f"wrote {report} (" in printed.out
+    first = report.read_text(encoding="utf-8")
+    assert first.startswith("<!DOCTYPE html>") and "Model fit report" in first
+    assert fingerprint(load_spec(out)) in first and "chosen λ" in first
+
+    # refused before any fit: the spec is not written again either
+    spec_text = out.read_text()
+    out.unlink()
+    code, printed = _fit(capsys, url, bins, out, "--html", str(report))
+    assert code == 2 and f"--html {report} exists; give --replace to replace it, or choose another name" in printed.err
+    assert not out.exists() and report.read_text(encoding="utf-8") == first
+
+    code, printed = _fit(capsys, url, bins, out, "--html", str(report), "--replace")
+    assert code == 0, printed.err
+    text = report.read_text(encoding="utf-8")
+    assert text != first and "Not penalised" in text and out.read_text() != spec_text
+
+    # the report may not be written over an input or another output of the same run
+    code, printed = _fit(capsys, url, bins, tmp_path / "other.yaml", "--html", str(bins), "--replace")
+    assert code == 2 and f"--html {bins} is the binning file" in printed.err

@@ -199,7 +199,7 @@ footer.cautions h2 {{ margin:0 0 4px; font-size:15px; }}
   nav.contents {{ display:none; }}
   section {{ break-before:page; page-break-before:always; border-bottom:0; }}
   section:first-of-type {{ break-before:auto; page-break-before:auto; }}
-  section h2 {{ break-after:avoid; }}
+  section h2, section h3 {{ break-after:avoid; page-break-after:avoid; }}
   /* a chart never splits, and its caption stays with it; the numbers beneath may run on */
   figcaption {{ break-before:avoid; page-break-before:avoid; }}
   details::details-content {{ content-visibility:visible; display:block; }}

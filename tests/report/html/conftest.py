@@ -1,8 +1,10 @@
 """Fixtures of the HTML report tests: the demo's reports, built once, and a headless Chromium.
 
-``demo_reports`` runs ``scoremon demo`` on a small book (its three reports: monitoring, diff,
-history pack), then monitors the same book with version 2 of the demo model so that a second
-history pack has two model versions to draw. ``chromium`` is Debian's Chromium
+``demo_reports`` runs ``scoremon demo`` on a small book (its four reports: fit, monitoring,
+diff, history pack), then monitors the same book with version 2 of the demo model so that a
+second history pack has two model versions to draw, and fits the demo's development table
+again with a ridge penalty so that a fit report has a λ path to draw (the demo's own fit is
+unpenalised). ``chromium`` is Debian's Chromium
 (``/usr/bin/chromium``) driven by Playwright; when it cannot start the tests that need it fail
 in CI (``CI=true``) and are skipped elsewhere, with the reason.
 """
@@ -16,13 +18,16 @@ import pytest
 
 from demo_warehouse import generate
 from demo_warehouse.run import (
+    BINNING_FILE,
     DIFF_HTML_FILE,
+    FIT_HTML_FILE,
     MONITOR_HTML_FILE,
     PACK_HTML_FILE,
     SPEC_V2,
     run_demo,
 )
 from scoremon import api, files
+from scoremon.report.html.fit import fit_html
 from scoremon.report.html.pack import pack_html
 from tests.conftest import in_ci
 
@@ -41,11 +46,14 @@ class DemoReports:
     diff: Path
     pack: Path
     pack_two_versions: Path
+    fit: Path
+    fit_penalised: Path
+    penalised: api.FitReport
 
     @property
     def all(self) -> dict[str, Path]:
         return {"monitor": self.monitor, "diff": self.diff, "pack": self.pack,
-                "pack_two_versions": self.pack_two_versions}
+                "pack_two_versions": self.pack_two_versions, "fit": self.fit, "fit_penalised": self.fit_penalised}
 
 
 @pytest.fixture(scope="session")
@@ -62,11 +70,16 @@ def demo_reports(tmp_path_factory) -> DemoReports:
         api.monitor(api.load_spec(v2_path), engine, generate.APPLICATIONS, generate.MONTH_COLUMN, generate.AS_OF,
                     generate.OUTCOME_COLUMN)
         history = api.read_history(engine, v2.model.name)
+        penalised = api.fit_development(engine, api.read_binning(folder / BINNING_FILE),
+                                        api.FitSettings(key=generate.KEY_COLUMN, penalty="l2", folds=3, lambdas=6),
+                                        api.Naming(name="quillfield_application", version="ridge"),
+                                        folder / "spec_ridge.yaml")
     finally:
         engine.close()
     two = files.write_text(folder / "history_pack_two_versions.html", pack_html(history, "duckdb"))
+    ridge = files.write_text(folder / "fit_report_ridge.html", fit_html(penalised, "duckdb"))
     return DemoReports(folder, database, folder / MONITOR_HTML_FILE, folder / DIFF_HTML_FILE, folder / PACK_HTML_FILE,
-                       two)
+                       two, folder / FIT_HTML_FILE, ridge, penalised)
 
 
 def browser_unavailable(reason: str):

@@ -16,7 +16,7 @@ MAX_BYTES = 5 * 1024 * 1024
 # A page or chart of one colour has a pixel standard deviation of 0; text and charts on white
 # measure in the tens. A few units would already be a faint smudge on an empty page.
 MIN_SPREAD = 8.0
-REPORTS = ("monitor", "diff", "pack", "pack_two_versions")
+REPORTS = ("monitor", "diff", "pack", "pack_two_versions", "fit", "fit_penalised")
 
 
 def grey_spread(png: bytes) -> float:

@@ -6,15 +6,19 @@ carries what its records hold (the records' own values, read back from the JSON 
 """
 from __future__ import annotations
 
+import html
 import json
 import re
 from html.parser import HTMLParser
 
 import pytest
 
+from scoremon import api
 from scoremon.report.cautions import CAUTIONS
+from scoremon.report.html.fit import COEFFICIENT_COLUMNS
+from scoremon.spec import fingerprint
 
-REPORTS = ("monitor", "diff", "pack", "pack_two_versions")
+REPORTS = ("monitor", "diff", "pack", "pack_two_versions", "fit", "fit_penalised")
 
 
 class Collect(HTMLParser):
@@ -122,3 +126,44 @@ def test_two_version_pack_draws_a_line_per_version(demo_reports):
     one = demo_reports.pack.read_text(encoding="utf-8")
     assert "version 2 (" not in " ".join(parsed(demo_reports.pack).text)
     assert one.count('role="img"') == 3
+
+
+FIT_SECTIONS = ("The fit at a glance", "Information value ranking", "Characteristics over their bins",
+                "λ path and cross-validation", "ROC curve and KS")
+
+
+def test_fit_report_carries_the_fit(demo_reports):
+    spec = api.load_spec(demo_reports.folder / "spec_fitted.yaml")
+    text = demo_reports.fit.read_text(encoding="utf-8")
+    page = " ".join(parsed(demo_reports.fit).text)
+    for value in (spec.model.name, spec.model.version, fingerprint(spec), f"{spec.development.rows:,} rows",
+                  "table development"):
+        assert value in page, value
+    for title in FIT_SECTIONS:
+        assert f"</span>{title}</h2>" in text, title
+    # the demo's fit is unpenalised, and the report says so instead of drawing an empty path
+    assert "Not penalised: this fit used no penalty" in page and 'id="path-' not in text
+    # IV ranking, one chart per characteristic in the model, ROC
+    assert text.count('role="img"') == 1 + len(spec.features) + 1
+    for feature in spec.features:
+        assert f"<h3>{feature.name}</h3>" in text
+
+
+def test_penalised_fit_report_draws_the_path_and_marks_the_chosen_lambda(demo_reports):
+    report = demo_reports.penalised
+    text = demo_reports.fit_penalised.read_text(encoding="utf-8")
+    page = " ".join(parsed(demo_reports.fit_penalised).text)
+    assert 'id="path-' in text and "Not penalised" not in page
+    assert f"λ {report.chosen_lambda:.3g} was chosen" in page
+    # the path's numbers: one row per λ in the path table and in each table of coefficients
+    # (a few characteristics each), the chosen λ marked in words
+    rows = re.findall(r"<tr><td class=\"n\">[0-9.e+-]+</td>", text)
+    tables = 1 + -(-len(report.characteristics) // COEFFICIENT_COLUMNS)
+    assert len(rows) == len(report.path) * tables
+    assert ">chosen</td>" in text
+    d = report.discrimination
+    assert f"Gini {d.gini:.3f}" in page and f"KS {d.ks:.3f}" in page
+    # every warning of the fit is written out, with its status in words
+    for warning in report.warnings:
+        assert html.escape(warning, quote=True) in text
+    assert text.count("△ watch") >= len(report.warnings)
