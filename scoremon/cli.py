@@ -117,6 +117,8 @@ def build_parser() -> argparse.ArgumentParser:
                        help="rows for the peak-memory measurement (default 50,000,000)")
     bench.add_argument("--memory-limit", default="1GB", help="DuckDB memory_limit of the memory test (default 1GB)")
     bench.add_argument("--skip-memory", action="store_true", help="leave out the peak-memory measurement")
+    bench.add_argument("--fit-only", action="store_true",
+                       help="run only the fitting line (i), after generating the rows; no scoring lines")
     bench.add_argument("--folder", default=None,
                        help="where temporary data goes (a fresh subfolder, removed afterwards; default: the system's)")
     bench.add_argument("--engines", nargs="*", metavar="URL", default=None,

@@ -15,7 +15,7 @@ from scoremon.cli import main
 from scoremon.compiler import compile_model
 from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature
 
-EVERY_LINE = ["a0", "a", "b", "a+", "a-r", "c", "d0", "d1", "d", "f", "g", "h", "i", "e"]
+EVERY_LINE = ["a0", "a", "b", "a+", "a-r", "c", "d0", "d1", "d", "f", "g", "h", "i", "i-sql", "e"]
 
 
 @pytest.fixture(scope="module")

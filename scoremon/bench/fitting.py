@@ -36,10 +36,15 @@ def newton_design(spec: Spec, table: str) -> Design:
     return Design(queries.relation(table), tuple(features), event)
 
 
+def newton_beta(design: Design) -> np.ndarray:
+    """The coefficients the timed step is taken at (any will do: a pass costs the same)."""
+    return np.r_[-2.0, np.full(len(design.features), -0.5)]
+
+
 def newton_step(design: Design) -> exp.Select:
-    """One Newton step's pass for one model (the all-rows model of an unpenalised fit)."""
-    beta = np.r_[-2.0, np.full(len(design.features), -0.5)]
-    return pass_query(design, {1: beta})
+    """One Newton step's pass for one model (the all-rows model of an unpenalised fit) as one
+    aggregate query, as it runs on PostgreSQL and Spark."""
+    return pass_query(design, {1: newton_beta(design)})
 
 
 def design_columns(design: Design) -> tuple[list[str], list[str]]:

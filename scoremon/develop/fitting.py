@@ -1,9 +1,10 @@
 """The `fit` step end to end, up to the coefficients: checks → WoE correlations → selection →
 λ path with cross-validation (or the unpenalised fit) → inference → a :class:`FitReport`.
 
-Every row-level computation is an aggregate query in the engine (:mod:`.design`); numpy
-works on sums only. The spec itself (scaling, grades, reasons, baseline, development record)
-is made by :mod:`.spec_writer`.
+Every row-level computation is an aggregate query in the engine (:mod:`.design`) or, on an
+engine in this process (DuckDB), numpy over bin numbers binned once in it (:mod:`.streamed`);
+the fitting itself works on sums only. The spec itself (scaling, grades, reasons, baseline,
+development record) is made by :mod:`.spec_writer`.
 """
 from __future__ import annotations
 
@@ -25,6 +26,7 @@ from .outcome import RowFacts, check_rows, describe_columns, event_expression, p
 from .path import fit_path
 from .records import Bin, Characteristic, Discrimination, FitReport, FitSettings, Left, PathStep
 from .selection import select, variance_inflation
+from .streamed import open_passes
 
 PENALTIES = {"none": None, "l2": 0.0, "l1": 1.0, "elastic": None}
 CURVE_POINTS = 50  # ROC points kept for the report: one every 2 % of the development rows
@@ -92,71 +94,71 @@ def fit_binning(engine: Engine, source: exp.Expression, table: str, binning: Bin
     index = [all_names.index(n) for n in chosen.chosen]
     features = [binning.features[i] for i in index]
     design = Design(source, tuple(b.feature for b in features), event, settings.key, settings.folds)
-    passes = EnginePasses(engine, design)
-    p = design.columns
+    with open_passes(engine, design) as passes:
+        p = design.columns
 
-    lambdas = [0.0] if settings.penalty == "none" else None
-    try:
-        path = fit_path(passes, p, settings.folds, alpha, lambdas=lambdas, count=settings.lambdas,
-                        ratio=settings.lambda_ratio, metric=settings.cv_metric, one_se=settings.one_se,
-                        histograms=passes.histograms)
-    except SingularDesignError as error:
-        raise InputError(_named(error, features)) from error
-    chosen_point = path.chosen_point
-    final = chosen_point.fit
-    warnings = list(chosen.warnings)
-
-    try:
-        plain = final if settings.penalty == "none" else fit_one(passes, p, Penalty(), start=final.coefficients,
-                                                                 model=settings.folds)
-    except SingularDesignError as error:
-        if settings.penalty == "none":
+        lambdas = [0.0] if settings.penalty == "none" else None
+        try:
+            path = fit_path(passes, p, settings.folds, alpha, lambdas=lambdas, count=settings.lambdas,
+                            ratio=settings.lambda_ratio, metric=settings.cv_metric, one_se=settings.one_se,
+                            histograms=passes.histograms)
+        except SingularDesignError as error:
             raise InputError(_named(error, features)) from error
-        plain = None
-        warnings.append(f"no standard errors: {_named(error, features)}")
-    inference = plain is not None and plain.status == CONVERGED
-    if plain is not None and plain is not final and plain.status != CONVERGED:
-        warnings.append(f"unpenalised fit: {plain.reason}")
-    if (facts.rows, facts.events) != (binning.rows, binning.events):
-        warnings.append(f"the binning file counted {binning.rows:,} rows and {binning.events:,} events, the table "
-                        f"now holds {facts.rows:,} and {facts.events:,}: its WoE may no longer fit; recount it "
-                        "(scoremon bin --recount)")
-    errors = plain.standard_errors() if inference else None
+        chosen_point = path.chosen_point
+        final = chosen_point.fit
+        warnings = list(chosen.warnings)
 
-    vif = variance_inflation(correlation[np.ix_(index, index)])
-    rows = []
-    for j, binned in enumerate(features, start=1):
-        se = float(errors[j]) if errors is not None else None
-        z = float(plain.coefficients[j] / se) if se else None
-        rows.append(Characteristic(binned.name, binned.iv, float(final.coefficients[j]),
-                                   float(plain.coefficients[j]) if inference else None, se, z,
-                                   float(2.0 * stats.norm.sf(abs(z))) if z is not None else None, float(vif[j - 1]),
-                                   tuple(Bin(c.label, c.rows, c.events, c.event_rate, c.woe) for c in binned.counts)))
+        try:
+            plain = final if settings.penalty == "none" else fit_one(passes, p, Penalty(), start=final.coefficients,
+                                                                     model=settings.folds)
+        except SingularDesignError as error:
+            if settings.penalty == "none":
+                raise InputError(_named(error, features)) from error
+            plain = None
+            warnings.append(f"no standard errors: {_named(error, features)}")
+        inference = plain is not None and plain.status == CONVERGED
+        if plain is not None and plain is not final and plain.status != CONVERGED:
+            warnings.append(f"unpenalised fit: {plain.reason}")
+        if (facts.rows, facts.events) != (binning.rows, binning.events):
+            warnings.append(f"the binning file counted {binning.rows:,} rows and {binning.events:,} events, the table "
+                            f"now holds {facts.rows:,} and {facts.events:,}: its WoE may no longer fit; recount it "
+                            "(scoremon bin --recount)")
+        errors = plain.standard_errors() if inference else None
 
-    warnings += _warnings(binning, features, final, rows, chosen_point, path)
-    if final.status != CONVERGED:
-        warnings.append(f"the chosen fit did not converge: {final.reason}")
-    report = FitReport(
-        table=table, engine=engine.dialect, rows=facts.rows, events=facts.events,
-        binning_file=binning.file or "", binning_fingerprint=binning.fingerprint, settings=settings,
-        intercept=float(final.coefficients[0]),
-        intercept_unpenalised=float(plain.coefficients[0]) if inference else None,
-        intercept_standard_error=float(errors[0]) if errors is not None else None,
-        characteristics=tuple(rows),
-        left_out=tuple(replace(left, iv=binning.feature(left.name).iv) for left in chosen.left_out) + tuple(
-            Left(r.name, "coefficient 0 at the chosen λ", r.iv) for r in rows if r.coefficient == 0.0),
-        lambda_max=path.lambda_max if settings.penalty != "none" else None,
-        chosen_lambda=chosen_point.lam, best_lambda=path.points[path.best].lam,
-        path=tuple(PathStep(pt.lam, pt.nonzero, pt.cv_mean, pt.cv_sd, pt.fit.status,
-                            tuple(float(b) for b in pt.fit.coefficients[1:])) for pt in path.points)
-        if settings.penalty != "none" else (),
-        discrimination=_discrimination(passes, chosen_point, settings.folds),
-        status=final.status, warnings=tuple(warnings), passes=passes.count)
-    kept = tuple(b.spec_feature(c.coefficient) for b, c in zip(features, rows) if c.coefficient != 0.0)
-    if not kept:
-        raise InputError("every coefficient is 0 at the chosen λ: nothing would score; use a smaller λ ratio, "
-                         "--penalty none, or --one-se off")
-    return Fitted(report, kept, float(final.coefficients[0]), facts)
+        vif = variance_inflation(correlation[np.ix_(index, index)])
+        rows = []
+        for j, binned in enumerate(features, start=1):
+            se = float(errors[j]) if errors is not None else None
+            z = float(plain.coefficients[j] / se) if se else None
+            rows.append(Characteristic(binned.name, binned.iv, float(final.coefficients[j]),
+                                       float(plain.coefficients[j]) if inference else None, se, z,
+                                       float(2.0 * stats.norm.sf(abs(z))) if z is not None else None, float(vif[j - 1]),
+                                       tuple(Bin(c.label, c.rows, c.events, c.event_rate, c.woe) for c in binned.counts)))
+
+        warnings += _warnings(binning, features, final, rows, chosen_point, path)
+        if final.status != CONVERGED:
+            warnings.append(f"the chosen fit did not converge: {final.reason}")
+        report = FitReport(
+            table=table, engine=engine.dialect, rows=facts.rows, events=facts.events,
+            binning_file=binning.file or "", binning_fingerprint=binning.fingerprint, settings=settings,
+            intercept=float(final.coefficients[0]),
+            intercept_unpenalised=float(plain.coefficients[0]) if inference else None,
+            intercept_standard_error=float(errors[0]) if errors is not None else None,
+            characteristics=tuple(rows),
+            left_out=tuple(replace(left, iv=binning.feature(left.name).iv) for left in chosen.left_out) + tuple(
+                Left(r.name, "coefficient 0 at the chosen λ", r.iv) for r in rows if r.coefficient == 0.0),
+            lambda_max=path.lambda_max if settings.penalty != "none" else None,
+            chosen_lambda=chosen_point.lam, best_lambda=path.points[path.best].lam,
+            path=tuple(PathStep(pt.lam, pt.nonzero, pt.cv_mean, pt.cv_sd, pt.fit.status,
+                                tuple(float(b) for b in pt.fit.coefficients[1:])) for pt in path.points)
+            if settings.penalty != "none" else (),
+            discrimination=_discrimination(passes, chosen_point, settings.folds),
+            status=final.status, warnings=tuple(warnings), passes=passes.count)
+        kept = tuple(b.spec_feature(c.coefficient) for b, c in zip(features, rows) if c.coefficient != 0.0)
+        if not kept:
+            raise InputError("every coefficient is 0 at the chosen λ: nothing would score; use a smaller λ ratio, "
+                             "--penalty none, or --one-se off")
+        return Fitted(report, kept, float(final.coefficients[0]), facts)
 
 
 def _named(error: SingularDesignError, features: Sequence[BinnedFeature]) -> str:

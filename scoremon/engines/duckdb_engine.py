@@ -9,7 +9,7 @@ from __future__ import annotations
 import threading
 import uuid
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Sequence
+from typing import TYPE_CHECKING, Any, Iterator, Sequence
 
 import duckdb
 from sqlglot import exp
@@ -40,6 +40,7 @@ class DuckDBEngine(Engine):
     is_transactional = True
     reads_files = True
     writes_parquet = True
+    streams_batches = True
 
     def __init__(self, database: str = ":memory:", threads: int | None = None, memory_limit: str | None = None,
                  read_only: bool = False):
@@ -135,6 +136,29 @@ class DuckDBEngine(Engine):
             literal = "'" + str(partial).replace("'", "''") + "'"
             self._watched(lambda: self.connection.execute(f"COPY ({sql}) TO {literal} ({options})"), purpose,
                           progress)
+
+    def hold(self, tree: Query, purpose: str) -> list[str]:
+        """Keep the rows of a query in a temporary table (gone with the connection at the latest;
+        DuckDB spills it to disk beyond its memory limit); returns its path."""
+        name = f"{INTERNAL}held_{uuid.uuid4().hex}"
+        sql = f"CREATE TEMPORARY TABLE {render_table([name], self.dialect)} AS {self._sql(tree)}"
+        self._run(lambda: self.connection.execute(sql), purpose)
+        return [name]
+
+    def batches(self, tree: Query, purpose: str, rows: int) -> Iterator[dict[str, Any]]:
+        """The rows of a query as numpy arrays per column, at most ``rows`` at a time, read
+        through Arrow (no copy for fixed-width columns without NULL)."""
+        sql = self._sql(tree)
+        reader = self._run(lambda: self.connection.sql(sql).to_arrow_reader(rows), purpose)
+        while True:
+            batch = self._run(lambda: next(reader, None), purpose)
+            if batch is None:
+                return
+            yield {name: batch.column(i).to_numpy(zero_copy_only=False) for i, name in enumerate(batch.schema.names)}
+
+    def release(self, table: Sequence[str]) -> None:
+        sql = f"DROP TABLE IF EXISTS {render_table(table, self.dialect)}"
+        self._run(lambda: self.connection.execute(sql), "dropping a temporary table")
 
     def close(self) -> None:
         self.connection.close()

@@ -35,6 +35,7 @@ class PostgresEngine(Engine):
     is_transactional = True
     reads_files = False
     writes_parquet = False
+    streams_batches = False  # a server: the fit's passes stay aggregate queries
 
     def __init__(self, url: str):
         # psycopg is an optional extra (``scoremon[engines]``): imported only when a PostgreSQL URL

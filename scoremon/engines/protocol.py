@@ -144,6 +144,9 @@ class Engine(Protocol):
     is_transactional: bool  # execute_atomically and the writes are all or nothing
     reads_files: bool  # a query may read Parquet/CSV files in place (read_parquet, read_csv)
     writes_parquet: bool  # write_parquet (and write_file, Parquet or CSV) works
+    # hold/batches/release work: the engine runs in this process, so a query's rows may be read
+    # in batches into numpy without crossing a network (the fit's passes, scoremon.develop.streamed)
+    streams_batches: bool
 
     def execute(self, statement: Query, purpose: str) -> None:
         """Run one statement (a CREATE, a DROP, an INSERT); nothing is returned."""
@@ -180,6 +183,17 @@ class Engine(Protocol):
     def execute_atomically(self, statements: Sequence[Query], purpose: str) -> None:
         """Run ``statements`` in order in one transaction: all take effect, or (on any error) none.
         Where :attr:`is_transactional` is false this is best effort (see the engine)."""
+
+    def hold(self, tree: Query, purpose: str) -> list[str]:
+        """Keep the rows of a query in a temporary table of this connection; returns its path
+        (only when :attr:`streams_batches`)."""
+
+    def batches(self, tree: Query, purpose: str, rows: int) -> Iterator[dict[str, Any]]:
+        """The rows of a query as numpy arrays per column, ``rows`` at most at a time (only when
+        :attr:`streams_batches`)."""
+
+    def release(self, table: Sequence[str]) -> None:
+        """Drop a table made by :meth:`hold` (only when :attr:`streams_batches`)."""
 
     def close(self) -> None:
         """Release the connection (a shared Spark session is left running)."""

@@ -73,6 +73,7 @@ class SparkEngine(Engine):
     is_transactional = False  # see execute_atomically and write_table: best effort
     reads_files = False
     writes_parquet = False
+    streams_batches = False  # a server: the fit's passes stay aggregate queries
 
     def __init__(self, master: str = "local[1]", config: Mapping[str, str] | None = None):
         # pyspark is an optional, heavy extra (``scoremon[engines]``; it starts a JVM): imported

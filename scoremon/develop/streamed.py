@@ -1,0 +1,134 @@
+"""The fit's passes on an engine in this process (DuckDB): bin numbers held once, sums in numpy.
+
+A fit makes dozens of passes over one design. Binning every row (the scoring query's CASE
+per characteristic) costs more than the sums themselves, and ~150 SUMs of products per model
+cost several bare scans in SQL (``scoremon bench`` line (i)). Where the engine streams
+batches (:attr:`~scoremon.engines.Engine.streams_batches`), :class:`StreamedPasses` therefore
+
+1. runs the binning once: fold, y and each characteristic's bin number (the same
+   :func:`scoremon.compiler.bin_case`, yielding the bin's position instead of its WoE) into a
+   temporary table of small integers, held by the engine (spilled to disk beyond its memory
+   limit);
+2. per pass reads that table in batches of :data:`BATCH_ROWS` rows, looks each bin's WoE up
+   (:func:`scoremon.develop.design.woe_values`, in the CASE's bin order) and sums gradient,
+   Hessian, loss and extreme rows per fold with numpy (the same formulas as
+   :func:`scoremon.develop.design.pass_query`). Memory is bounded by the batch, not the table.
+
+The held-out histograms stay aggregate queries (:class:`~scoremon.develop.design.EnginePasses`).
+Engines that do not stream (PostgreSQL, Spark) keep :class:`EnginePasses`: nothing row-level
+leaves them. :func:`open_passes` picks one and drops the temporary table afterwards.
+"""
+from __future__ import annotations
+
+from contextlib import contextmanager
+from typing import Iterator, Mapping
+
+import numpy as np
+from sqlglot import exp
+from threadpoolctl import threadpool_limits
+
+from ..compiler import bin_case, column, integer
+from ..spec.terms import feature_terms
+from ..trees import table_path
+from .folds import fold_expression
+from .design import ETA_CLAMP, FOLD, Y, Design, EnginePasses, woe_spec, woe_values
+from .newton import EXTREME_ETA, FoldSums
+
+BATCH_ROWS = 1 << 18  # 262,144 rows: the batch's float design is 2 MiB per column
+
+
+def bin_column(j: int) -> str:
+    return f"__scoremon_bin_{j}"
+
+
+def _small(value: exp.Expression) -> exp.Cast:
+    return exp.Cast(this=value, to=exp.DataType(this=exp.DataType.Type.SMALLINT))
+
+
+def codes_query(design: Design) -> exp.Select:
+    """SELECT fold, y, bin_1 … bin_p: per row its fold, outcome and bin numbers, as SMALLINT."""
+    spec = woe_spec(design.features)
+    fold = integer(0) if design.fold_count == 1 else fold_expression(column(design.key), design.fold_count)
+    selected = [exp.alias_(_small(fold), FOLD, quoted=True), exp.alias_(_small(design.event.copy()), Y, quoted=True)]
+    for j, feature in enumerate(spec.features, start=1):
+        count = len(feature_terms(spec, feature).bins)
+        found = bin_case(spec, feature, column(feature.column or feature.name), [integer(b) for b in range(count)])
+        selected.append(exp.alias_(_small(found), bin_column(j), quoted=True))
+    return exp.select(*selected).from_(design.source.copy())
+
+
+class StreamedPasses(EnginePasses):
+    """The fit's passes over bin numbers held in ``engine`` (see the module docstring)."""
+
+    def __init__(self, engine, design: Design):
+        super().__init__(engine, design)
+        self.woe = [np.asarray(values, dtype=float) for values in woe_values(design.features)]
+        self.table = engine.hold(codes_query(design), "binning the development rows once for the fit")
+
+    def close(self) -> None:
+        self.engine.release(self.table)
+
+    def __call__(self, betas: Mapping[int, np.ndarray]) -> dict[int, FoldSums]:
+        self.count += 1
+        p, k = self.design.columns, self.fold_count
+        sums = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)), np.zeros(k), np.zeros(k), np.zeros(k))
+                for m in betas}
+        betas = {m: np.asarray(b, dtype=float) for m, b in betas.items()}
+        read = exp.select(exp.Star()).from_(table_path(self.table))
+        # one BLAS thread: the products are 16 columns wide, and OpenBLAS's threads spinning beside
+        # DuckDB's made a pass three times slower on a busy two-core machine (scoremon bench)
+        with threadpool_limits(1, user_api="blas"):
+            for batch in self.engine.batches(read, "a Newton step's sums over the development rows", BATCH_ROWS):
+                self._add(batch, betas, sums)
+        return sums
+
+    def _add(self, batch: Mapping[str, np.ndarray], betas: Mapping[int, np.ndarray],
+             sums: Mapping[int, FoldSums]) -> None:
+        p, k = self.design.columns, self.fold_count
+        folds = np.asarray(batch[FOLD])
+        order = np.argsort(folds, kind="stable") if k > 1 else None
+        # column-major, so that each lookup writes one contiguous column; rows sorted by fold, so
+        # that each fold is one slice for the matrix products
+        x = np.empty((len(folds), p), order="F")
+        x[:, 0] = 1.0
+        for j in range(1, p):
+            codes = np.asarray(batch[bin_column(j)])
+            np.take(self.woe[j - 1], codes if order is None else codes[order], out=x[:, j])
+        y = np.asarray(batch[Y], dtype=float)
+        if order is not None:
+            y, folds = y[order], folds[order]
+        edges = np.searchsorted(folds, np.arange(k + 1)) if k > 1 else np.array([0, len(folds)])
+        for m, beta in betas.items():
+            eta = x @ beta
+            mu = 1.0 / (1.0 + np.exp(-np.clip(eta, -ETA_CLAMP, ETA_CLAMP)))
+            root = np.sqrt(mu * (1.0 - mu))
+            residual = mu - y
+            loss = np.logaddexp(0.0, eta) - y * eta
+            extreme = np.abs(eta) > EXTREME_ETA
+            s = sums[m]
+            for f in range(k):
+                a, b = edges[f], edges[f + 1]
+                if a == b:
+                    continue
+                xf = x[a:b]
+                s.gradient[f] += xf.T @ residual[a:b]
+                # Z = √w·x, so that ZᵀZ is one symmetric product (BLAS syrk, half the work of xᵀ(w·x))
+                z = xf * root[a:b, None]
+                s.hessian[f] += z.T @ z
+                s.loss[f] += loss[a:b].sum()
+                s.rows[f] += b - a
+                s.extreme[f] += np.count_nonzero(extreme[a:b])
+
+
+@contextmanager
+def open_passes(engine, design: Design) -> Iterator[EnginePasses]:
+    """The fit's passes for ``design`` on ``engine``: streamed where the engine streams batches,
+    else aggregate queries; a held table is dropped on the way out."""
+    if not engine.streams_batches:
+        yield EnginePasses(engine, design)
+        return
+    passes = StreamedPasses(engine, design)
+    try:
+        yield passes
+    finally:
+        passes.close()
