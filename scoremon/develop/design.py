@@ -14,14 +14,18 @@ Every pass reads it and returns only aggregates, GROUP BY fold:
   η = β₀ + Σ β_j·x_j, μ = 1/(1 + e^(−η)) (η clamped to ±700: PostgreSQL raises on EXP
   overflow), w = μ(1 − μ); per fold Σ(μ − y)·x_j, Σ w·x_i·x_j (i ≤ j), Σ loss, rows, and rows
   with |η| > 36. loss = ln(1 + e^η) − yη, written as max(η, 0) + ln(1 + e^(−|η|)) so that
-  EXP never overflows and LN only meets arguments in [1, 2]. The sums of at most
-  :data:`MAX_AGGREGATES` columns go in one query (PostgreSQL allows 1664 per SELECT); more
-  models are split over several queries of the same pass.
+  EXP never overflows and LN only meets arguments in [1, 2]. A pass whose queries would be
+  wider than :data:`~scoremon.develop.width.MAX_COLUMNS` (PostgreSQL allows 1,664 per SELECT;
+  one model of 56 characteristics already sums 1,654) is cut into several queries, by models
+  and by rows of the Hessian (:func:`pass_blocks`); each sum is the same in whichever query
+  holds it.
 * :meth:`EnginePasses.histograms` — the held-out rows' log-odds histogram reduced in the engine
   to AUC/KS sums by monitoring's :func:`~scoremon.monitor.queries.discrimination_pass`.
-* :func:`moment_query` — Σx_i, Σx_i·x_j and rows, for the WoE correlations (selection, VIF).
+* :func:`moment_queries` — Σx_i, Σx_i·x_j and rows, for the WoE correlations (selection, VIF),
+  in as many queries as keep each within the same cap.
 
-Nothing row-level leaves the engine, on any engine.
+A fit takes at most :data:`MAX_CHARACTERISTICS` characteristics, so that the narrowest query of
+a pass fits (:func:`check_characteristics`). Nothing row-level leaves the engine, on any engine.
 """
 from __future__ import annotations
 
@@ -34,16 +38,21 @@ import numpy as np
 from sqlglot import exp
 
 from ..compiler import bin_case, case, column, integer, number
+from ..errors import InputError
 from ..monitor.queries import MONTH, OUTCOME, SCORE, discrimination_pass, read_curve
 from ..monitor.statistics import HistogramSums
 from ..spec.model import Grade, Identity, Scaling, Spec
 from ..spec.terms import feature_terms
+from ..trees import INTERNAL, identifier, total
 from .folds import fold_expression
 from .newton import EXTREME_ETA, FoldSums
+from .width import MAX_COLUMNS, runs
 
 FOLD, Y = "__scoremon_fold", "__scoremon_y"
-MAX_AGGREGATES = 1500
 ETA_CLAMP = 700.0
+# the narrowest query of a pass (one model, one row of its Hessian) lists fold, x_1 … x_p, the
+# model's w, r, loss and extreme, and one w·x_i: p + 6 columns for p characteristics
+MAX_CHARACTERISTICS = MAX_COLUMNS - 6
 
 
 def fetch_rows(engine, tree: exp.Expression, purpose: str) -> list[tuple]:
@@ -113,11 +122,9 @@ def _x(j: int) -> exp.Expression:
 
 
 def _eta(beta: np.ndarray) -> exp.Expression:
-    terms = [number(beta[0])] + [exp.Mul(this=number(b), expression=_x(j)) for j, b in enumerate(beta) if j > 0]
-    result = terms[0]
-    for term in terms[1:]:
-        result = exp.Add(this=result, expression=term)
-    return result
+    # a balanced sum beyond 64 terms: a chain as long as the model would pass DuckDB's expression
+    # depth limit (1000) for a wide model; up to 64 terms it is the plain left-to-right sum
+    return total([number(beta[0])] + [exp.Mul(this=number(b), expression=_x(j)) for j, b in enumerate(beta) if j > 0])
 
 
 def _clamped(value: exp.Expression) -> exp.Expression:
@@ -129,17 +136,76 @@ def _subquery(select: exp.Select, alias: str) -> exp.Subquery:
     return exp.Subquery(this=select, alias=exp.TableAlias(this=exp.to_identifier(alias, quoted=True)))
 
 
+def _steps(steps: Sequence[tuple[str, exp.Select]], last: exp.Select) -> exp.Select:
+    """``last`` over ``steps`` as CTEs, each named by its step and read by the next by name.
+
+    Steps, not nested subqueries: PostgreSQL pulls a subquery up into the query above it, so
+    each of ~1,600 sums would copy the expressions of every step below it (a pass of 60
+    characteristics took minutes on 400 rows); each CTE is fenced into a step of its own that
+    computes its columns once per row (``OFFSET 0``, see :mod:`scoremon.dialects.render`).
+    """
+    for name, body in steps:
+        last = last.with_(identifier(name), as_=body, copy=False)
+    return last
+
+
+def _step(name: str) -> exp.Table:
+    return exp.Table(this=identifier(name))
+
+
 def _sum(value: exp.Expression, alias: str) -> exp.Alias:
     return exp.alias_(exp.Sum(this=value), alias, quoted=True)
 
 
-def pass_query(design: Design, betas: Mapping[int, np.ndarray]) -> exp.Select:
-    """One aggregate query giving every model's sums per fold (see the module docstring)."""
+GRADIENT, LOSS = -1, -2  # a model's blocks of sums besides the Hessian's rows (0 … p−1)
+Block = tuple[int, int]  # (model, part): part i ≥ 0 is row i of its Hessian (Σ w·x_i·x_j, j ≥ i),
+                         # GRADIENT its Σ(μ − y)·x_j, LOSS its loss and extreme rows
+
+
+def _block_size(p: int, part: int) -> int:
+    return p if part == GRADIENT else 2 if part == LOSS else p - part
+
+
+def all_blocks(p: int, models: Sequence[int]) -> list[Block]:
+    """Every block of sums of a pass over ``models``, in the order a query lists them."""
+    return [(m, part) for m in models for part in (GRADIENT, *range(p), LOSS)]
+
+
+def pass_width(p: int, blocks: Sequence[Block]) -> int:
+    """The widest SELECT of :func:`pass_query` for ``blocks``: its products (fold, x_1 … x_{p−1},
+    per model w, r, loss and extreme, and w·x_i for each Hessian row i ≥ 1) or its sums (fold,
+    rows and each block's); the design and the steps before the products are narrower."""
+    models = {m for m, _ in blocks}
+    rows = sum(1 for _, part in blocks if part >= 1)
+    return max(p + 1, p + 4 * len(models) + rows, 2 + sum(_block_size(p, part) for _, part in blocks))
+
+
+def pass_blocks(p: int, models: Sequence[int]) -> list[list[Block]]:
+    """A pass's blocks over ``models`` cut, in order, into queries each within
+    :data:`~scoremon.develop.width.MAX_COLUMNS` (:func:`pass_width`): one query while it fits,
+    else as many as it takes, a wide model's Hessian rows spread over several."""
+    cuts: list[list[Block]] = [[]]
+    for block in all_blocks(p, models):
+        if cuts[-1] and pass_width(p, cuts[-1] + [block]) > MAX_COLUMNS:
+            cuts.append([])
+        cuts[-1].append(block)
+    return [c for c in cuts if c]
+
+
+def pass_query(design: Design, betas: Mapping[int, np.ndarray], blocks: Sequence[Block] | None = None) -> exp.Select:
+    """One aggregate query giving ``blocks`` of sums per fold (every block of every model in
+    ``betas`` by default), see the module docstring. Columns: fold, rows, then each block's
+    sums in order (``g_m_j``; ``h_m_i_j`` for j ≥ i; ``loss_m``, ``extreme_m``)."""
     p = design.columns
+    blocks = all_blocks(p, list(betas)) if blocks is None else list(blocks)
+    models = list(dict.fromkeys(m for m, _ in blocks))
+    rows = {(m, part) for m, part in blocks if part >= 1}
     fitted = [column(FOLD), column(Y)] + [column(x_column(j)) for j in range(1, p)]
-    for m, beta in betas.items():
-        fitted.append(exp.alias_(_eta(np.asarray(beta, dtype=float)), f"eta_{m}", quoted=True))
-    inner = exp.select(*fitted).from_(_subquery(design_query(design), "design"))
+    for m in models:
+        fitted.append(exp.alias_(_eta(np.asarray(betas[m], dtype=float)), f"eta_{m}", quoted=True))
+    design_step, fitted_step, mu_step, weighted_step, products_step = (
+        f"{INTERNAL}{name}" for name in ("design", "fitted", "with_mu", "weighted", "products"))
+    inner = exp.select(*fitted).from_(_step(design_step))
 
     # mu, then w = mu(1 − mu), the residual mu − y and the loss per row, then w·x_i: each product
     # made once per row, so that an aggregate is one multiplication (DuckDB does not share
@@ -147,15 +213,15 @@ def pass_query(design: Design, betas: Mapping[int, np.ndarray]) -> exp.Select:
     xs = [column(x_column(j)) for j in range(1, p)]
     one = number(1.0)
     with_mu = [column(FOLD), column(Y)] + [x.copy() for x in xs]
-    for m in betas:
+    for m in models:
         eta = column(f"eta_{m}")
         mu = exp.Div(this=one.copy(), expression=exp.paren(exp.Add(
             this=one.copy(), expression=exp.Exp(this=exp.Neg(this=exp.paren(_clamped(eta), copy=False)))), copy=False))
         with_mu += [eta.copy(), exp.alias_(mu, f"mu_{m}", quoted=True)]
-    middle = exp.select(*with_mu).from_(_subquery(inner, "fitted"))
+    middle = exp.select(*with_mu).from_(_step(fitted_step))
 
     weighted = [column(FOLD)] + [x.copy() for x in xs]
-    for m in betas:
+    for m in models:
         eta, mu = column(f"eta_{m}"), column(f"mu_{m}")
         w = exp.Mul(this=mu.copy(), expression=exp.paren(exp.Sub(this=one.copy(), expression=mu.copy()), copy=False))
         size = exp.Abs(this=eta.copy())
@@ -170,30 +236,40 @@ def pass_query(design: Design, betas: Mapping[int, np.ndarray]) -> exp.Select:
                                 f"loss_{m}", quoted=True),
                      exp.alias_(case([(exp.GT(this=size.copy(), expression=number(EXTREME_ETA)), number(1.0))],
                                      number(0.0)), f"extreme_{m}", quoted=True)]
-    weighted_query = exp.select(*weighted).from_(_subquery(middle, "with_mu"))
+    weighted_query = exp.select(*weighted).from_(_step(mu_step))
 
     products = [column(FOLD)] + [x.copy() for x in xs]
-    for m in betas:
+    for m in models:
         products += [column(f"w_{m}"), column(f"r_{m}"), column(f"loss_{m}"), column(f"extreme_{m}")]
         products += [exp.alias_(exp.Mul(this=column(f"w_{m}"), expression=_x(i)), f"wx_{m}_{i}", quoted=True)
-                     for i in range(1, p)]
-    products_query = exp.select(*products).from_(_subquery(weighted_query, "weighted"))
+                     for i in range(1, p) if (m, i) in rows]
+    products_query = exp.select(*products).from_(_step(weighted_step))
 
     selected = [column(FOLD), exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True)]
-    for m in betas:
-        r = column(f"r_{m}")
-        selected += [_sum(r.copy() if j == 0 else exp.Mul(this=r.copy(), expression=_x(j)), f"g_{m}_{j}")
-                     for j in range(p)]
-        for i in range(p):
-            left = column(f"w_{m}") if i == 0 else column(f"wx_{m}_{i}")
-            selected += [_sum(left.copy() if j == 0 else exp.Mul(this=left.copy(), expression=_x(j)), f"h_{m}_{i}_{j}")
-                         for j in range(i, p)]
-        selected += [_sum(column(f"loss_{m}"), f"loss_{m}"), _sum(column(f"extreme_{m}"), f"extreme_{m}")]
-    return exp.select(*selected).from_(_subquery(products_query, "products")).group_by(column(FOLD))
+    for m, part in blocks:
+        if part == GRADIENT:
+            r = column(f"r_{m}")
+            selected += [_sum(r.copy() if j == 0 else exp.Mul(this=r.copy(), expression=_x(j)), f"g_{m}_{j}")
+                         for j in range(p)]
+        elif part == LOSS:
+            selected += [_sum(column(f"loss_{m}"), f"loss_{m}"), _sum(column(f"extreme_{m}"), f"extreme_{m}")]
+        else:
+            left = column(f"w_{m}") if part == 0 else column(f"wx_{m}_{part}")
+            selected += [_sum(left.copy() if j == 0 else exp.Mul(this=left.copy(), expression=_x(j)),
+                              f"h_{m}_{part}_{j}") for j in range(part, p)]
+    return _steps([(design_step, design_query(design)), (fitted_step, inner), (mu_step, middle),
+                   (weighted_step, weighted_query), (products_step, products_query)],
+                  exp.select(*selected).from_(_step(products_step)).group_by(column(FOLD)))
 
 
-def aggregates_per_model(columns: int) -> int:
-    return columns + columns * (columns + 1) // 2 + 2
+def check_characteristics(count: int) -> None:
+    """Raises :class:`InputError` when a fit of ``count`` characteristics would need a query wider
+    than :data:`~scoremon.develop.width.MAX_COLUMNS` (more than :data:`MAX_CHARACTERISTICS`)."""
+    if count > MAX_CHARACTERISTICS:
+        raise InputError(f"the binning file holds {count:,} characteristics; a fit takes at most "
+                         f"{MAX_CHARACTERISTICS:,} (each of its queries is kept within {MAX_COLUMNS:,} columns, "
+                         "PostgreSQL's limit); remove some from the binning file, or bin fewer columns "
+                         "(scoremon bin --features or --exclude)")
 
 
 Curve = tuple[tuple[tuple[float, float], ...], "tuple[float, float] | None"]  # ROC points, KS point
@@ -214,34 +290,33 @@ class EnginePasses:
     def __call__(self, betas: Mapping[int, np.ndarray]) -> dict[int, FoldSums]:
         self.count += 1
         p, k = self.design.columns, self.fold_count
-        chunk = max(1, MAX_AGGREGATES // aggregates_per_model(p))
-        models = list(betas)
-        result = {}
-        for start in range(0, len(models), chunk):
-            part = {m: betas[m] for m in models[start:start + chunk]}
-            rows = fetch_rows(self.engine, pass_query(self.design, part), "a Newton step's sums over the development rows")
-            result.update(self._read(rows, part, p, k))
-        return result
+        sums = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)), np.zeros(k), np.zeros(k), np.zeros(k)) for m in betas}
+        for blocks in pass_blocks(p, list(betas)):
+            rows = fetch_rows(self.engine, pass_query(self.design, betas, blocks),
+                              "a Newton step's sums over the development rows")
+            self._read(rows, blocks, p, sums)
+        return sums
 
     @staticmethod
-    def _read(rows: Sequence[tuple], betas: Mapping[int, np.ndarray], p: int, k: int) -> dict[int, FoldSums]:
-        sums = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)), np.zeros(k), np.zeros(k), np.zeros(k)) for m in betas}
+    def _read(rows: Sequence[tuple], blocks: Sequence[Block], p: int, sums: Mapping[int, FoldSums]) -> None:
+        """Adds one query's sums (columns as :func:`pass_query` lists them) into ``sums``."""
+        models = list(dict.fromkeys(m for m, _ in blocks))
         for row in rows:
             f, count = int(row[0]), float(row[1])
+            for m in models:
+                sums[m].rows[f] = count
             at = 2
-            for m in betas:
+            for m, part in blocks:
                 s = sums[m]
-                s.rows[f] = count
-                s.gradient[f] = [float(v) for v in row[at:at + p]]
-                at += p
-                for i in range(p):
-                    for j in range(i, p):
-                        s.hessian[f, i, j] = s.hessian[f, j, i] = float(row[at])
-                        at += 1
-                s.loss[f] = float(row[at])
-                s.extreme[f] = float(row[at + 1])
-                at += 2
-        return sums
+                if part == GRADIENT:
+                    s.gradient[f] = [float(v) for v in row[at:at + p]]
+                elif part == LOSS:
+                    s.loss[f] = float(row[at])
+                    s.extreme[f] = float(row[at + 1])
+                else:
+                    for j in range(part, p):
+                        s.hessian[f, part, j] = s.hessian[f, j, part] = float(row[at + j - part])
+                at += _block_size(p, part)
 
     def histograms(self, betas: Mapping[int, np.ndarray]) -> dict[int, HistogramSums]:
         """Per model its held-out rows' AUC/KS sums (model K: all rows), reduced in the engine."""
@@ -279,14 +354,18 @@ class EnginePasses:
         return result, curve
 
 
-def moment_query(design: Design) -> exp.Select:
-    """Rows, Σx_j and Σx_i·x_j (i ≤ j) over the design: the WoE means and correlations."""
+def moment_queries(design: Design) -> list[exp.Select]:
+    """Rows, events, Σx_j and Σx_i·x_j (i ≤ j) over the design: the WoE means and correlations,
+    the sums in that order cut into queries of at most
+    :data:`~scoremon.develop.width.MAX_COLUMNS` columns (rows and events in each)."""
     p = design.columns
-    selected = [exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True),
-                _sum(column(Y), "events")]
-    selected += [_sum(_x(j), f"s_{j}") for j in range(1, p)]
-    selected += [_sum(exp.Mul(this=_x(i), expression=_x(j)), f"s_{i}_{j}") for i in range(1, p) for j in range(i, p)]
-    return exp.select(*selected).from_(_subquery(design_query(design), "design"))
+    sums = [_sum(_x(j), f"s_{j}") for j in range(1, p)]
+    sums += [_sum(exp.Mul(this=_x(i), expression=_x(j)), f"s_{i}_{j}") for i in range(1, p) for j in range(i, p)]
+    step = f"{INTERNAL}design"
+    return [_steps([(step, design_query(design))],
+                   exp.select(exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True), _sum(column(Y), "events"),
+                              *run).from_(_step(step)))
+            for run in runs(sums, MAX_COLUMNS - 2) or [[]]]
 
 
 @dataclass(frozen=True)
@@ -310,16 +389,20 @@ class Moments:
 
 
 def measure_moments(engine, design: Design) -> Moments:
-    """One pass: rows, events and the WoE means and covariance of the design."""
-    row = fetch_rows(engine, moment_query(design), "the WoE columns' means and correlations")[0]
+    """Rows, events and the WoE means and covariance of the design: one pass, or as many as
+    :func:`moment_queries` cuts it into."""
+    found: list = []
+    for query in moment_queries(design):
+        row = fetch_rows(engine, query, "the WoE columns' means and correlations")[0]
+        rows, events = float(row[0]), float(row[1] or 0.0)
+        found += row[2:]
     p = design.columns - 1
-    rows, events = float(row[0]), float(row[1] or 0.0)
-    sums = np.array([float(v) for v in row[2:2 + p]])
+    sums = np.array([float(v) for v in found[:p]])
     products = np.zeros((p, p))
-    at = 2 + p
+    at = p
     for i in range(p):
         for j in range(i, p):
-            products[i, j] = products[j, i] = float(row[at])
+            products[i, j] = products[j, i] = float(found[at])
             at += 1
     means = sums / rows
     return Moments(rows, events, means, products / rows - np.outer(means, means))

@@ -23,6 +23,12 @@ every class (e_{k−1}, e_k] holds at least one row (``closed: upper``).
 NULL, NaN, +inf and −inf are classes of their own, counted for every numeric characteristic in
 one pass (:func:`special_query`). A **categorical** characteristic gets its rows and events per
 value, NULL apart, every text column in one pass (:func:`category_query`).
+
+"One pass for every column" holds while the query stays within
+:data:`~scoremon.develop.width.MAX_COLUMNS` columns (8 a numeric characteristic for the special
+values, 3 for the candidates, 1 for the check, 2 a text column): a wider table's columns are
+cut into as many passes as it takes (:func:`~scoremon.develop.width.cut`), each counting its
+columns exactly as the one pass would.
 """
 from __future__ import annotations
 
@@ -34,6 +40,7 @@ from sqlglot import exp
 
 from ..engines import Engine
 from ..trees import case, column, double_constant, identifier, integer, number
+from .width import cut
 
 SPECIAL = ("missing", "nan", "positive_infinity", "negative_infinity")
 Count = tuple[int, int]  # (rows, events)
@@ -284,14 +291,17 @@ def _candidates(candidates: Sequence[float | None]) -> list[float]:
 def count_positions(engine: Engine, source: exp.Expression, columns: Sequence[tuple[str, Sequence[float]]],
                     event: exp.Expression) -> list[dict[int, Count]]:
     """Per column: position → (rows, events) of its finite values (:func:`position_query`)."""
-    counts: list[dict[int, Count]] = [{} for _ in columns]
-    for row in engine.query(position_query(source, columns, event), "checking the quantiles"):
-        for i in range(len(columns)):
-            place = row[f"p_{i}"]
-            if place is not None:
-                if place >= 0:
-                    counts[i][int(place)] = (int(row["rows"]), int(row["events"] or 0))
-                break
+    counts: list[dict[int, Count]] = []
+    for run, query in cut(columns, lambda run: position_query(source, run, event)):
+        found: list[dict[int, Count]] = [{} for _ in run]
+        for row in engine.query(query, "checking the quantiles"):
+            for i in range(len(run)):
+                place = row[f"p_{i}"]
+                if place is not None:
+                    if place >= 0:
+                        found[i][int(place)] = (int(row["rows"]), int(row["events"] or 0))
+                    break
+        counts += found
     return counts
 
 
@@ -322,30 +332,48 @@ def _checked(name: str, classes: int, special: dict[str, Count], finite_rows: in
 def count_special(engine: Engine, source: exp.Expression, names: Sequence[str],
                   event: exp.Expression) -> tuple[int, dict[str, dict[str, Count]]]:
     """The table's rows and, per numeric column, rows and events of NULL, NaN, +inf and −inf."""
-    row = engine.query(special_query(source, names, event), "counting NULL, NaN and infinite values")[0]
     result: dict[str, dict[str, Count]] = {}
-    position = 0
-    for name in names:
-        result[name] = {}
-        for kind in SPECIAL:
-            result[name][kind] = (int(row[f"c{position}"] or 0), int(row[f"c{position + 1}"] or 0))
-            position += 2
-    return int(row["rows"]), result
+    rows = 0
+    for run, query in cut(names, lambda run: special_query(source, run, event)):
+        row = engine.query(query, "counting NULL, NaN and infinite values")[0]
+        rows = int(row["rows"])
+        position = 0
+        for name in run:
+            result[name] = {}
+            for kind in SPECIAL:
+                result[name][kind] = (int(row[f"c{position}"] or 0), int(row[f"c{position + 1}"] or 0))
+                position += 2
+    return rows, result
 
 
 def categorical_classes(engine: Engine, source: exp.Expression, names: Sequence[str],
                         event: exp.Expression) -> list[CategoricalClasses]:
     """The rows and events of every value of each text (or whole-number code) column in ``names``."""
-    values: list[list[tuple[str | int, int, int]]] = [[] for _ in names]
-    missing: list[Count] = [(0, 0) for _ in names]
-    for row in engine.query(category_query(source, names, event), "counting the values of text columns"):
-        i = next(i for i in range(len(names)) if row[f"g_{i}"] == 0)
-        value, count, events = row[f"v_{i}"], int(row["rows"]), int(row["events"] or 0)
-        if value is None:
-            missing[i] = (count, events)
-        else:
-            values[i].append((value if isinstance(value, int) else str(value), count, events))
-    return [CategoricalClasses(name, tuple(sorted(v)), m) for name, v, m in zip(names, values, missing)]
+    result = []
+    for run, query in cut(names, lambda run: category_query(source, run, event)):
+        values: list[list[tuple[str | int, int, int]]] = [[] for _ in run]
+        missing: list[Count] = [(0, 0) for _ in run]
+        for row in engine.query(query, "counting the values of text columns"):
+            i = next(i for i in range(len(run)) if row[f"g_{i}"] == 0)
+            value, count, events = row[f"v_{i}"], int(row["rows"]), int(row["events"] or 0)
+            if value is None:
+                missing[i] = (count, events)
+            else:
+                values[i].append((value if isinstance(value, int) else str(value), count, events))
+        result += [CategoricalClasses(name, tuple(sorted(v)), m) for name, v, m in zip(run, values, missing)]
+    return result
+
+
+def find_candidates(engine: Engine, source: exp.Expression, names: Sequence[str],
+                    probabilities: Sequence[Sequence[float]]) -> list[tuple[object, object, list]]:
+    """Per numeric column its finite minimum, maximum and percentile candidates
+    (:func:`candidate_query`)."""
+    found = []
+    for run, query in cut(list(range(len(names))), lambda run: candidate_query(
+            source, [names[i] for i in run], [probabilities[i] for i in run])):
+        row = engine.query(query, "finding candidate quantiles")[0]
+        found += [(row[f"min_{i}"], row[f"max_{i}"], row[f"q_{i}"] or []) for i in range(len(run))]
+    return found
 
 
 def fine_classes(engine: Engine, source: exp.Expression, numeric: Sequence[str], categorical: Sequence[str],
@@ -354,8 +382,9 @@ def fine_classes(engine: Engine, source: exp.Expression, numeric: Sequence[str],
     """The fine classes of every characteristic, numeric first; ``progress`` gets the share done.
 
     Four grouped passes whatever the number of characteristics (special values, percentile
-    candidates, the check of every candidate, the text values), plus the running-sum query for
-    each numeric characteristic whose candidates fail the check."""
+    candidates, the check of every candidate, the text values; more for a table too wide for
+    one query, see the module docstring), plus the running-sum query for each numeric
+    characteristic whose candidates fail the check."""
     done, steps = 0, 4
 
     def step() -> None:
@@ -373,9 +402,9 @@ def fine_classes(engine: Engine, source: exp.Expression, numeric: Sequence[str],
         probabilities = [[(-(-k * finite_rows[name] // classes) - 0.5) / finite_rows[name] if finite_rows[name]
                           else 0.5 for k in range(1, classes)] for name in numeric]
         step()
-        row = engine.query(candidate_query(source, numeric, probabilities), "finding candidate quantiles")[0]
+        asked = find_candidates(engine, source, numeric, probabilities)
         step()
-        candidates = {name: _candidates(row[f"q_{i}"] or []) for i, name in enumerate(numeric)}
+        candidates = {name: _candidates(q) for name, (_, _, q) in zip(numeric, asked)}
         checked = [name for name in numeric if finite_rows[name] and candidates[name]]
         counts = dict(zip(checked, count_positions(engine, source, [(n, candidates[n]) for n in checked], event)
                           if checked else []))
@@ -384,7 +413,7 @@ def fine_classes(engine: Engine, source: exp.Expression, numeric: Sequence[str],
             found = _classes(name, [], (0, 0), special[name], None, None) if not finite_rows[name] else None
             if name in counts:
                 found = _checked(name, classes, special[name], finite_rows[name], candidates[name], counts[name],
-                                 row[f"min_{i}"], row[f"max_{i}"])
+                                 asked[i][0], asked[i][1])
             if found is None:
                 steps += 1
                 found = numeric_classes(engine, source, name, event, classes, special[name])

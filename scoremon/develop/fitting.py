@@ -19,7 +19,7 @@ from ..engines import Engine
 from ..errors import InputError
 from ..monitor.statistics import discrimination
 from .binning_file import Binning, BinnedFeature
-from .design import Design, EnginePasses, measure_moments
+from .design import Design, EnginePasses, check_characteristics, measure_moments
 from .folds import check_key_kind
 from .newton import CONVERGED, NO_CONVERGENCE, SEPARATION, ModelFit, Penalty, SingularDesignError, fit_one
 from .outcome import RowFacts, check_rows, describe_columns, event_expression, plan_columns
@@ -61,9 +61,11 @@ def fit_binning(engine: Engine, source: exp.Expression, table: str, binning: Bin
                 outcome: str | None = None, month_column: str | None = None) -> Fitted:
     """Fit the model of the characteristics in ``binning`` on ``source`` (named ``table``).
 
-    Raises :class:`InputError` for a bad outcome or key (before any fitting), a fold with too
-    few events, a collinear design in an unpenalised fit, or options that do not fit together.
+    Raises :class:`InputError` for a bad outcome or key, more characteristics than a fit takes
+    (before any fitting), a fold with too few events, a collinear design in an unpenalised fit,
+    or options that do not fit together.
     """
+    check_characteristics(len(binning.features))
     outcome = outcome or binning.outcome
     alpha = settings.alpha
     if settings.penalty != "none" and settings.folds < 2:
