@@ -5,7 +5,8 @@ and the recount of a hand-edited binning file.
 engine (:mod:`.fine`) and merges them (:mod:`.coarse`). :func:`recount_table` takes the bins of
 an edited file exactly as written and counts them again: the file's features become a spec
 (coefficient 1), the spec is compiled by the scoring compiler, and one grouped pass counts each
-feature's ``<feature>_bin`` labels — so a bin is counted exactly as scoring will find it.
+feature's ``<feature>_bin`` labels — so a bin is counted exactly as scoring will find it (a
+file too wide for one query is counted in several, :mod:`.width`).
 """
 from __future__ import annotations
 
@@ -25,6 +26,7 @@ from .binning_file import Binning, BinnedFeature, Settings, bin_labels, with_cou
 from .coarse import categorical_groups, numeric_bins
 from .fine import fine_classes
 from .outcome import NUMBER_KINDS, ColumnPlan, check_rows, describe_columns, event_expression, plan_columns
+from .width import cut
 
 Progress = Callable[[float], None]
 
@@ -126,9 +128,9 @@ def _small_bins(binned: BinnedFeature, binning: Binning) -> tuple[str, ...]:
     return (f"under {settings.min_share:.0%} of rows or {settings.min_events} events: {', '.join(small)}",)
 
 
-def count_bins(engine: Engine, source: exp.Expression, features: Sequence[BinnedFeature],
-               plan: ColumnPlan) -> dict[tuple[str, str], tuple[int, int]]:
-    """(feature, bin label) → (rows, events), every bin of every feature (0 where empty)."""
+def count_query(source: exp.Expression, features: Sequence[BinnedFeature], plan: ColumnPlan) -> exp.Select:
+    """Rows and events per ``<feature>_bin`` label of each of ``features`` as the scoring query
+    finds it, in one grouped pass (one grouping set per feature)."""
     spec = Spec(model=Identity(name="recount", version="1", owner="scoremon bin", effective_date="2000-01-01",
                                intended_use="counting bins", event="outcome", performance_window_months=1),
                 intercept=0.0, scaling=Scaling(base_score=600.0, base_odds=50.0, pdo=20.0),
@@ -139,16 +141,24 @@ def count_bins(engine: Engine, source: exp.Expression, features: Sequence[Binned
     relation = exp.Subquery(this=scored, alias=exp.TableAlias(this=identifier("binned")))
     bins = [column(f"{b.name}_bin") for b in features]
     event = event_expression(plan.outcome)
-    query = (exp.select(*[c.copy() for c in bins], alias(exp.Count(this=exp.Star()), "rows"),
-                        alias(exp.Sum(this=event), "events"))
-             .from_(relation)
-             .group_by(exp.GroupingSets(expressions=[exp.Tuple(expressions=[c.copy()]) for c in bins])))
+    return (exp.select(*[c.copy() for c in bins], alias(exp.Count(this=exp.Star()), "rows"),
+                       alias(exp.Sum(this=event), "events"))
+            .from_(relation)
+            .group_by(exp.GroupingSets(expressions=[exp.Tuple(expressions=[c.copy()]) for c in bins])))
+
+
+def count_bins(engine: Engine, source: exp.Expression, features: Sequence[BinnedFeature],
+               plan: ColumnPlan) -> dict[tuple[str, str], tuple[int, int]]:
+    """(feature, bin label) → (rows, events), every bin of every feature (0 where empty): one
+    pass, or as many as keep each query within :data:`~scoremon.develop.width.MAX_COLUMNS`
+    (the scoring query lists about two columns a feature)."""
     counts = {(b.name, label): (0, 0) for b in features for label in bin_labels(b.feature)}
-    for row in engine.query(query, "counting the edited bins"):
-        for b in features:
-            label = row[f"{b.name}_bin"]
-            if label is not None:
-                counts[(b.name, label)] = (int(row["rows"]), int(row["events"] or 0))
-                break
+    for run, query in cut(list(features), lambda run: count_query(source, run, plan)):
+        for row in engine.query(query, "counting the edited bins"):
+            for b in run:
+                label = row[f"{b.name}_bin"]
+                if label is not None:
+                    counts[(b.name, label)] = (int(row["rows"]), int(row["events"] or 0))
+                    break
     return counts
 
