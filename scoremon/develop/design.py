@@ -65,6 +65,11 @@ def x_column(j: int) -> str:
     return f"__scoremon_x_{j}"
 
 
+def _named(value: exp.Expression, alias: str) -> exp.Alias:
+    """``value AS "alias"``, ``value`` taken as it is (not copied: it is always freshly built)."""
+    return exp.alias_(value, alias, quoted=True, copy=False)
+
+
 def woe_spec(features: Sequence) -> Spec:
     """A spec holding ``features`` (numeric or categorical, WoE per bin) with coefficient 1, so
     that each bin's log-odds is its WoE; only its binning is used."""
@@ -108,13 +113,13 @@ def design_query(design: Design) -> exp.Select:
     """SELECT fold, y, x_1 … x_p FROM the development table (see the module docstring)."""
     spec = woe_spec(design.features)
     fold = integer(0) if design.fold_count == 1 else fold_expression(column(design.key), design.fold_count)
-    selected = [exp.alias_(fold, FOLD, quoted=True),
-                exp.alias_(exp.Cast(this=design.event.copy(), to=exp.DataType.build("DOUBLE")), Y, quoted=True)]
+    selected = [_named(fold, FOLD),
+                _named(exp.Cast(this=design.event.copy(), to=exp.DataType.build("DOUBLE")), Y)]
     for j, feature in enumerate(spec.features, start=1):
         values = [number(t.log_odds) for t in feature_terms(spec, feature).bins]
-        selected.append(exp.alias_(bin_case(spec, feature, column(feature.column or feature.name), values),
-                                   x_column(j), quoted=True))
-    return exp.select(*selected).from_(design.source.copy())
+        selected.append(_named(bin_case(spec, feature, column(feature.column or feature.name), values),
+                                   x_column(j)))
+    return exp.select(*selected).from_(design.source.copy(), copy=False)
 
 
 def _x(j: int) -> exp.Expression:
@@ -154,7 +159,7 @@ def _step(name: str) -> exp.Table:
 
 
 def _sum(value: exp.Expression, alias: str) -> exp.Alias:
-    return exp.alias_(exp.Sum(this=value), alias, quoted=True)
+    return _named(exp.Sum(this=value), alias)
 
 
 GRADIENT, LOSS = -1, -2  # a model's blocks of sums besides the Hessian's rows (0 … p−1)
@@ -202,10 +207,10 @@ def pass_query(design: Design, betas: Mapping[int, np.ndarray], blocks: Sequence
     rows = {(m, part) for m, part in blocks if part >= 1}
     fitted = [column(FOLD), column(Y)] + [column(x_column(j)) for j in range(1, p)]
     for m in models:
-        fitted.append(exp.alias_(_eta(np.asarray(betas[m], dtype=float)), f"eta_{m}", quoted=True))
+        fitted.append(_named(_eta(np.asarray(betas[m], dtype=float)), f"eta_{m}"))
     design_step, fitted_step, mu_step, weighted_step, products_step = (
         f"{INTERNAL}{name}" for name in ("design", "fitted", "with_mu", "weighted", "products"))
-    inner = exp.select(*fitted).from_(_step(design_step))
+    inner = exp.select(*fitted).from_(_step(design_step), copy=False)
 
     # mu, then w = mu(1 − mu), the residual mu − y and the loss per row, then w·x_i: each product
     # made once per row, so that an aggregate is one multiplication (DuckDB does not share
@@ -217,8 +222,8 @@ def pass_query(design: Design, betas: Mapping[int, np.ndarray], blocks: Sequence
         eta = column(f"eta_{m}")
         mu = exp.Div(this=one.copy(), expression=exp.paren(exp.Add(
             this=one.copy(), expression=exp.Exp(this=exp.Neg(this=exp.paren(_clamped(eta), copy=False)))), copy=False))
-        with_mu += [eta.copy(), exp.alias_(mu, f"mu_{m}", quoted=True)]
-    middle = exp.select(*with_mu).from_(_step(fitted_step))
+        with_mu += [eta.copy(), _named(mu, f"mu_{m}")]
+    middle = exp.select(*with_mu).from_(_step(fitted_step), copy=False)
 
     weighted = [column(FOLD)] + [x.copy() for x in xs]
     for m in models:
@@ -230,22 +235,22 @@ def pass_query(design: Design, betas: Mapping[int, np.ndarray], blocks: Sequence
             expression=exp.Ln(this=exp.Add(this=one.copy(), expression=exp.Exp(this=exp.Neg(
                 this=case([(exp.GT(this=size.copy(), expression=number(ETA_CLAMP)), number(ETA_CLAMP))], size)))))
         )
-        weighted += [exp.alias_(w, f"w_{m}", quoted=True),
-                     exp.alias_(exp.Sub(this=mu.copy(), expression=column(Y)), f"r_{m}", quoted=True),
-                     exp.alias_(exp.Sub(this=softplus, expression=exp.Mul(this=column(Y), expression=eta.copy())),
-                                f"loss_{m}", quoted=True),
-                     exp.alias_(case([(exp.GT(this=size.copy(), expression=number(EXTREME_ETA)), number(1.0))],
-                                     number(0.0)), f"extreme_{m}", quoted=True)]
-    weighted_query = exp.select(*weighted).from_(_step(mu_step))
+        weighted += [_named(w, f"w_{m}"),
+                     _named(exp.Sub(this=mu.copy(), expression=column(Y)), f"r_{m}"),
+                     _named(exp.Sub(this=softplus, expression=exp.Mul(this=column(Y), expression=eta.copy())),
+                                f"loss_{m}"),
+                     _named(case([(exp.GT(this=size.copy(), expression=number(EXTREME_ETA)), number(1.0))],
+                                     number(0.0)), f"extreme_{m}")]
+    weighted_query = exp.select(*weighted).from_(_step(mu_step), copy=False)
 
     products = [column(FOLD)] + [x.copy() for x in xs]
     for m in models:
         products += [column(f"w_{m}"), column(f"r_{m}"), column(f"loss_{m}"), column(f"extreme_{m}")]
-        products += [exp.alias_(exp.Mul(this=column(f"w_{m}"), expression=_x(i)), f"wx_{m}_{i}", quoted=True)
+        products += [_named(exp.Mul(this=column(f"w_{m}"), expression=_x(i)), f"wx_{m}_{i}")
                      for i in range(1, p) if (m, i) in rows]
-    products_query = exp.select(*products).from_(_step(weighted_step))
+    products_query = exp.select(*products).from_(_step(weighted_step), copy=False)
 
-    selected = [column(FOLD), exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True)]
+    selected = [column(FOLD), _named(exp.Count(this=exp.Star()), "rows")]
     for m, part in blocks:
         if part == GRADIENT:
             r = column(f"r_{m}")
@@ -259,7 +264,8 @@ def pass_query(design: Design, betas: Mapping[int, np.ndarray], blocks: Sequence
                               f"h_{m}_{part}_{j}") for j in range(part, p)]
     return _steps([(design_step, design_query(design)), (fitted_step, inner), (mu_step, middle),
                    (weighted_step, weighted_query), (products_step, products_query)],
-                  exp.select(*selected).from_(_step(products_step)).group_by(column(FOLD)))
+                  exp.select(*selected).from_(_step(products_step), copy=False).group_by(
+                      column(FOLD), copy=False))
 
 
 def check_characteristics(count: int) -> None:
@@ -290,7 +296,8 @@ class EnginePasses:
     def __call__(self, betas: Mapping[int, np.ndarray]) -> dict[int, FoldSums]:
         self.count += 1
         p, k = self.design.columns, self.fold_count
-        sums = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)), np.zeros(k), np.zeros(k), np.zeros(k)) for m in betas}
+        sums = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)), np.zeros(k), np.zeros(k), np.zeros(k))
+                for m in betas}
         for blocks in pass_blocks(p, list(betas)):
             rows = fetch_rows(self.engine, pass_query(self.design, betas, blocks),
                               "a Newton step's sums over the development rows")
@@ -334,18 +341,16 @@ class EnginePasses:
             eta = case([(exp.EQ(this=column(FOLD), expression=integer(m)), _eta(np.asarray(b, dtype=float)))
                         for m, b in folded.items()])
             relation = _subquery(exp.select(
-                exp.alias_(column(FOLD), MONTH, quoted=True), exp.alias_(exp.Neg(this=exp.paren(eta, copy=False)), SCORE,
-                                                                          quoted=True),
-                exp.alias_(column(Y), OUTCOME, quoted=True)).from_(design.copy()).where(
+                _named(column(FOLD), MONTH), _named(exp.Neg(this=exp.paren(eta, copy=False)), SCORE),
+                _named(column(Y), OUTCOME)).from_(design.copy(), copy=False).where(
                 exp.In(this=column(FOLD), expressions=[integer(m) for m in folded])), "heldout")
             for row in fetch_rows(self.engine, discrimination_pass(relation, None, True),
                                   "the held-out rows' AUC and KS per fold"):
                 result[int(row[0])] = HistogramSums(*[float(v) for v in row[1:]])
         if k in betas:
             relation = _subquery(exp.select(
-                exp.alias_(exp.Neg(this=exp.paren(_eta(np.asarray(betas[k], dtype=float)), copy=False)), SCORE,
-                           quoted=True),
-                exp.alias_(column(Y), OUTCOME, quoted=True)).from_(design.copy()), "all_rows")
+                _named(exp.Neg(this=exp.paren(_eta(np.asarray(betas[k], dtype=float)), copy=False)), SCORE),
+                _named(column(Y), OUTCOME)).from_(design.copy(), copy=False), "all_rows")
             row = fetch_rows(self.engine, discrimination_pass(relation, None, False, points),
                              "the development rows' AUC and KS")[0]
             result[k] = HistogramSums(*[float(v) for v in row[:7]])
@@ -363,8 +368,8 @@ def moment_queries(design: Design) -> list[exp.Select]:
     sums += [_sum(exp.Mul(this=_x(i), expression=_x(j)), f"s_{i}_{j}") for i in range(1, p) for j in range(i, p)]
     step = f"{INTERNAL}design"
     return [_steps([(step, design_query(design))],
-                   exp.select(exp.alias_(exp.Count(this=exp.Star()), "rows", quoted=True), _sum(column(Y), "events"),
-                              *run).from_(_step(step)))
+                   exp.select(_named(exp.Count(this=exp.Star()), "rows"), _sum(column(Y), "events"),
+                              *run).from_(_step(step), copy=False))
             for run in runs(sums, MAX_COLUMNS - 2) or [[]]]
 
 
