@@ -16,7 +16,7 @@ Every pass reads it and returns only aggregates, GROUP BY fold:
   with |η| > 36. loss = ln(1 + e^η) − yη, written as max(η, 0) + ln(1 + e^(−|η|)) so that
   EXP never overflows and LN only meets arguments in [1, 2]. A pass whose queries would be
   wider than :data:`~scoremon.develop.width.MAX_COLUMNS` (PostgreSQL allows 1,664 per SELECT;
-  one model of 56 characteristics already sums 1,654) is cut into several queries, by models
+  one model of 55 characteristics sums 1,654) is cut into several queries, by models
   and by rows of the Hessian (:func:`pass_blocks`); each sum is the same in whichever query
   holds it.
 * :meth:`EnginePasses.histograms` — the held-out rows' log-odds histogram reduced in the engine
