@@ -1,4 +1,5 @@
-"""``scoremon demo``: build Quillfield Credit's book, check the demo spec, score the book.
+"""``scoremon demo``: build Quillfield Credit's book, develop version 1 of its model (bin, review,
+fit), then check, score, monitor and diff the committed versions on the book.
 
 :func:`run_demo` runs :data:`STEPS` in order. A step is a function that takes the shared
 :class:`DemoRun`, does its work, leaves what later steps need on the run (the book, the spec,
@@ -36,7 +37,7 @@ from scoremon.report.terminal import monitor as monitor_view
 from scoremon.spec import Spec, fingerprint
 
 from . import develop, generate
-from .develop import FITTED_SPEC_FILE, PROPOSED_BINS_FILE, REVIEWED_BINS_FILE, SPEC_V1
+from .develop import SPEC_V1
 from .generate import Book
 
 SPEC_V2 = Path(__file__).with_name("spec_v2.yaml")
@@ -252,8 +253,8 @@ def pack_history(run: DemoRun) -> StepOutcome:
                         f"{history.model_name} read back from the history tables into {pack}",))
 
 
-# The demo, in order. Steps added later (monitoring by month, then the diff of version 1
-# against version 2) go after "score the book": they read run.book, run.spec and the
+# The demo, in order: the development step first, on the book just built; the steps after it
+# work with the committed version 1 (run.spec_path) and read run.book, run.spec and the
 # scored table, and may add their tables to run.tables.
 STEPS: tuple[tuple[str, Step], ...] = (
     ("build the book", build_book),

@@ -24,7 +24,8 @@ import scipy.stats
 import statsmodels.api as statsmodels_api
 
 from demo_warehouse import develop, generate
-from demo_warehouse.run import DATABASE_NAME, FITTED_SPEC_FILE, SCORED, SPEC_V1, SPEC_V2
+from demo_warehouse.develop import FITTED_SPEC_FILE
+from demo_warehouse.run import DATABASE_NAME, SCORED, SPEC_V1, SPEC_V2
 from scoremon import api, cli
 from scoremon.report.cautions import CAUTIONS
 from scoremon.spec import fingerprint

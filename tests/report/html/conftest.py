@@ -17,8 +17,8 @@ from pathlib import Path
 import pytest
 
 from demo_warehouse import develop, generate
+from demo_warehouse.develop import REVIEWED_BINS_FILE
 from demo_warehouse.run import (
-    REVIEWED_BINS_FILE,
     DIFF_HTML_FILE,
     FIT_HTML_FILE,
     MONITOR_HTML_FILE,
