@@ -20,7 +20,6 @@ import duckdb
 import numpy as np
 import pandas as pd
 import pytest
-import scipy.stats
 import statsmodels.api as statsmodels_api
 
 from demo_warehouse import develop, generate
@@ -300,10 +299,7 @@ def test_version_1_leaves_out_age_and_region_and_keeps_the_review(developed):
     finally:
         engine.close()
     open_accounts = next(c for c in with_it.characteristics if c.name == "open_accounts")
-    assert open_accounts.p_value > 0.05
-    # [lib] the same Wald p from the normal distribution in scipy
-    assert open_accounts.p_value == pytest.approx(2 * scipy.stats.norm.sf(abs(open_accounts.unpenalised
-                                                                               / open_accounts.standard_error)))
+    assert open_accounts.p_value > 0.05  # its standard error is checked against statsmodels in tests/develop
 
 
 # ---------------------------------------------------------------- version 2: version 1 revised
