@@ -22,6 +22,11 @@ record's ``fitted_at`` and the baseline's ``computed_at``) and scoremon's versio
 again, on purpose, and review the change as a diff::
 
     python -m demo_warehouse.develop --out demo_warehouse/spec_v1.yaml --replace
+
+The coefficients are written to the last bit, so a change in how the fit sums (the order of
+a floating-point sum) shows as a change in their last digits. ``spec_v2.yaml`` copies version
+1's features that it does not revise: carry such changes over into it too
+(``tests/diff/test_demo_versions.py`` names any feature where the two differ).
 """
 from __future__ import annotations
 

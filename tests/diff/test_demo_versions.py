@@ -25,7 +25,9 @@ def test_version_2_rebins_drops_adds_recalibrates_and_remaps_reasons():
     assert diff.effect is Effect.STRUCTURE
     # nothing else moved: every other feature, the scaling and the grades are version 1's
     touched = {c.feature for c in diff.changes if c.feature}
-    assert touched == {"monthly_income", "channel", "open_accounts"}
+    assert touched == {"monthly_income", "channel", "open_accounts"}, (
+        "spec_v2.yaml should copy version 1's other features as they are; carry spec_v1.yaml's numbers over to "
+        f"{sorted(touched - {'monthly_income', 'channel', 'open_accounts'})}")
     assert not [c for c in diff.changes if c.kind in (ChangeKind.SCALING_CHANGED, ChangeKind.GRADE_BOUNDS_CHANGED)]
 
 
