@@ -59,13 +59,14 @@ LEFT_OUT_BY_POLICY = {
 # when fitted with the others (Wald p ≈ 0.25, read in the report of a fit without this drop).
 LEFT_OUT_BY_REVIEW = {"open_accounts": "not significant when fitted with the others"}
 
+# Grades: seven PD bands, A the lowest risk: below 0.5 %, 0.5–1 %, 1–2 %, 2–4 %, 4–8 %, 8–16 %,
+# 16 % and above. Each edge's PD doubles the one before, so the edges lie about one PDO (20
+# points) apart.
 SETTINGS = api.FitSettings(
     penalty="none", folds=5, key=generate.KEY_COLUMN,
     drop=tuple(sorted({*LEFT_OUT_BY_POLICY, *LEFT_OUT_BY_REVIEW})),
     base_score=600.0, base_odds=50.0, pdo=20.0, rounding="per_bin", grades="pd:0.005,0.01,0.02,0.04,0.08,0.16",
 )
-# Seven grades by PD band, A the lowest risk: below 0.5 %, 0.5–1 %, 1–2 %, 2–4 %, 4–8 %, 8–16 %,
-# 16 % and above; the odds halve from one band's edge to the next, one PDO (20 points) apart.
 NAMING = api.Naming(
     name="quillfield_retail_pd",
     version="1",
