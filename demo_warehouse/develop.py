@@ -17,26 +17,30 @@ The steps a model developer takes, each through the library face the commands ca
    points rounded per bin, seven grades by PD band.
 
 On the default book (:data:`demo_warehouse.generate.DEFAULT_ROWS` rows, the default seed) the
-fit writes ``demo_warehouse/spec_v1.yaml`` exactly, apart from when it ran (the development
-record's ``fitted_at`` and the baseline's ``computed_at``) and scoremon's version. To write it
-again, on purpose, and review the change as a diff::
+fit writes ``demo_warehouse/spec_v1.yaml`` again (:func:`differences`): every text and whole
+number the same, every other number within :data:`SAME_NUMBER` of it, apart from when it ran
+(the development record's ``fitted_at`` and the baseline's ``computed_at``) and scoremon's
+version. The coefficients are written to the last bit, and their last digits depend on the
+order of floating-point sums, which a different processor's BLAS kernels may change; hence the
+tolerance. To write the file again, on purpose, and review the change as a diff::
 
     python -m demo_warehouse.develop --out demo_warehouse/spec_v1.yaml --replace
 
-The coefficients are written to the last bit, so a change in how the fit sums (the order of
-a floating-point sum) shows as a change in their last digits. ``spec_v2.yaml`` copies version
-1's features that it does not revise: carry such changes over into it too
-(``tests/diff/test_demo_versions.py`` names any feature where the two differ).
+``spec_v2.yaml`` copies version 1's features that it does not revise: carry such changes over
+into it too (``tests/diff/test_demo_versions.py`` names any feature where the two differ).
 """
 from __future__ import annotations
 
 import argparse
+import math
 import sys
 import tempfile
 from dataclasses import dataclass
 from dataclasses import replace as replace_field
 from datetime import date
 from pathlib import Path
+
+import yaml
 
 from scoremon import api
 from scoremon.errors import InputError, ScoremonError
@@ -117,6 +121,39 @@ def develop(database: str | Path, folder: str | Path, spec_file: str | Path | No
     finally:
         engine.close()
     return Developed(proposed, reviewed, report, proposed_file, reviewed_file, Path(report.spec_file))
+
+
+# Two runs of the fit on the same rows agree far closer than this (a sum in another order moves
+# the last bit or two); a changed model moves its numbers far more.
+SAME_NUMBER = 1e-9
+# When a fit ran, and with which scoremon: not part of the model.
+STAMPS = frozenset({"fitted_at", "scoremon_version", "computed_at"})
+
+
+def differences(written: object, committed: object, where: str = "") -> list[str]:
+    """Where two spec documents (as YAML loads them) differ as models: texts, whole numbers and
+    the shape exactly, other numbers to :data:`SAME_NUMBER` relative, :data:`STAMPS` ignored."""
+    if isinstance(written, dict) and isinstance(committed, dict):
+        keys = (set(written) | set(committed)) - STAMPS
+        return [d for key in sorted(keys, key=str)
+                for d in differences(written.get(key), committed.get(key), f"{where}.{key}" if where else str(key))]
+    if isinstance(written, list) and isinstance(committed, list):
+        if len(written) != len(committed):
+            return [f"{where}: {len(written)} items, committed {len(committed)}"]
+        return [d for i, (a, b) in enumerate(zip(written, committed)) for d in differences(a, b, f"{where}[{i}]")]
+    if isinstance(written, float) and isinstance(committed, float):
+        if math.isclose(written, committed, rel_tol=SAME_NUMBER, abs_tol=SAME_NUMBER * 1e-3) or (
+                math.isnan(written) and math.isnan(committed)):
+            return []
+    elif type(written) is type(committed) and written == committed:
+        return []
+    return [f"{where}: {written!r}, committed {committed!r}"]
+
+
+def same_as_committed(spec_file: Path) -> list[str]:
+    """Where the spec at ``spec_file`` differs from the committed version 1 (see :func:`differences`)."""
+    return differences(yaml.safe_load(spec_file.read_text(encoding="utf-8")),
+                       yaml.safe_load(SPEC_V1.read_text(encoding="utf-8")))
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -107,9 +107,8 @@ def develop_model(run: DemoRun) -> StepOutcome:
     files.write_text(run.folder / FIT_HTML_FILE, fit_html(report, report.engine))
     d = report.discrimination
     first, last = proposed.months or ("?", "?")
-    committed = fingerprint(api.load_spec(SPEC_V1))
-    if report.spec_fingerprint == committed:
-        verdict = f"the same model as demo_warehouse/{SPEC_V1.name} (fingerprint {committed}), which the demo goes on with"
+    if not develop.same_as_committed(developed.spec_file):
+        verdict = f"the same model as demo_warehouse/{SPEC_V1.name}, which the demo goes on with"
     else:
         verdict = (f"on {report.rows:,} rows it differs from demo_warehouse/{SPEC_V1.name}, fitted on the default "
                    f"{generate.DEFAULT_ROWS:,}-row book, which the demo goes on with")
