@@ -1,4 +1,5 @@
-"""``scoremon demo``: build Quillfield Credit's book, check the demo spec, score the book.
+"""``scoremon demo``: build Quillfield Credit's book, develop version 1 of its model (bin, review,
+fit), then check, score, monitor and diff the committed versions on the book.
 
 :func:`run_demo` runs :data:`STEPS` in order. A step is a function that takes the shared
 :class:`DemoRun`, does its work, leaves what later steps need on the run (the book, the spec,
@@ -35,17 +36,18 @@ from scoremon.report.terminal import diff as diff_view
 from scoremon.report.terminal import monitor as monitor_view
 from scoremon.spec import Spec, fingerprint
 
-from . import generate
+from . import develop, generate
+from .develop import SPEC_V1
 from .generate import Book
 
-SPEC_V1 = Path(__file__).with_name("spec_v1.yaml")
 SPEC_V2 = Path(__file__).with_name("spec_v2.yaml")
 DATABASE_NAME = "quillfield.duckdb"
 SCORED = "scored_applications"
 SCORED_KEYS = (generate.KEY_COLUMN, generate.MONTH_COLUMN)
-# Accept at 560 and above (grades A to E): spec v1's intended use sends every decline and
-# every application in grades F and G to an underwriter.
-DIFF_CUTOFF = 560.0
+# Accept at 558 and above (grades A to E): spec v1's intended use sends every decline and
+# every application in grades F and G (PD 8 % and above: scores below 557.59) to an
+# underwriter. Scores are whole points, so 558 is that grade edge.
+DIFF_CUTOFF = 558.0
 DIFF_AUDIT_FILE = "diff_v1_v2.md"
 BASELINE_SPEC_FILE = "spec_v1_with_baseline.yaml"
 MONITOR_JSON_FILE = "monitor_v1.json"
@@ -97,33 +99,46 @@ def build_book(run: DemoRun) -> StepOutcome:
     return StepOutcome(lines, lambda: view.print_planted("planted for monitoring to find:", generate.PLANTED))
 
 
-BINNING_FILE = "development_bins.yaml"
-FITTED_SPEC_FILE = "spec_fitted.yaml"
-# kept out of the model by policy, as in version 1 (see demo_warehouse/fit_spec.py)
-LEFT_OUT_BY_POLICY = ("age", "region")
-
-
 def develop_model(run: DemoRun) -> StepOutcome:
-    """`scoremon bin` and `scoremon fit` on the development table: the model-development step."""
-    engine = api.open_engine(str(run.database))
-    try:
-        binned = api.bin_development(engine, generate.DEVELOPMENT, generate.OUTCOME_COLUMN, key=generate.KEY_COLUMN,
-                                     month_column=generate.MONTH_COLUMN, exclude=LEFT_OUT_BY_POLICY)
-        bins = api.write_binning(binned.binning, run.folder / BINNING_FILE, replace=True)
-        report = api.fit_development(engine, binned.binning, api.FitSettings(key=generate.KEY_COLUMN),
-                                     api.Naming(name="quillfield_application", version="fitted"),
-                                     run.folder / FITTED_SPEC_FILE, replace=True)
-        dialect = engine.dialect
-    finally:
-        engine.close()
-    files.write_text(run.folder / FIT_HTML_FILE, fit_html(report, dialect))
+    """`scoremon bin`, the reviewed bins recounted (`bin --recount`) and `scoremon fit` on the
+    development table: version 1 of the model, developed as :mod:`demo_warehouse.develop` says."""
+    developed = develop.develop(run.database, run.folder)
+    report, proposed = developed.fit, developed.proposed.binning
+    files.write_text(run.folder / FIT_HTML_FILE, fit_html(report, report.engine))
     d = report.discrimination
+    first, last = proposed.months or ("?", "?")
+    if not develop.same_as_committed(developed.spec_file):
+        verdict = f"the same model as demo_warehouse/{SPEC_V1.name}, which the demo goes on with"
+    else:
+        verdict = (f"on {report.rows:,} rows it differs from demo_warehouse/{SPEC_V1.name}, fitted on the default "
+                   f"{generate.DEFAULT_ROWS:,}-row book, which the demo goes on with")
     return StepOutcome((
-        f"binned {len(binned.binning.features)} characteristics of the development table (age and region left out "
-        f"by policy), fitted {len(report.characteristics)} by Newton–Raphson: Gini {d.gini:.3f} on the development "
-        f"rows, {d.cv_gini_mean:.3f} ± {d.cv_gini_sd:.3f} over 5 held-out folds. Wrote {bins.name} and "
-        f"{FITTED_SPEC_FILE}, and the fit's report with charts, {FIT_HTML_FILE}; the demo goes on with the reviewed version 1 (demo_warehouse/spec_v1.yaml).",
+        f"bin: {proposed.rows:,} rows, {proposed.events:,} events ({proposed.events / proposed.rows:.2%}), {first} to "
+        f"{last}; {len(proposed.features)} characteristics binned ({developed.proposed_file.name}), then the "
+        f"modeller's reviewed bins, demo_warehouse/{develop.REVIEWED_BINS.name}, recounted on the same rows.",
+        f"fit: {len(report.characteristics)} characteristics kept ({_left_out(report)}); no penalty (λ = {report.chosen_lambda:g}); Gini {d.gini:.3f} on the development rows, "
+        f"{d.cv_gini_mean:.3f} ± {d.cv_gini_sd:.3f} over {report.settings.folds} held-out folds.",
+        f"wrote {developed.spec_file.name} and {FIT_HTML_FILE}: {verdict}.",
     ))
+
+
+def _left_out(report: api.FitReport) -> str:
+    """Who the fit left out and why, in words: policy, review, then the fit's own rules."""
+    decided = {**develop.LEFT_OUT_BY_POLICY, **develop.LEFT_OUT_BY_REVIEW}
+    weak = [e.name for e in report.left_out if e.name not in decided and e.iv is not None
+            and e.iv < report.settings.min_iv]
+    other = [e.name for e in report.left_out if e.name not in decided and e.name not in weak]
+    words = [f"{_names(develop.LEFT_OUT_BY_POLICY)} out by policy", f"{_names(develop.LEFT_OUT_BY_REVIEW)} by review"]
+    if weak:
+        words.append(f"{_names(weak)} for IV under {report.settings.min_iv:g}")
+    if other:
+        words.append(f"{_names(other)} by the selection rules")
+    return ", ".join(words)
+
+
+def _names(names) -> str:
+    names = list(names)
+    return " and ".join([", ".join(names[:-1]), names[-1]]) if len(names) > 1 else (names[0] if names else "none")
 
 
 def check_spec(run: DemoRun) -> StepOutcome:
@@ -237,12 +252,12 @@ def pack_history(run: DemoRun) -> StepOutcome:
                         f"{history.model_name} read back from the history tables into {pack}",))
 
 
-# The demo, in order. Steps added later (monitoring by month, then the diff of version 1
-# against version 2) go after "score the book": they read run.book, run.spec and the
+# The demo, in order: the development step first, on the book just built; the steps after it
+# work with the committed version 1 (run.spec_path) and read run.book, run.spec and the
 # scored table, and may add their tables to run.tables.
 STEPS: tuple[tuple[str, Step], ...] = (
     ("build the book", build_book),
-    ("develop a model: bin and fit", develop_model),
+    ("develop version 1: bin, review, fit", develop_model),
     ("check the spec", check_spec),
     ("score the book", score_book),
     ("monitor the book month by month", monitor_book),

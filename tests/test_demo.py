@@ -1,25 +1,34 @@
-"""The demo: the book generator, the fit script behind spec_v1.yaml, and ``scoremon demo``.
+"""The demo: the book generator, the development step behind spec_v1.yaml, how spec_v2.yaml
+follows from it, and ``scoremon demo``.
 
 The demo's numbers are invented, so no test uses one as a check value: the generator is
 checked for determinism, shape, maturity of outcomes and the planted drift being there; the
-fit script's arithmetic is checked against outside references; the command end to end.
+committed specs are checked to be what their stated making gives (the development step run
+again; version 2's numbers made again with numpy, pandas and statsmodels); the command end to
+end. The fitting arithmetic itself is tested in tests/develop against outside references.
 """
 from __future__ import annotations
 
+import copy
+import dataclasses
 import math
 from datetime import date
+from decimal import ROUND_HALF_UP, Decimal
 from pathlib import Path
 
 import duckdb
 import numpy as np
 import pandas as pd
 import pytest
-import scipy.stats
+import statsmodels.api as statsmodels_api
+import yaml
 
-from demo_warehouse import fit_spec, generate
-from demo_warehouse.run import DATABASE_NAME, FITTED_SPEC_FILE, SCORED, SPEC_V1
+from demo_warehouse import develop, generate
+from demo_warehouse.develop import FITTED_SPEC_FILE
+from demo_warehouse.run import DATABASE_NAME, SCORED, SPEC_V1, SPEC_V2
 from scoremon import api, cli
 from scoremon.report.cautions import CAUTIONS
+from tests.develop import fitdata
 
 SMALL = 6_000
 MEDIUM = 60_000
@@ -212,55 +221,170 @@ def test_a_file_as_folder_is_an_input_error(tmp_path, capsys):
     assert "is a file, not a folder" in capsys.readouterr().err
 
 
-# ---------------------------------------------------------------- the fit script
+# ---------------------------------------------------------------- version 1: bin, review, fit
 
-def test_newton_raphson_matches_the_published_spector_fit():
-    # Spector & Mazzeo (1980) data shipped with statsmodels; coefficients, standard errors and
-    # log-likelihood printed in Greene, Econometric Analysis, 5th ed., ch. 21 [pub].
-    statsmodels_api = pytest.importorskip("statsmodels.api", reason="statsmodels ships the Spector data")
-    data = statsmodels_api.datasets.spector.load_pandas()
-    design = np.column_stack([np.ones(len(data.exog)), data.exog.to_numpy(dtype=float)])
-    fit = fit_spec.newton_raphson(design, data.endog.to_numpy(dtype=float), ["const", "GPA", "TUCE", "PSI"])
-    np.testing.assert_allclose(fit.coefficients, [-13.02134832, 2.82611297, 0.09515767, 2.37868773], rtol=1e-6)
-    np.testing.assert_allclose(fit.standard_errors, [4.93132463, 1.26294115, 0.14155421, 1.06456430], rtol=1e-5)
+@pytest.fixture(scope="module")
+def developed(tmp_path_factory):
+    """The default book, and the demo's development step run on it."""
+    folder = tmp_path_factory.mktemp("default")
+    default = generate.build_warehouse(folder / "default.duckdb")
+    return default, develop.develop(default.database, folder)
 
 
-def test_newton_raphson_reports_separation_as_an_error():
-    x = np.array([0.0, 1, 2, 3, 4, 5])
-    with pytest.raises(fit_spec.FitError, match="did not converge"):
-        fit_spec.newton_raphson(np.column_stack([np.ones(6), x]), (x > 2.5).astype(float), ["const", "x"])
+def test_the_development_step_reproduces_the_committed_spec(developed):
+    _, result = developed
+    found = develop.same_as_committed(result.spec_file)
+    assert not found, ("demo_warehouse/spec_v1.yaml is no longer what the development step writes; if the change is "
+                       "meant, run python -m demo_warehouse.develop --out demo_warehouse/spec_v1.yaml --replace and "
+                       "review the diff. First differences: " + "; ".join(found[:5]))
 
 
-def test_information_value_is_the_jeffreys_divergence():
-    # IV = KL(good || bad) + KL(bad || good): Rojas, Alvarez & Rojas, arXiv:2309.13183 [pub];
-    # compared live with scipy.stats.entropy [lib].
-    goods, bads = np.array([400.0, 300, 200, 100]), np.array([10.0, 20, 30, 40])
-    smoothed_goods, smoothed_bads = goods + 0.5, bads + 0.5
-    expected = (scipy.stats.entropy(smoothed_goods, smoothed_bads) + scipy.stats.entropy(smoothed_bads, smoothed_goods))
-    assert fit_spec.information_value(goods, bads, smoothed_goods.sum(), smoothed_bads.sum()) == pytest.approx(expected)
+def test_the_comparison_with_the_committed_spec_finds_a_changed_model(developed, tmp_path):
+    # a last-bit change passes; a coefficient moved by a millionth, a bin's text or a stamp-free
+    # field changed does not
+    _, result = developed
+    document = yaml.safe_load(result.spec_file.read_text(encoding="utf-8"))
+    committed = yaml.safe_load(SPEC_V1.read_text(encoding="utf-8"))
+    assert develop.differences(document, committed) == []
+    nudged = copy.deepcopy(document)
+    nudged["intercept"] = math.nextafter(nudged["intercept"], 0.0)
+    nudged["development"]["fitted_at"] = "another time"
+    assert develop.differences(nudged, committed) == []
+    moved = copy.deepcopy(document)
+    moved["features"][0]["coefficient"] *= 1 + 1e-6
+    assert [d.split(":")[0] for d in develop.differences(moved, committed)] == ["features[0].coefficient"]
+    renamed = copy.deepcopy(document)
+    renamed["features"][1]["name"] += "_x"
+    assert develop.differences(renamed, committed)
 
 
-def test_numeric_bins_hold_five_percent_and_woe_runs_one_way():
-    rng = np.random.default_rng(3)
-    x = rng.normal(size=20_000)
-    y = (rng.random(20_000) < 1 / (1 + np.exp(2.5 + 0.8 * x))).astype(float)
-    x[:300] = np.nan
-    binned = fit_spec.bin_numeric("x", x, y)
-    assert min(binned.bin_share) >= fit_spec.MIN_BIN_SHARE
-    steps = np.diff(binned.bin_woe)
-    assert np.all(steps < 0) or np.all(steps > 0)
-    assert binned.missing_own and binned.missing_share == pytest.approx(0.015)
-    # hand check of one bin's WoE = ln(%good / %bad), half a count added to each side
-    present = ~np.isnan(x)
-    top = present & (x >= binned.edges[-1])
-    goods, bads = np.sum(1 - y), np.sum(y)
-    hand = math.log(((np.sum(1 - y[top]) + 0.5) / goods) / ((np.sum(y[top]) + 0.5) / bads))
-    assert binned.bin_woe[-1] == pytest.approx(hand)
+def test_the_committed_bins_are_the_recount_of_the_reviewed_bins(developed):
+    # the committed file's counts are those of the recount on the default book (comments aside)
+    _, result = developed
+    assert api.read_binning(develop.REVIEWED_BINS).fingerprint == result.reviewed.binning.fingerprint
+    assert api.read_binning(result.reviewed_file).fingerprint == result.reviewed.binning.fingerprint
 
 
-def test_fit_script_reproduces_the_committed_spec(tmp_path):
-    book = generate.build_warehouse(tmp_path / "default.duckdb")
-    assert fit_spec.fit_spec(book.database) == SPEC_V1.read_text(encoding="utf-8")
+def two_digits(value: float) -> float:
+    """``value`` to two significant digits, half away from zero (Python's decimal module)."""
+    if value == 0 or not math.isfinite(value):
+        return value
+    exact = Decimal(repr(float(value)))
+    place = exact.adjusted() - 1
+    return float(exact.scaleb(-place).quantize(Decimal(1), rounding=ROUND_HALF_UP).scaleb(place))
+
+
+def test_the_reviewed_bins_are_the_proposal_with_the_documented_edits(developed):
+    # the edits bins_v1.yaml's opening comments list, and nothing else
+    _, result = developed
+    proposed = {b.name: b.feature for b in result.proposed.binning.features}
+    reviewed = {b.name: b.feature for b in api.read_binning(develop.REVIEWED_BINS).features}
+    assert list(reviewed) == list(proposed)
+    for name, feature in reviewed.items():
+        assert feature.description, name
+        was = proposed[name]
+        if feature.type == "numeric":
+            assert feature.closed == was.closed
+            assert [b.upper for b in feature.bins] == [two_digits(b.upper) for b in was.bins], name
+            assert [b.lower for b in feature.bins] == [two_digits(b.lower) for b in was.bins], name
+        else:
+            groups = {g.label: sorted(g.values) for g in feature.groups}
+            expected = {g.label: sorted(g.values) for g in was.groups}
+            if name == "housing":
+                expected["mortgage_or_owner"] = sorted(expected.pop("mortgage") + expected.pop("owner"))
+            assert groups == expected, name
+
+
+def test_version_1_leaves_out_age_and_region_and_keeps_the_review(developed):
+    _, result = developed
+    spec = api.load_spec(SPEC_V1)
+    assert not {"age", "region", "open_accounts"} & {f.name for f in spec.features}
+    assert set(spec.development.settings["drop"]) == {"age", "region", "open_accounts"}
+    left = {entry.name: entry.reason for entry in result.fit.left_out}
+    assert left["age"] == left["region"] == left["open_accounts"] == "dropped by --drop"
+    # the review's reason for open_accounts: not significant at 5 % when fitted with the others
+    engine = api.open_engine(str(developed[0].database), read_only=True)
+    try:
+        with_it = api.fit_development(engine, result.reviewed.binning,
+                                      dataclasses.replace(develop.SETTINGS, drop=("age", "region"), folds=1),
+                                      develop.NAMING, result.spec_file.with_name("with_open_accounts.yaml"))
+    finally:
+        engine.close()
+    open_accounts = next(c for c in with_it.characteristics if c.name == "open_accounts")
+    assert open_accounts.p_value > 0.05  # its standard error is checked against statsmodels in tests/develop
+
+
+# ---------------------------------------------------------------- version 2: version 1 revised
+
+def test_version_2_numbers_follow_from_its_header(developed):
+    # The header of spec_v2.yaml says how each new number was made from the default book; each
+    # is made again here independently: numpy quantiles, WoE in pandas, and the offset fit by
+    # [lib] statsmodels GLM (binomial, logit link, with an offset).
+    default, _ = developed
+    v1, v2 = api.load_spec(SPEC_V1), api.load_spec(SPEC_V2)
+    recent = query_frame(default.database, "SELECT * FROM applications WHERE application_month BETWEEN ? AND ?",
+                         [date(2025, 5, 1), date(2025, 11, 1)])
+    latest = query_frame(default.database, "SELECT monthly_income FROM applications WHERE application_month "
+                                           "BETWEEN ? AND ?", [date(2026, 4, 1), date(2026, 10, 1)])
+    assert recent["bad_12m"].notna().all() and len(recent) == 95_146
+    y = recent["bad_12m"].to_numpy(dtype=float)
+    assert round(100 * y.mean(), 2) == 7.08
+
+    income_v1 = next(f for f in v1.features if f.name == "monthly_income")
+    income_v2 = next(f for f in v2.features if f.name == "monthly_income")
+    shares = [v1.baseline.feature_shares["monthly_income"][income_v1.bin_label(b)] for b in income_v1.bins]
+    below = np.cumsum(shares)[:-1] / sum(shares)
+    quantiles = np.quantile(latest["monthly_income"].dropna().to_numpy(), below)
+    assert [b.upper for b in income_v2.bins[:-1]] == [two_digits(q) for q in quantiles]
+    assert income_v2.coefficient == income_v1.coefficient
+
+    def woe(feature, column):
+        places = bin_index(feature, values(recent[column]))
+        frame = pd.DataFrame({"bin": places, "y": y})
+        counts = frame.groupby("bin")["y"].agg(events="sum", rows="count").reindex(
+            range(len(feature.bins) + 1), fill_value=0)
+        good = (counts["rows"] - counts["events"]) / (len(y) - y.sum())
+        bad = counts["events"] / y.sum()
+        return np.where(counts["rows"] > 0, np.log(good / bad), 0.0)  # no bin here lacks events or non-events
+
+    expected = woe(income_v2, "monthly_income")
+    np.testing.assert_allclose([b.woe for b in income_v2.bins] + [income_v2.missing.woe], expected, atol=6e-7)
+    open_accounts = next(f for f in v2.features if f.name == "open_accounts")
+    reviewed = api.read_binning(develop.REVIEWED_BINS).feature("open_accounts").feature
+    assert [(b.lower, b.upper) for b in open_accounts.bins] == [(b.lower, b.upper) for b in reviewed.bins]
+    expected = woe(open_accounts, "open_accounts")
+    np.testing.assert_allclose([b.woe for b in open_accounts.bins] + [open_accounts.missing.woe], expected, atol=6e-7)
+
+    offset = sum(f.coefficient * fitdata.numpy_woe(f, values(recent[f.column or f.name]))
+                 for f in v2.features if f.name != "open_accounts")
+    design = np.column_stack([np.ones(len(y)), fitdata.numpy_woe(open_accounts, values(recent["open_accounts"]))])
+    fit = statsmodels_api.GLM(y, design, family=statsmodels_api.families.Binomial(), offset=offset).fit(tol=1e-12)
+    assert v2.intercept == pytest.approx(fit.params[0], abs=6e-7)
+    assert open_accounts.coefficient == pytest.approx(fit.params[1], abs=6e-7)
+    assert round(fit.bse[1], 3) == 0.036
+    assert not {f.name for f in v2.features} ^ ({f.name for f in v1.features} - {"channel"} | {"open_accounts"})
+
+
+def bin_index(feature, column_values) -> np.ndarray:
+    """Each value's bin of a numeric spec feature with bins (lower, upper], the missing bin last."""
+    assert feature.closed == "upper"
+    uppers = np.array([b.upper for b in feature.bins[:-1]])
+    return np.array([len(feature.bins) if v is None else int(np.searchsorted(uppers, v, side="left"))
+                     for v in column_values])
+
+
+def values(column: pd.Series) -> list:
+    """A column's values with NULL and NaN as None (what the reference binner takes)."""
+    return [None if value is pd.NA or value is None or (isinstance(value, float) and math.isnan(value)) else value
+            for value in column.astype(object)]
+
+
+def query_frame(database: Path, sql: str, parameters=()) -> pd.DataFrame:
+    connection = duckdb.connect(str(database), read_only=True)
+    try:
+        return connection.execute(sql, list(parameters)).df()
+    finally:
+        connection.close()
 
 
 def test_committed_spec_checks_and_uses_the_book_columns(book):
@@ -295,7 +419,7 @@ def test_demo_runs_end_to_end_and_scores_every_row(tmp_path, capsys):
     fitted = api.load_spec(tmp_path / FITTED_SPEC_FILE)
     assert fitted.development.table == "development" and fitted.development.rows > 0
     assert {"age", "region"}.isdisjoint(f.name for f in fitted.features)
-    assert "develop a model: bin and fit" in printed and "held-out folds" in printed
+    assert "develop version 1: bin, review, fit" in printed and "held-out folds" in printed
     grades = dict(query(database, f"SELECT grade, count(*) FROM {SCORED} GROUP BY 1"))
     spec = api.load_spec(SPEC_V1)
     assert set(grades) <= {g.name for g in spec.grades}

@@ -16,7 +16,7 @@ from ..dialects import render_name, render_table, render_type
 from ..errors import EngineError, InputError
 from ..trees import INTERNAL
 from .columns import column_of
-from .protocol import Column, ColumnSpec, Engine, Progress, Query, Row, first_line, named_rows
+from .protocol import TEXT, Column, ColumnSpec, Engine, Progress, Query, Row, first_line, named_rows
 from .urls import redact
 
 if TYPE_CHECKING:  # pandas is imported where a frame is made
@@ -36,6 +36,7 @@ class PostgresEngine(Engine):
     reads_files = False
     writes_parquet = False
     streams_batches = False  # a server: the fit's passes stay aggregate queries
+    worker_threads = 1  # nothing is streamed
 
     def __init__(self, url: str):
         # psycopg is an optional extra (``scoremon[engines]``): imported only when a PostgreSQL URL
@@ -82,8 +83,18 @@ class PostgresEngine(Engine):
                 # LIMIT 0: planned and typed, but no row is read
                 cursor.execute(f'SELECT * FROM ({sql}) AS "{INTERNAL}described" LIMIT 0')
                 # type names as PostgreSQL spells them (DOUBLE PRECISION, TEXT, NUMERIC, …)
-                return [column_of(column.name, column.type_display.upper(), self.dialect)
-                        for column in cursor.description]
+                described = [(column.name, column.type_display.upper(), column.type_code)
+                             for column in cursor.description]
+                # a type of an extension (CITEXT, say) has no name the driver knows, only its
+                # number: its name and category come from the catalogue
+                unnamed = sorted({code for _, name, code in described if name.isdigit()})
+                catalogue = {}
+                if unnamed:
+                    cursor.execute("SELECT oid, upper(typname), typcategory FROM pg_catalog.pg_type "
+                                   "WHERE oid = ANY(%s)", (unnamed,))
+                    catalogue = {oid: (name, category) for oid, name, category in cursor.fetchall()}
+                return [_catalogued(column_of(name, type_name, self.dialect), catalogue.get(code))
+                        for name, type_name, code in described]
 
         return self._run(work, purpose)
 
@@ -168,6 +179,16 @@ class PostgresEngine(Engine):
             names = [column.name for column in cursor.description or ()]
             return [tuple(_plain(value) for value in row) for row in cursor.fetchall()], names
 
+
+
+def _catalogued(column: Column, entry: tuple[str, str] | None) -> Column:
+    """A column of a type the driver knows only by number, named from the catalogue; a type of
+    PostgreSQL's string category (typcategory 'S', e.g. CITEXT) is text. Other unknown types
+    stay ``other``."""
+    if entry is None:
+        return column
+    name, category = entry
+    return Column(column.name, TEXT if category == "S" else column.kind, name, column.can_hold_nan)
 
 
 def _plain(value):

@@ -11,7 +11,8 @@ from scoremon.trees import table_path
 from scoremon.engines import open_engine
 from scoremon.engines.spark import spark_master
 from scoremon.errors import EngineError, InputError
-from tests.conftest import FIXTURES
+from tests.conftest import FIXTURES, open_test_engine
+from tests.sql import tree
 from tests.sql import fetched
 
 HOSTILE = 'x"; DROP TABLE t; --'
@@ -203,3 +204,18 @@ def test_an_engine_error_keeps_its_detail_as_a_field():
     error = raised.value
     assert (error.purpose, error.engine) == ("reading a missing table", "duckdb")
     assert "no_such_table" in error.detail and str(error) == f"duckdb: reading a missing table failed: {error.detail}"
+
+
+def test_a_type_known_only_to_the_catalogue_is_named_and_sorted_by_its_category(request):
+    # PostgreSQL's CITEXT (an extension that ships with PostgreSQL) reaches the driver as a bare
+    # type number; its catalogue category 'S' (string) makes it text (PostgreSQL documentation,
+    # pg_type.typcategory). A domain is described by its base type.
+    with open_test_engine(request, "postgres") as engine:
+        engine.execute(tree("CREATE EXTENSION IF NOT EXISTS citext", "postgres"), "adding citext")
+        engine.execute(tree("CREATE DOMAIN short_label AS varchar(10)", "postgres"), "adding a domain")
+        engine.write_rows(["t"], [("n", "DOUBLE")], [(1.0,)], "loading")
+        engine.execute(tree('ALTER TABLE t ADD COLUMN "housing" citext, ADD COLUMN "region" short_label', "postgres"),
+                       "adding text columns")
+        described = engine.describe(exp.select(exp.Star()).from_(table_path(["t"])), "describing")
+    assert [(c.name, c.kind, c.type_name) for c in described] == [
+        ("n", "numeric", "FLOAT8"), ("housing", "text", "CITEXT"), ("region", "text", "VARCHAR(10)")]

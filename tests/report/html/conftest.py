@@ -16,9 +16,9 @@ from pathlib import Path
 
 import pytest
 
-from demo_warehouse import generate
+from demo_warehouse import develop, generate
+from demo_warehouse.develop import REVIEWED_BINS_FILE
 from demo_warehouse.run import (
-    BINNING_FILE,
     DIFF_HTML_FILE,
     FIT_HTML_FILE,
     MONITOR_HTML_FILE,
@@ -70,8 +70,9 @@ def demo_reports(tmp_path_factory) -> DemoReports:
         api.monitor(api.load_spec(v2_path), engine, generate.APPLICATIONS, generate.MONTH_COLUMN, generate.AS_OF,
                     generate.OUTCOME_COLUMN)
         history = api.read_history(engine, v2.model.name)
-        penalised = api.fit_development(engine, api.read_binning(folder / BINNING_FILE),
-                                        api.FitSettings(key=generate.KEY_COLUMN, penalty="l2", folds=3, lambdas=6),
+        penalised = api.fit_development(engine, api.read_binning(folder / REVIEWED_BINS_FILE),
+                                        api.FitSettings(key=generate.KEY_COLUMN, penalty="l2", folds=3, lambdas=6,
+                                                        drop=develop.SETTINGS.drop),
                                         api.Naming(name="quillfield_application", version="ridge"),
                                         folder / "spec_ridge.yaml")
     finally:
