@@ -45,10 +45,12 @@ _OWNERS = {
     "Settings": (".develop.binning_file", "Settings"),
     "bin_development": (".develop.run", "bin_development"),
     "fit_development": (".develop.run", "fit_development"),
+    "fit_spec": (".develop.run", "fit_spec"),
     "penalty_alpha": (".develop.fitting", "penalty_alpha"),
     "read_binning": (".develop.binning_file", "read_binning"),
     "recount_binning": (".develop.run", "recount_binning"),
     "write_binning": (".develop.binning_file", "write_binning"),
+    "write_spec": (".develop.spec_writer", "write_spec"),
 }
 
 __all__ = sorted(_OWNERS)

@@ -28,6 +28,12 @@ MONTHS_IN_RANGE_HELP = ("how many months, ending with the as-of month, are in ra
                         "counted as out of range and left out (default 120, ten years; 1 to 1200)")
 
 
+def _replace_option(parser: argparse.ArgumentParser, outputs: str) -> None:
+    """--replace, worded the same on every command that writes files or tables."""
+    parser.add_argument("--replace", action="store_true",
+                        help=f"replace {outputs} when it exists (without it, an existing output is an error)")
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="scoremon",
@@ -49,7 +55,7 @@ def build_parser() -> argparse.ArgumentParser:
     compile_.add_argument("--table", default="input", help="table the SQL reads (default: input)")
     compile_.add_argument("--key", action="append", help="a column passed through to the output (repeatable)")
     compile_.add_argument("--out", help="write the SQL to this file instead of printing it")
-    compile_.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
+    _replace_option(compile_, "--out")
     compile_.set_defaults(run="compile_")
 
     score = commands.add_parser("score", help="score a table (DuckDB, PostgreSQL or Spark) or a Parquet/CSV file (DuckDB)")
@@ -61,7 +67,7 @@ def build_parser() -> argparse.ArgumentParser:
     score.add_argument("--key", action="append", help="a column passed through to the output (repeatable)")
     score.add_argument("--out-table", help="write the scores to this table in --db (written whole, atomically)")
     score.add_argument("--out", help="write the scores to this file: FILE.parquet (Parquet) or FILE.csv (CSV)")
-    score.add_argument("--replace", action="store_true", help="replace --out-table or --out when it exists (without it, an existing output is an error)")
+    _replace_option(score, "--out-table or --out")
     score.add_argument("--allow-empty", action="store_true",
                        help="write the output even when the input holds no rows (refused without it)")
     score.add_argument("--reason-text", action="store_true",
@@ -72,7 +78,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     schema = commands.add_parser("schema", help="print the spec's JSON Schema (for editors)")
     schema.add_argument("--out", help="write it to this file")
-    schema.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
+    _replace_option(schema, "--out")
     schema.set_defaults(run="schema")
 
     diff = commands.add_parser(
@@ -99,8 +105,7 @@ def build_parser() -> argparse.ArgumentParser:
     diff.add_argument("--markdown", metavar="FILE", help="also write an audit document (Markdown) to FILE")
     diff.add_argument("--html", metavar="FILE", help="also write a report with charts, one self-contained HTML "
                                                      "file, to FILE")
-    diff.add_argument("--replace", action="store_true", help="replace --json, --markdown and --html files when they "
-                                                             "exist (without it, an existing output is an error)")
+    _replace_option(diff, "a --json, --markdown or --html file")
     diff.set_defaults(run="diff")
 
     bench = commands.add_parser(
@@ -152,7 +157,7 @@ def build_parser() -> argparse.ArgumentParser:
     baseline.add_argument("--month-column", help="month column, for the development rows per month")
     baseline.add_argument("--out", required=True, metavar="NEW_SPEC", help="the new spec file to write")
     baseline.add_argument("--months-in-range", type=int, metavar="N", help=MONTHS_IN_RANGE_HELP)
-    baseline.add_argument("--replace", action="store_true", help="replace --out when it exists (without it, an existing output is an error)")
+    _replace_option(baseline, "--out")
     baseline.set_defaults(run="baseline")
 
     bin_ = commands.add_parser(
@@ -177,7 +182,7 @@ def build_parser() -> argparse.ArgumentParser:
     bin_.add_argument("--categorical", nargs="+", metavar="COLUMN", default=(),
                       help="whole-number columns to bin as categories (codes), not as numbers")
     bin_.add_argument("--out", required=True, metavar="BINS.yaml", help="the binning file to write")
-    bin_.add_argument("--replace", action="store_true", help="replace --out if it exists")
+    _replace_option(bin_, "--out")
     bin_.add_argument("--recount", metavar="BINS.yaml", help="count the bins of this (hand-edited) binning file "
                                                              "again exactly as written, instead of binning anew")
     defaults = BinSettings()
@@ -236,8 +241,7 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--event", help="what y = 1 means, in words")
     fit.add_argument("--performance-window", type=int, default=12, help="outcome window in months (default 12)")
     fit.add_argument("--out", required=True, metavar="SPEC.yaml", help="the new spec file")
-    fit.add_argument("--replace", action="store_true", help="replace --out, --json and --html files when they exist "
-                                                            "(without it, an existing output is an error)")
+    _replace_option(fit, "--out, a --json or an --html file")
     fit.add_argument("--json", metavar="FILE", help="write the fit report as JSON")
     fit.add_argument("--html", metavar="FILE", help="also write a report with charts, one self-contained HTML file, "
                                                     "to FILE")
@@ -281,8 +285,7 @@ def build_parser() -> argparse.ArgumentParser:
     monitor.add_argument("--json", metavar="FILE", help="also write every figure as JSON to FILE")
     monitor.add_argument("--html", metavar="FILE", help="also write a report with charts, one self-contained HTML "
                                                         "file, to FILE")
-    monitor.add_argument("--replace", action="store_true", help="replace --json and --html files when they exist "
-                                                                "(without it, an existing output is an error)")
+    _replace_option(monitor, "a --json or --html file")
     monitor.add_argument("--no-history", action="store_true",
                          help="do not append this run to the history tables (e.g. a trial run, or an engine "
                               "without transactions)")
@@ -302,7 +305,7 @@ def build_parser() -> argparse.ArgumentParser:
     pack.add_argument("--runs", nargs="+", metavar="RUN", help="only these runs (ids from the runs table), "
                                                                "instead of --from/--to")
     pack.add_argument("--html", required=True, metavar="FILE", help="the HTML file to write")
-    pack.add_argument("--replace", action="store_true", help="replace FILE when it exists")
+    _replace_option(pack, "FILE")
     pack.set_defaults(run="pack")
 
     demo = commands.add_parser("demo", help="build the demo warehouse and run the whole job on it")

@@ -143,11 +143,20 @@ def diff(args) -> int:
     return EXIT_OK if diff.is_equivalent else EXIT_FOUND
 
 
-def _write_html(target: Path, build) -> None:
-    """Build a report and write it whole (the target was checked before the run); say how long it took."""
+def _build_html(build) -> tuple[str, float]:
+    """A report's HTML text, and the seconds it took to build."""
     started = time.perf_counter()
-    files.write_text(target, build())
-    terminal.print_text(f"wrote {target} ({time.perf_counter() - started:.1f} s)")
+    return build(), time.perf_counter() - started
+
+
+def _write_built_html(target: Path, text: str, seconds: float) -> None:
+    """Write a built report whole (the target was checked before the run); say how long it took."""
+    files.write_text(target, text)
+    terminal.print_text(f"wrote {target} ({seconds:.1f} s)")
+
+
+def _write_html(target: Path, build) -> None:
+    _write_built_html(target, *_build_html(build))
 
 
 def bench(args) -> int:
@@ -250,17 +259,24 @@ def fit(args) -> int:
                         performance_window_months=args.performance_window)
     engine = api.open_engine(args.db, read_only=True)  # the model goes to a spec file, not the database
     try:
-        report = api.fit_development(engine, binning, settings, naming, out, args.table, args.outcome,
-                                     args.month_column, args.replace)
+        spec, report = api.fit_spec(engine, binning, settings, naming, out, args.table, args.outcome,
+                                    args.month_column, args.replace)
     finally:
         engine.close()
-    if json_file is not None:
-        files.write_text(json_file, to_json(report) + "\n")
-    fit_view.print_fit_report(report)
+    # every report is made before anything is written, so that a failing report leaves no spec
+    # behind without it
+    json_text = None if json_file is None else to_json(report) + "\n"
+    html = None
     if html_file is not None:
         from .report.html.fit import fit_html  # the report modules: loaded only when a report is asked for
 
-        _write_html(html_file, lambda: fit_html(report, engine.dialect))
+        html = _build_html(lambda: fit_html(report, engine.dialect))
+    api.write_spec(spec, out, args.replace, binning.file or "")
+    if json_text is not None:
+        files.write_text(json_file, json_text)
+    fit_view.print_fit_report(report)
+    if html is not None:
+        _write_built_html(html_file, *html)
     return EXIT_OK
 
 

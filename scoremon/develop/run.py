@@ -18,7 +18,7 @@ from ..errors import InputError
 from ..monitor import measure_development
 from ..sources import source_relation
 from ..spec import fingerprint
-from ..spec.model import Grade, Scaling
+from ..spec.model import Grade, Scaling, Spec
 from .binning import BinReport, bin_table, recount_table
 from .binning_file import Binning, Settings
 from .fitting import fit_binning
@@ -45,10 +45,11 @@ def recount_binning(engine: Engine, binning: Binning, table: str | None = None, 
     return recount_table(engine, source_relation(table=table), table, binning, outcome, key, month_column, progress)
 
 
-def fit_development(engine: Engine, binning: Binning, settings: FitSettings, naming: Naming, out: str | Path,
-                    table: str | None = None, outcome: str | None = None, month_column: str | None = None,
-                    replace: bool = False) -> FitReport:
-    """Fit a model on the characteristics of ``binning`` and write it as a new spec (``scoremon fit``).
+def fit_spec(engine: Engine, binning: Binning, settings: FitSettings, naming: Naming, out: str | Path,
+             table: str | None = None, outcome: str | None = None, month_column: str | None = None,
+             replace: bool = False) -> tuple[Spec, FitReport]:
+    """Fit a model on the characteristics of ``binning``: the new spec and its fit report, for
+    ``out`` but not yet written (see :func:`fit_development`, which writes it).
 
     The fit (:mod:`scoremon.develop.fitting`), then the spec with the baseline measured on the
     same table in the same run, and the grades (by score deciles or PD bands) — see
@@ -72,6 +73,15 @@ def fit_development(engine: Engine, binning: Binning, settings: FitSettings, nam
     if kind == "quantiles":
         grades = grades_from_deciles(baseline, int(values[0]))
     spec = build_spec(fitted, naming, scaling, grades, baseline)
+    return spec, replace_field(fitted.report, spec_file=str(out), spec_fingerprint=fingerprint(spec),
+                               model_name=spec.model.name, model_version=spec.model.version, run_at=run_at)
+
+
+def fit_development(engine: Engine, binning: Binning, settings: FitSettings, naming: Naming, out: str | Path,
+                    table: str | None = None, outcome: str | None = None, month_column: str | None = None,
+                    replace: bool = False) -> FitReport:
+    """Fit a model on the characteristics of ``binning`` and write it as a new spec (``scoremon
+    fit``): :func:`fit_spec`, then the spec written whole to ``out``."""
+    spec, report = fit_spec(engine, binning, settings, naming, out, table, outcome, month_column, replace)
     written = write_spec(spec, out, replace, binning.file or "")
-    return replace_field(fitted.report, spec_file=str(written), spec_fingerprint=fingerprint(spec),
-                         model_name=spec.model.name, model_version=spec.model.version, run_at=run_at)
+    return replace_field(report, spec_file=str(written))

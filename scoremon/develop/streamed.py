@@ -12,7 +12,9 @@ batches (:attr:`~scoremon.engines.Engine.streams_batches`), :class:`StreamedPass
 2. per pass reads that table in batches of :data:`BATCH_ROWS` rows, looks each bin's WoE up
    (:func:`scoremon.develop.design.woe_values`, in the CASE's bin order) and sums gradient,
    Hessian, loss and extreme rows per fold with numpy (the same formulas as
-   :func:`scoremon.develop.design.pass_query`). Memory is bounded by the batch, not the table.
+   :func:`scoremon.develop.design.pass_query`), several batches at once on the engine's
+   :attr:`~scoremon.engines.Engine.worker_threads`, added in the batches' order. Memory is
+   bounded by the batches in flight, not the table.
 
 The held-out histograms stay aggregate queries (:class:`~scoremon.develop.design.EnginePasses`).
 Engines that do not stream (PostgreSQL, Spark) keep :class:`EnginePasses`: nothing row-level
@@ -20,6 +22,9 @@ leaves them. :func:`open_passes` picks one and drops the temporary table afterwa
 """
 from __future__ import annotations
 
+import queue
+from collections import deque
+from concurrent.futures import ThreadPoolExecutor
 from contextlib import contextmanager
 from typing import Iterator, Mapping
 
@@ -46,7 +51,8 @@ def _small(value: exp.Expression) -> exp.Cast:
 
 
 def codes_query(design: Design) -> exp.Select:
-    """SELECT fold, y, bin_1 … bin_p: per row its fold, outcome and bin numbers, as SMALLINT."""
+    """SELECT fold, y, bin_1 … bin_p: per row its fold, outcome and bin numbers, as SMALLINT,
+    ordered by fold."""
     spec = woe_spec(design.features)
     fold = integer(0) if design.fold_count == 1 else fold_expression(column(design.key), design.fold_count)
     selected = [exp.alias_(_small(fold), FOLD, quoted=True), exp.alias_(_small(design.event.copy()), Y, quoted=True)]
@@ -54,7 +60,9 @@ def codes_query(design: Design) -> exp.Select:
         count = len(feature_terms(spec, feature).bins)
         found = bin_case(spec, feature, column(feature.column or feature.name), [integer(b) for b in range(count)])
         selected.append(exp.alias_(_small(found), bin_column(j), quoted=True))
-    return exp.select(*selected).from_(design.source.copy())
+    query = exp.select(*selected).from_(design.source.copy())
+    # in fold order, so that a batch's rows of one fold are one slice (no sort per pass)
+    return query if design.fold_count == 1 else query.order_by(column(FOLD))
 
 
 class StreamedPasses(EnginePasses):
@@ -63,6 +71,7 @@ class StreamedPasses(EnginePasses):
     def __init__(self, engine, design: Design):
         super().__init__(engine, design)
         self.woe = [np.asarray(values, dtype=float) for values in woe_values(design.features)]
+        self.threads = max(1, engine.worker_threads)
         self.table = engine.hold(codes_query(design), "binning the development rows once for the fit")
 
     def close(self) -> None:
@@ -71,53 +80,110 @@ class StreamedPasses(EnginePasses):
     def __call__(self, betas: Mapping[int, np.ndarray]) -> dict[int, FoldSums]:
         self.count += 1
         p, k = self.design.columns, self.fold_count
-        sums = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)), np.zeros(k), np.zeros(k), np.zeros(k))
-                for m in betas}
         betas = {m: np.asarray(b, dtype=float) for m, b in betas.items()}
+        total = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)), np.zeros(k), np.zeros(k), np.zeros(k))
+                 for m in betas}
         read = exp.select(exp.Star()).from_(table_path(self.table))
-        # one BLAS thread: the products are 16 columns wide, and OpenBLAS's threads spinning beside
-        # DuckDB's made a pass three times slower on a busy two-core machine (scoremon bench)
+        batches = self.engine.batches(read, "a Newton step's sums over the development rows", BATCH_ROWS)
+        # one BLAS thread per batch: the products are 16 columns wide, and OpenBLAS's threads
+        # spinning beside DuckDB's made a pass three times slower on a busy two-core machine
+        # (scoremon bench); the cores are used by summing several batches at once instead
         with threadpool_limits(1, user_api="blas"):
-            for batch in self.engine.batches(read, "a Newton step's sums over the development rows", BATCH_ROWS):
-                self._add(batch, betas, sums)
-        return sums
+            for part in _in_parallel(batches, lambda batch, scratch: self._batch(batch, betas, scratch),
+                                     lambda: _Scratch(BATCH_ROWS, p), self.threads):
+                _add(total, part)
+        return total
 
-    def _add(self, batch: Mapping[str, np.ndarray], betas: Mapping[int, np.ndarray],
-             sums: Mapping[int, FoldSums]) -> None:
+    def _batch(self, batch: Mapping[str, np.ndarray], betas: Mapping[int, np.ndarray],
+               scratch: "_Scratch") -> dict[int, FoldSums]:
+        """One batch's sums per model and fold."""
         p, k = self.design.columns, self.fold_count
         folds = np.asarray(batch[FOLD])
-        order = np.argsort(folds, kind="stable") if k > 1 else None
-        # column-major, so that each lookup writes one contiguous column; rows sorted by fold, so
-        # that each fold is one slice for the matrix products
-        x = np.empty((len(folds), p), order="F")
-        x[:, 0] = 1.0
+        n = len(folds)
+        # the held rows are in fold order (codes_query), so a batch's folds are slices; a sort
+        # is the fallback should an engine not keep the order
+        order = None if k == 1 or bool(np.all(folds[1:] >= folds[:-1])) else np.argsort(folds, kind="stable")
+        x, z = scratch.x[:n], scratch.z[:n]
         for j in range(1, p):
             codes = np.asarray(batch[bin_column(j)])
-            np.take(self.woe[j - 1], codes if order is None else codes[order], out=x[:, j])
+            # mode="clip" skips the per-element bounds check of the default mode (ten times
+            # slower on small integers); every code is in range, as the CASE yields a bin's
+            # position for every row (its ELSE is a bin)
+            np.take(self.woe[j - 1], codes if order is None else codes[order], out=x[:, j], mode="clip")
         y = np.asarray(batch[Y], dtype=float)
         if order is not None:
             y, folds = y[order], folds[order]
-        edges = np.searchsorted(folds, np.arange(k + 1)) if k > 1 else np.array([0, len(folds)])
+        edges = np.searchsorted(folds, np.arange(k + 1)) if k > 1 else np.array([0, n])
+        sums = {}
         for m, beta in betas.items():
+            s = sums[m] = FoldSums(np.zeros((k, p)), np.zeros((k, p, p)), np.zeros(k), np.zeros(k), np.zeros(k))
             eta = x @ beta
             mu = 1.0 / (1.0 + np.exp(-np.clip(eta, -ETA_CLAMP, ETA_CLAMP)))
-            root = np.sqrt(mu * (1.0 - mu))
-            residual = mu - y
             loss = np.logaddexp(0.0, eta) - y * eta
             extreme = np.abs(eta) > EXTREME_ETA
-            s = sums[m]
+            # Z = √w·x, so that ZᵀZ is one symmetric product (BLAS syrk, half the work of xᵀ(w·x))
+            np.multiply(x, np.sqrt(mu * (1.0 - mu))[:, None], out=z)
+            residual = mu - y
             for f in range(k):
                 a, b = edges[f], edges[f + 1]
                 if a == b:
                     continue
-                xf = x[a:b]
-                s.gradient[f] += xf.T @ residual[a:b]
-                # Z = √w·x, so that ZᵀZ is one symmetric product (BLAS syrk, half the work of xᵀ(w·x))
-                z = xf * root[a:b, None]
-                s.hessian[f] += z.T @ z
-                s.loss[f] += loss[a:b].sum()
-                s.rows[f] += b - a
-                s.extreme[f] += np.count_nonzero(extreme[a:b])
+                s.loss[f] = loss[a:b].sum()
+                s.rows[f] = b - a
+                s.extreme[f] = np.count_nonzero(extreme[a:b])
+                s.gradient[f] = x[a:b].T @ residual[a:b]
+                s.hessian[f] = z[a:b].T @ z[a:b]
+        return sums
+
+
+class _Scratch:
+    """One worker's float design and √w·design for a batch, allocated once per pass: column-major,
+    so that each lookup writes one contiguous column."""
+
+    def __init__(self, rows: int, columns: int):
+        self.x = np.empty((rows, columns), order="F")
+        self.x[:, 0] = 1.0
+        self.z = np.empty((rows, columns), order="F")
+
+
+def _add(total: Mapping[int, FoldSums], part: Mapping[int, FoldSums]) -> None:
+    for m, s in part.items():
+        t = total[m]  # frozen, its arrays added to in place
+        for mine, more in ((t.gradient, s.gradient), (t.hessian, s.hessian), (t.loss, s.loss), (t.rows, s.rows),
+                           (t.extreme, s.extreme)):
+            mine += more
+
+
+def _in_parallel(items: Iterator, work, scratch, threads: int) -> Iterator:
+    """``work(item, scratch)`` for each item on ``threads`` threads, each with a scratch space of
+    its own, yielding the results in the items' order (so that sums are added in the same order
+    whatever the threads' timing, and a fit is the same run after run). At most ``threads``
+    items are in flight, so memory stays bounded by the batches, not the table; numpy releases
+    the GIL in the lookups, the ufuncs and BLAS, so the threads run at once."""
+    if threads == 1:
+        space = scratch()
+        for item in items:
+            yield work(item, space)
+        return
+    free: queue.SimpleQueue = queue.SimpleQueue()
+    for _ in range(threads):
+        free.put(scratch())
+
+    def run(item):
+        space = free.get()
+        try:
+            return work(item, space)
+        finally:
+            free.put(space)
+
+    with ThreadPoolExecutor(threads, thread_name_prefix="scoremon-fit") as pool:
+        pending: deque = deque()
+        for item in items:
+            if len(pending) >= threads:
+                yield pending.popleft().result()
+            pending.append(pool.submit(run, item))
+        while pending:
+            yield pending.popleft().result()
 
 
 @contextmanager

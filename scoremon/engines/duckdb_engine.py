@@ -156,6 +156,13 @@ class DuckDBEngine(Engine):
                 return
             yield {name: batch.column(i).to_numpy(zero_copy_only=False) for i, name in enumerate(batch.schema.names)}
 
+    @property
+    def worker_threads(self) -> int:
+        """DuckDB's own thread setting: the cores this connection was given (``--threads``)."""
+        setting = self._run(lambda: self.connection.execute("SELECT current_setting('threads')").fetchone(),
+                            "reading the thread setting")
+        return int(setting[0])
+
     def release(self, table: Sequence[str]) -> None:
         sql = f"DROP TABLE IF EXISTS {render_table(table, self.dialect)}"
         self._run(lambda: self.connection.execute(sql), "dropping a temporary table")

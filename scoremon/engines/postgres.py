@@ -36,6 +36,7 @@ class PostgresEngine(Engine):
     reads_files = False
     writes_parquet = False
     streams_batches = False  # a server: the fit's passes stay aggregate queries
+    worker_threads = 1  # nothing is streamed
 
     def __init__(self, url: str):
         # psycopg is an optional extra (``scoremon[engines]``): imported only when a PostgreSQL URL

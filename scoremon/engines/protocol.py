@@ -147,6 +147,8 @@ class Engine(Protocol):
     # hold/batches/release work: the engine runs in this process, so a query's rows may be read
     # in batches into numpy without crossing a network (the fit's passes, scoremon.develop.streamed)
     streams_batches: bool
+    # threads a consumer of batches may work with beside the engine (the cores it was given)
+    worker_threads: int
 
     def execute(self, statement: Query, purpose: str) -> None:
         """Run one statement (a CREATE, a DROP, an INSERT); nothing is returned."""

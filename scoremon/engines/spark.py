@@ -74,6 +74,7 @@ class SparkEngine(Engine):
     reads_files = False
     writes_parquet = False
     streams_batches = False  # a server: the fit's passes stay aggregate queries
+    worker_threads = 1  # nothing is streamed
 
     def __init__(self, master: str = "local[1]", config: Mapping[str, str] | None = None):
         # pyspark is an optional, heavy extra (``scoremon[engines]``; it starts a JVM): imported

@@ -71,6 +71,21 @@ def test_an_existing_spec_is_never_replaced_unless_asked(development, tmp_path, 
     assert code == 0 and load_spec(out).development is not None
 
 
+def test_a_report_that_fails_leaves_no_spec_behind(development, tmp_path, capsys, monkeypatch):
+    # the reports are built before any file is written: a crash in one writes nothing (exit 3)
+    from scoremon.report.html import fit as fit_page
+
+    def broken(report, dialect):
+        raise RuntimeError("the chart could not be drawn")
+
+    monkeypatch.setattr(fit_page, "fit_html", broken)
+    url, bins, _ = development
+    out, json_file, html_file = tmp_path / "model.yaml", tmp_path / "fit.json", tmp_path / "fit.html"
+    code, _ = _fit(capsys, url, bins, out, "--folds", "1", "--json", str(json_file), "--html", str(html_file))
+    assert code == 3
+    assert not out.exists() and not json_file.exists() and not html_file.exists()
+
+
 def test_lasso_with_cv_and_pd_grades(development, tmp_path, capsys):
     url, bins, _ = development
     out = tmp_path / "lasso.yaml"

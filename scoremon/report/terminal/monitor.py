@@ -275,13 +275,19 @@ def _findings(view: Indented, report) -> None:
     runs.sort(key=lambda r: (FAMILY_ORDER.index(r["family"]), r["first"], r["what"]))
     view.emit(Text(f"findings by month range ({len(runs)})", style="bold"), 0)
     figure_width = max(len(r["figure"]) for r in runs)
-    table = _table(view, ("months", "left", 15), ("family", "left", 12), ("what", "left"), ("worst", "right", figure_width),
+    # the family heads its rows rather than taking a column, so that the "what" column has the
+    # room for a long characteristic name at 80 columns
+    table = _table(view, ("months", "left", 15), ("what", "left"), ("worst", "right", figure_width),
                    ("status", "left", 6))
-    what = table.columns[2]
-    what.no_wrap, what.overflow = False, "fold"  # a long feature name wraps rather than losing its end
+    what = table.columns[1]
+    what.no_wrap, what.overflow = False, "fold"  # a name longer still wraps rather than losing its end
+    family = None
     for r in runs[:MOST_FINDINGS]:
+        if r["family"] != family:
+            family = r["family"]
+            table.add_row(Text(family, style="italic"), "", "", "")
         months = r["first"] if r["first"] == r["last"] else f"{r['first']}–{r['last']}"
-        table.add_row(months, r["family"], r["what"], r["figure"] or "–", _status(r["status"]))
+        table.add_row(months, r["what"], r["figure"] or "–", _status(r["status"]))
     view.emit(table)
     if len(runs) > MOST_FINDINGS:
         view.emit(Text(f"… and {len(runs) - MOST_FINDINGS} more (every figure is in --json)", style="dim"))
