@@ -46,8 +46,8 @@ def say(record: dict) -> None:
 
 def open_database(database: str, threads: str, memory_limit: str) -> DuckDBEngine:
     """The child's DuckDB engine: the database file read-only (as the commands open it), threads
-    (``"0"``: DuckDB's default) and the DuckDB ``memory_limit`` under test."""
-    return DuckDBEngine(database, threads=int(threads) or None, memory_limit=memory_limit, read_only=True)
+    (``"0"``: DuckDB's default) and the DuckDB ``memory_limit`` under test (``""``: DuckDB's default)."""
+    return DuckDBEngine(database, threads=int(threads) or None, memory_limit=memory_limit or None, read_only=True)
 
 
 def run_child(entry: str, arguments: list[str], purpose: str,

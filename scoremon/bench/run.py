@@ -57,7 +57,7 @@ from ..sources import describe_source, float_columns
 from ..spec.model import Spec
 from ..trees import alias, case, column, integer, table_path, text
 from . import development, export_fit, fitting, queries, startup, workload
-from .fit_memory import measure_fit_memory
+from .fit_memory import StepMemory, measure_fit_memory
 from .memory import measure_peak_memory
 from .numpy_scorer import GradeSummary, score_with_numpy
 from .timing import PairTiming, time_pair
@@ -415,17 +415,17 @@ class _Bench:
         with self.observer.stage(f"binning, then fitting, {rows:,} rows in child processes") as progress:
             result = measure_fit_memory(database, self.folder, self.settings.threads, self.settings.memory_limit,
                                         progress)
-        fit = result.fit
+        fit, binning, limit = result.fit, result.binning, self.settings.memory_limit
         peak = fit.peak_bytes / GIB
         floats = export_fit.float_bytes(fit.rows, fit.characteristics)
         self.add(BenchLine("k", "peak memory fitting (bin, then fit)", "peak RSS", peak, "", 0.0,
                            peak, "GiB", Goal(2.0, at_most=True, strict=True), 1,
-                           f"{fit.rows:,} rows × {fit.characteristics} characteristics, L2, 5 folds, 20 λ: fit "
-                           f"{fit.seconds:.1f} s ({fit.passes} passes), bin {result.binning.seconds:.1f} s peaking at "
-                           f"{result.binning.peak_bytes / GIB:.2f} GiB in its own process; DuckDB memory_limit "
-                           f"{self.settings.memory_limit}, spilling into the bench folder. The export route holds "
-                           f"{fit.rows:,} × ({fit.characteristics} WoE + y) × 8 bytes = {floats / GIB:.2f} GiB "
-                           f"({floats / 1e9:.2f} GB) of floats alone"))
+                           f"{fit.rows:,} rows × {fit.characteristics} characteristics, L2, 5 folds, 20 λ, DuckDB "
+                           f"memory_limit {limit}, spilling into the bench folder: fit {fit.seconds:.1f} s "
+                           f"({fit.passes} passes){_stopped(fit, limit)}; bin {binning.seconds:.1f} s, peaking at "
+                           f"{binning.peak_bytes / GIB:.2f} GiB in its own process{_stopped(binning, limit)}. The "
+                           f"export route holds {fit.rows:,} × ({fit.characteristics} WoE + y) × 8 bytes = "
+                           f"{floats / GIB:.2f} GiB ({floats / 1e9:.2f} GB) of floats alone"))
 
     def threads(self) -> int:
         setting = exp.Anonymous(this="current_setting", expressions=[text("threads")])
@@ -461,6 +461,14 @@ def _coefficient_agreement(report: FitReport, route: export_fit.ExportFit) -> tu
     ours = np.r_[report.intercept, [c.coefficient for c in report.characteristics]]
     chosen = [step.lam for step in report.path].index(report.chosen_lambda)
     return float(np.max(np.abs(ours - route.coefficients))), chosen == route.chosen
+
+
+def _stopped(step: StepMemory, limit: str) -> str:
+    """How DuckDB stopped a step under the memory limit, when it did (the step then ran without one)."""
+    if not step.out_of_memory:
+        return ""
+    reason = step.out_of_memory.rsplit("EngineError: ", 1)[-1]
+    return f" (under memory_limit {limit} DuckDB stopped it — {reason} — so measured without a limit)"
 
 
 def _agreement(numpy_summary: GradeSummary, compiled_rows: list[Row]) -> str:
