@@ -77,6 +77,22 @@ def test_fit_memory_child_that_fails_names_its_purpose_and_leaves_no_files(tmp_p
     assert sorted(p.name for p in tmp_path.iterdir()) == ["empty.duckdb"]
 
 
+def test_a_step_stopped_by_the_memory_limit_is_measured_again_without_one(tmp_path):
+    # 4MB is too little for DuckDB to check the key's uniqueness: both children stop with
+    # "Out of Memory", run again without a limit, and say why
+    database = tmp_path / "rows.duckdb"
+    with DuckDBEngine(str(database)) as engine:
+        engine.write_table(workload.generate_rows(20_000), ["input"], "generating rows")
+        development.create_development(engine, "input")
+    result = measure_fit_memory(database, tmp_path, None, "4MB")
+    for step, purpose in ((result.binning, "binning"), (result.fit, "fitting")):
+        assert f"{purpose} in the fit-memory child process failed" in step.out_of_memory
+        assert "Out of Memory" in step.out_of_memory
+        assert step.rows == 20_000 and step.characteristics == 15 and step.peak_bytes > 0
+    assert result.fit.passes > 0
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["rows.duckdb"]
+
+
 @pytest.mark.parametrize("warm", [False, True])
 def test_time_pair_lets_the_second_side_lead(warm):
     calls = []
