@@ -112,18 +112,27 @@ def build_parser() -> argparse.ArgumentParser:
         "bench", help="measure scoring speed and memory as ratios against baselines, side by side",
         description="Generate synthetic rows for a scorecard of realistic shape in DuckDB, then time compiled "
                     "scoring against a bare scan, a hand-written CASE chain, an export to numpy and a Parquet "
-                    "copy, in alternating rounds of one run, and measure a fresh process's peak memory.",
+                    "copy, in alternating rounds of one run, and measure a fresh process's peak memory. The "
+                    "fitting lines time one Newton step of `fit` against a bare scan, `bin` + `fit` end to end "
+                    "against exporting the same WoE design to scikit-learn (same folds and λ grid), and measure "
+                    "the peak memory of `fit` in a fresh process.",
         epilog="exit codes: 0 every goal met; 1 a goal missed; 2 invalid input; 3 internal error; 130 interrupted",
     )
-    bench.add_argument("--rows", type=int, default=10_000_000, help="rows to score (default 10,000,000)")
+    bench.add_argument("--rows", type=int, default=10_000_000, help="rows of the bench table, scored and fitted (default 10,000,000)")
     bench.add_argument("--repeat", type=int, default=5, help="timed rounds per comparison (default 5)")
     bench.add_argument("--threads", type=int, default=None, help="DuckDB threads (default: all cores)")
+    bench.add_argument("--fit-repeat", type=int, default=1,
+                       help="timed rounds of line (j), bin + fit end to end ÷ the export route; each side takes "
+                            "minutes at 10M rows, so no warm-up round (default 1)")
     bench.add_argument("--memory-rows", type=int, default=50_000_000,
-                       help="rows for the peak-memory measurement (default 50,000,000)")
-    bench.add_argument("--memory-limit", default="1GB", help="DuckDB memory_limit of the memory test (default 1GB)")
-    bench.add_argument("--skip-memory", action="store_true", help="leave out the peak-memory measurement")
+                       help="rows for the peak-memory measurements of scoring (e) and fitting (k) "
+                            "(default 50,000,000)")
+    bench.add_argument("--memory-limit", default="1GB",
+                       help="DuckDB memory_limit of the memory measurements (default 1GB)")
+    bench.add_argument("--skip-memory", action="store_true", help="leave out the peak-memory measurements (e), (k)")
     bench.add_argument("--fit-only", action="store_true",
-                       help="run only the fitting line (i), after generating the rows; no scoring lines")
+                       help="run only the fitting lines (i), (i-sql), (j) and, unless --skip-memory, (k), after "
+                            "generating the rows; no scoring lines")
     bench.add_argument("--folder", default=None,
                        help="where temporary data goes (a fresh subfolder, removed afterwards; default: the system's)")
     bench.add_argument("--engines", nargs="*", metavar="URL", default=None,

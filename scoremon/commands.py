@@ -171,7 +171,7 @@ def bench(args) -> int:
         return EXIT_OK
     settings = BenchSettings(rows=args.rows, repeat=args.repeat, threads=args.threads, memory_rows=args.memory_rows,
                              skip_memory=args.skip_memory, memory_limit=args.memory_limit, folder=args.folder,
-                             fit_only=args.fit_only)
+                             fit_only=args.fit_only, fit_repeat=args.fit_repeat)
     report = run_bench(settings, bench_view.TerminalObserver())
     bench_view.print_bench_report(report)
     return EXIT_FOUND if any(line.goal_met is False for line in report.lines) else EXIT_OK

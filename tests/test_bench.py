@@ -15,7 +15,7 @@ from scoremon.cli import main
 from scoremon.compiler import compile_model
 from scoremon.spec.model import CategoricalFeature, LinearFeature, NumericFeature
 
-EVERY_LINE = ["a0", "a", "b", "a+", "a-r", "c", "d0", "d1", "d", "f", "g", "h", "i", "i-sql", "e"]
+EVERY_LINE = ["a0", "a", "b", "a+", "a-r", "c", "d0", "d1", "d", "f", "g", "h", "i", "i-sql", "j", "e", "k"]
 
 
 @pytest.fixture(scope="module")
@@ -42,20 +42,34 @@ def test_every_comparison_is_reported_with_both_sides_and_a_goal(report):
         assert math.isfinite(line.ratio) and line.ratio > 0, line
         assert line.first_value > 0, line
         if line.unit == "s":
-            assert line.second_value > 0 and line.rounds == 2, line
+            # (j) runs --fit-repeat rounds (1 by default): each side takes minutes at full size
+            assert line.second_value > 0 and line.rounds == (1 if line.key == "j" else 2), line
     goals = {line.key: line.goal.text for line in report.lines if line.goal}
     ratio = {line.key: line.ratio for line in report.lines}
     assert goals == {"a": f"≤ 1.35 × (a0) = {1.35 * ratio['a0']:.2f}", "b": "≤ 0.8", "c": "≥ 10",
                      "d": f"≤ (d0) + (d1) + 0.5 = {ratio['d0'] + ratio['d1'] + 0.5:.2f}", "e": "< 2", "f": "≤ 2",
-                     "g": "≤ 4", "h": "≤ 6", "i": "≤ 4"}
+                     "g": "≤ 4", "h": "≤ 6", "i": "≤ 4", "j": "≥ 5", "k": "< 2"}
     assert all(isinstance(line.goal_met, bool) for line in report.lines if line.goal)
-    memory = report.lines[-1]
-    assert memory.unit == "GiB" and "3,000 rows" in memory.detail
+    lines = {line.key: line for line in report.lines}
+    assert lines["e"].unit == "GiB" and "3,000 rows" in lines["e"].detail
+    assert lines["k"].unit == "GiB" and lines["k"].detail.startswith("3,000 rows × 15 characteristics")
 
 
 def test_numpy_route_agrees_with_compiled_scoring(report):
     _, report = report
     assert report.notes[0] == "numpy and compiled scoring agree on the rows in every grade"
+
+
+def test_export_route_agrees_with_the_fit(report):
+    # [lib] scikit-learn LogisticRegression (newton-cholesky) on the exported WoE design, the same
+    # folds and λ grid, C = 1/(N·λ): the same λ chosen, the coefficients there within 1e-6 (the
+    # issue's tolerance for L2 against scikit-learn)
+    _, report = report
+    line = next(line for line in report.lines if line.key == "j")
+    assert line.detail.startswith("3,000 rows × 15 characteristics, L2, 5 folds, 20 λ; 1 round, no warm-up")
+    assert "the same λ chosen: yes" in line.detail
+    assert float(line.detail.rsplit(" ", 1)[1]) <= 1e-6
+    assert not any("DISAGREE" in note for note in report.notes)
 
 
 def test_temporary_data_is_removed(report):
@@ -82,9 +96,9 @@ def test_cli_prints_every_line_and_its_verdict(tmp_path, capsys):
     code = main(["bench", "--rows", "2000", "--repeat", "1", "--skip-memory", "--folder", str(tmp_path)])
     printed = capsys.readouterr().out
     assert code in (0, 1)  # 1 when a goal is missed, which tiny inputs usually do
-    for key in ["(a)", "(b)", "(a+)", "(a-r)", "(a0)", "(c)", "(d)", "(d0)", "(d1)", "(f)", "(g)", "(h)"]:
+    for key in ["(a)", "(b)", "(a+)", "(a-r)", "(a0)", "(c)", "(d)", "(d0)", "(d1)", "(f)", "(g)", "(h)", "(i)", "(j)"]:
         assert key in printed
-    assert "(e)" not in printed
+    assert "(e)" not in printed and "(k)" not in printed
     assert ("missed" in printed) == (code == 1)
     assert list(tmp_path.iterdir()) == []
 
@@ -92,3 +106,13 @@ def test_cli_prints_every_line_and_its_verdict(tmp_path, capsys):
 def test_cli_refuses_nonsense_sizes(capsys):
     assert main(["bench", "--rows", "0", "--skip-memory"]) == 2
     assert "rows must be at least 1" in capsys.readouterr().err
+    assert main(["bench", "--fit-repeat", "0", "--skip-memory"]) == 2
+    assert "fit repeat must be at least 1, not 0" in capsys.readouterr().err
+
+
+def test_cli_help_describes_the_fitting_options(capsys):
+    with pytest.raises(SystemExit):
+        main(["bench", "--help"])
+    printed = " ".join(capsys.readouterr().out.split())
+    assert "--fit-repeat FIT_REPEAT timed rounds of line (j), bin + fit end to end ÷ the export route" in printed
+    assert "run only the fitting lines (i), (i-sql), (j) and, unless --skip-memory, (k)" in printed

@@ -21,6 +21,10 @@ what copying costs ((d0)).
 (e) peak memory of a fresh process scoring ``memory_rows`` rows to Parquet     goal < 2 GiB
 (i) one Newton step of `scoremon fit` (one model) ÷ bare scan of its columns    goal ≤ 4
 (i-sql) the same step as one aggregate query (PostgreSQL, Spark) ÷ bare scan   no goal
+(j) the export route — the same WoE design fetched into numpy, the same folds and λ grid
+    fitted by scikit-learn — ÷ `bin` + `fit` end to end (L2, 5 folds, 20 λ)    goal ≥ 5
+    (``fit_repeat`` rounds, 1 by default, without a warm-up round: each side takes minutes)
+(k) peak memory of a fresh process fitting ``memory_rows`` rows as `scoremon fit` does  goal < 2 GiB
 
 The run exits 1 (``scoremon bench``) when a goal is missed.
 (a)–(c) time an aggregate over the scored rows (rows, mean score and mean PD per grade), so
@@ -38,17 +42,22 @@ from datetime import date
 from pathlib import Path
 from typing import Protocol
 
+import numpy as np
 from sqlglot import exp
 
 from .. import api
 from ..compiler import compile_model, output_columns
+from ..develop.design import Design
+from ..develop.outcome import describe_columns, event_expression
+from ..develop.records import FitReport
 from ..develop.streamed import StreamedPasses
 from ..engines import DuckDBEngine, Progress, Row, Statement
 from ..errors import InputError
 from ..sources import describe_source, float_columns
 from ..spec.model import Spec
-from ..trees import alias, case, column, integer, text
-from . import fitting, queries, startup, workload
+from ..trees import alias, case, column, integer, table_path, text
+from . import development, export_fit, fitting, queries, startup, workload
+from .fit_memory import StepMemory, measure_fit_memory
 from .memory import measure_peak_memory
 from .numpy_scorer import GradeSummary, score_with_numpy
 from .timing import PairTiming, time_pair
@@ -60,6 +69,7 @@ BOOK, SCORED_BOOK, SCORED_ROWS = "book", "scored_book", "scored_rows"
 BOOK_AS_OF = date(2025, 12, 31)
 A_OVER_BINNING = 1.35  # (a) ≤ this × (a0): scoring adds under a third to finding the bins
 D_BEYOND_FLOOR = 0.5  # (d) ≤ (d0) + (d1) + this: labels, points, score and reasons cost under half a copy
+SAME_COEFFICIENTS = 1e-6  # (j): the issue's tolerance for L2 against scikit-learn
 
 
 @dataclass(frozen=True)
@@ -73,7 +83,8 @@ class BenchSettings:
     skip_memory: bool = False
     memory_limit: str = "1GB"
     folder: str | None = None
-    fit_only: bool = False  # only line (i) (and its side line), no scoring lines, no memory test
+    fit_only: bool = False  # only the fitting lines (i), (i-sql), (j) and (k): no scoring lines, no (e)
+    fit_repeat: int = 1  # rounds of line (j), each side minutes long at 10M rows
 
 
 @dataclass(frozen=True)
@@ -319,27 +330,102 @@ class _Bench:
                         "aggregate query", lambda: run(step, "one Newton step"),
                         "bare scan", lambda: run(bare, "bare scan"), None)
 
-    def measure_memory(self) -> None:
+    def compare_development(self) -> None:
+        """(j) the export route ÷ `bin` + `fit` end to end on the bench rows (see
+        :mod:`.development` and :mod:`.export_fit`); the export route starts from what `fit`
+        chose (characteristics, λ grid), so `bin` + `fit` leads each pair of rounds."""
+        if not export_fit.available():
+            self.notes.append("(j) not measured: the export route needs scikit-learn (pip install scikit-learn)")
+            return
+        with self.observer.stage("drawing an outcome for the development rows") as progress:
+            development.create_development(self.engine, TABLE, progress)
+        binning_file, spec_file = self.folder / "development-binning.yaml", self.folder / "development-spec.yaml"
+        made: dict = {}
+
+        def ours():
+            started = time.perf_counter()
+            made["binning"] = development.bin_step(self.engine, binning_file)
+            made["bin_seconds"] = time.perf_counter() - started
+            made["report"] = development.fit_step(self.engine, binning_file, spec_file)
+
+        def export():
+            report = made["report"]
+            started = time.perf_counter()
+            data = export_fit.export_design(self.engine, _fitted_design(self.engine, made["binning"], report))
+            made["export_seconds"] = time.perf_counter() - started
+            made["export"] = export_fit.fit_exported(data, [step.lam for step in report.path],
+                                                     development.fit_settings().folds)
+
+        rounds = self.settings.fit_repeat
+        title = "export to numpy, scikit-learn ÷ bin + fit"
+        try:
+            with self.observer.stage(f"(j) {title}"):
+                timing = time_pair(export, ours, rounds, warm=False, second_leads=True)
+        finally:
+            binning_file.unlink(missing_ok=True)
+            spec_file.unlink(missing_ok=True)
+            development.drop_development(self.engine)
+        report, route = made["report"], made["export"]
+        difference, same_lambda = _coefficient_agreement(report, route)
+        detail = (f"{report.rows:,} rows × {len(report.characteristics)} characteristics, L2, "
+                  f"{report.settings.folds} folds, {len(report.path)} λ; {rounds} round{'s' if rounds > 1 else ''}, "
+                  f"no warm-up; bin {made['bin_seconds']:.1f} s + fit "
+                  f"{timing.second[-1] - made['bin_seconds']:.1f} s ({report.passes} passes) against fetching "
+                  f"{route.float_bytes / GIB:.2f} GiB of floats {made['export_seconds']:.1f} s + scikit-learn "
+                  f"{timing.first[-1] - made['export_seconds']:.1f} s ({route.fits} fits, {route.iterations} "
+                  f"Newton iterations); the same λ chosen: {'yes' if same_lambda else 'NO'}, largest coefficient "
+                  f"difference there {difference:.1e}")
+        self.add(BenchLine("j", title, "export route", timing.first_seconds, "bin + fit", timing.second_seconds,
+                           timing.ratio, "s", Goal(5.0, at_most=False), rounds, detail))
+        if not same_lambda or difference > SAME_COEFFICIENTS:
+            self.notes.append(f"(j) scikit-learn and scoremon fit DISAGREE: largest coefficient difference "
+                              f"{difference:.1e} (bound {SAME_COEFFICIENTS:g}), same λ chosen: {same_lambda}")
+
+    def generate_memory_rows(self) -> Path:
+        """The memory lines' rows in a DuckDB file of their own (the bench engine is closed by then)."""
         rows = self.settings.memory_rows
         database = self.folder / "memory.duckdb"
         generator = DuckDBEngine(str(database), threads=self.settings.threads)
         try:
-            with self.observer.stage(f"generating {rows:,} rows for the memory test") as progress:
-                generator.write_table(workload.generate_rows(rows), [TABLE],
-                                      "generating the memory-test rows", progress)
+            with self.observer.stage(f"generating {rows:,} rows for the memory tests") as progress:
+                generator.write_table(workload.generate_rows(rows), [TABLE], "generating the memory-test rows",
+                                      progress)
+            with self.observer.stage(f"drawing an outcome for {rows:,} rows") as progress:
+                development.create_development(generator, TABLE, progress)
         finally:
             generator.close()
+        return database
+
+    def measure_memory(self, database: Path) -> None:
         out_file = self.folder / "memory-scored.parquet"
+        rows = self.settings.memory_rows
         with self.observer.stage(f"scoring {rows:,} rows in a child process") as progress:
             result = measure_peak_memory(database, out_file, self.settings.threads, self.settings.memory_limit,
                                          progress)
         out_file.unlink(missing_ok=True)
-        database.unlink(missing_ok=True)
         peak = result.peak_bytes / GIB
         self.add(BenchLine("e", "peak memory scoring to Parquet", "peak RSS", peak, "", 0.0,
                            peak, "GiB", Goal(2.0, at_most=True, strict=True), 1,
                            f"{result.rows:,} rows in {result.seconds:.1f} s, DuckDB memory_limit "
                            f"{self.settings.memory_limit}"))
+
+    def measure_fit_memory(self, database: Path) -> None:
+        """(k) `bin`, then `fit`, each in a fresh child process; the fit's peak is the line's value."""
+        rows = self.settings.memory_rows
+        with self.observer.stage(f"binning, then fitting, {rows:,} rows in child processes") as progress:
+            result = measure_fit_memory(database, self.folder, self.settings.threads, self.settings.memory_limit,
+                                        progress)
+        fit, binning, limit = result.fit, result.binning, self.settings.memory_limit
+        peak = fit.peak_bytes / GIB
+        floats = export_fit.float_bytes(fit.rows, fit.characteristics)
+        self.add(BenchLine("k", "peak memory fitting (bin, then fit)", "peak RSS", peak, "", 0.0,
+                           peak, "GiB", Goal(2.0, at_most=True, strict=True), 1,
+                           f"{fit.rows:,} rows × {fit.characteristics} characteristics, L2, 5 folds, 20 λ, DuckDB "
+                           f"memory_limit {limit}, spilling into the bench folder: fit {fit.seconds:.1f} s "
+                           f"({fit.passes} passes){_stopped(fit, limit)}; bin {binning.seconds:.1f} s, peaking at "
+                           f"{binning.peak_bytes / GIB:.2f} GiB in its own process{_stopped(binning, limit)}. The "
+                           f"export route holds {fit.rows:,} × ({fit.characteristics} WoE + y) × 8 bytes = "
+                           f"{floats / GIB:.2f} GiB ({floats / 1e9:.2f} GB) of floats alone"))
 
     def threads(self) -> int:
         setting = exp.Anonymous(this="current_setting", expressions=[text("threads")])
@@ -361,6 +447,30 @@ def _book(table: str) -> exp.Select:
                       exp.alias_(outcome, "outcome", quoted=True)).from_(queries.relation(table))
 
 
+def _fitted_design(engine, binning, report: FitReport) -> Design:
+    """The WoE design `fit` chose (its characteristics, in its order), folds from the same key."""
+    source = table_path([development.DEVELOPMENT])
+    event = event_expression(describe_columns(engine, source)[workload.OUTCOME])
+    features = tuple(binning.feature(c.name).feature for c in report.characteristics)
+    return Design(source, features, event, workload.KEY, report.settings.folds)
+
+
+def _coefficient_agreement(report: FitReport, route: export_fit.ExportFit) -> tuple[float, bool]:
+    """Largest |difference| between the two routes' coefficients at the chosen λ (intercept
+    included), and whether both chose the same λ of the grid."""
+    ours = np.r_[report.intercept, [c.coefficient for c in report.characteristics]]
+    chosen = [step.lam for step in report.path].index(report.chosen_lambda)
+    return float(np.max(np.abs(ours - route.coefficients))), chosen == route.chosen
+
+
+def _stopped(step: StepMemory, limit: str) -> str:
+    """How DuckDB stopped a step under the memory limit, when it did (the step then ran without one)."""
+    if not step.out_of_memory:
+        return ""
+    reason = step.out_of_memory.rsplit("EngineError: ", 1)[-1]
+    return f" (under memory_limit {limit} DuckDB stopped it — {reason} — so measured without a limit)"
+
+
 def _agreement(numpy_summary: GradeSummary, compiled_rows: list[Row]) -> str:
     compiled = {str(r.grade): int(r.rows) for r in compiled_rows}
     route = dict(zip(numpy_summary.grades, numpy_summary.rows))
@@ -371,7 +481,8 @@ def _agreement(numpy_summary: GradeSummary, compiled_rows: list[Row]) -> str:
 
 def _check_settings(settings: BenchSettings) -> None:
     problems = [f"{name} must be at least 1, not {value}" for name, value in
-                (("rows", settings.rows), ("repeat", settings.repeat), ("memory rows", settings.memory_rows))
+                (("rows", settings.rows), ("repeat", settings.repeat), ("memory rows", settings.memory_rows),
+                 ("fit repeat", settings.fit_repeat))
                 if value < 1]
     if settings.threads is not None and settings.threads < 1:
         problems.append(f"threads must be at least 1, not {settings.threads}")
@@ -384,7 +495,7 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
 
     >>> report = run_bench(BenchSettings(rows=2_000, repeat=1, skip_memory=True))
     >>> [line.key for line in report.lines]
-    ['a0', 'a', 'b', 'a+', 'a-r', 'c', 'd0', 'd1', 'd', 'f', 'g', 'h', 'i', 'i-sql']
+    ['a0', 'a', 'b', 'a+', 'a-r', 'c', 'd0', 'd1', 'd', 'f', 'g', 'h', 'i', 'i-sql', 'j']
     """
     _check_settings(settings)
     observer = observer or SilentObserver()
@@ -403,11 +514,15 @@ def run_bench(settings: BenchSettings, observer: BenchObserver | None = None) ->
                 bench.compare_monitor()
                 bench.compare_startup()
             bench.compare_newton_step()
+            bench.compare_development()
             threads = bench.threads()
         finally:
             bench.engine.close()
-        if not (settings.skip_memory or settings.fit_only):
-            bench.measure_memory()
+        if not settings.skip_memory:
+            database = bench.generate_memory_rows()
+            if not settings.fit_only:
+                bench.measure_memory(database)
+            bench.measure_fit_memory(database)
         return BenchReport(settings.rows, threads, settings.repeat, tuple(bench.lines), tuple(bench.notes))
     finally:
         shutil.rmtree(folder, ignore_errors=True)

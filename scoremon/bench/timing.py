@@ -39,14 +39,18 @@ def seconds(work: Callable[[], object]) -> float:
     return time.perf_counter() - started
 
 
-def time_pair(first: Callable[[], object], second: Callable[[], object], repeat: int, warm: bool = True) -> PairTiming:
-    """Time ``first`` and ``second`` ``repeat`` times each, in alternating order."""
+def time_pair(first: Callable[[], object], second: Callable[[], object], repeat: int, warm: bool = True,
+              second_leads: bool = False) -> PairTiming:
+    """Time ``first`` and ``second`` ``repeat`` times each, in alternating order.
+
+    ``second_leads``: ``second`` runs first in the first round (and every other round after it),
+    for work that needs what ``second`` made; without ``warm`` it also pays the cold start."""
     if warm:
-        first()
-        second()
+        for work in ((second, first) if second_leads else (first, second)):
+            work()
     a, b = [], []
     for round_ in range(repeat):
-        if round_ % 2 == 0:
+        if (round_ % 2 == 0) != second_leads:
             a.append(seconds(first))
             b.append(seconds(second))
         else:

@@ -5,7 +5,9 @@ ones (5, 12 and 30 values), one linear term and ten reason statements of which t
 returned per row — the shape of a typical application scorecard. The rows are drawn inside
 DuckDB from a hash of the row number, so every run (and every thread count) sees the same
 data, with NULLs, NaN, ±infinity and unseen categories in small shares so that every branch
-of the scoring SQL is exercised.
+of the scoring SQL is exercised. Each row carries a unique key (its row number), from which
+`fit` makes its cross-validation folds; :func:`development_rows` adds an outcome drawn from the
+spec's own PD, so that the rows can be binned and fitted as a development table.
 
 Everything here is built as sqlglot trees from our own constants; only a table name chosen by
 the caller enters, and only as a quoted identifier.
@@ -18,6 +20,7 @@ from datetime import date
 import yaml
 from sqlglot import exp
 
+from ..compiler import compile_model
 from ..trees import case, column, identifier, integer, number, text
 from ..spec import parse_spec
 from ..spec.model import Spec
@@ -157,12 +160,15 @@ def bench_spec(rounding: str = "none") -> Spec:
 # ---------------------------------------------------------------- the rows
 
 ROW = "row_number"
+KEY = "application_id"  # the row number, kept: unique, a whole number (fit's folds come from it)
+OUTCOME = "defaulted"  # 1 for an event, in the development rows
+OUTCOME_SEED = 7_000  # no feature draws from this seed: the event draw is independent of the values
 
 
-def _uniform(seed: int) -> exp.Expression:
-    """A value in [0, 1) drawn from a hash of the row number and ``seed`` (deterministic)."""
+def _uniform(seed: int, of: str = ROW) -> exp.Expression:
+    """A value in [0, 1) drawn from a hash of column ``of`` (the row number) and ``seed`` (deterministic)."""
     modulus = 1_000_003
-    hashed = exp.Anonymous(this="hash", expressions=[column(ROW), integer(seed)])
+    hashed = exp.Anonymous(this="hash", expressions=[column(of), integer(seed)])
     remainder = exp.Mod(this=hashed, expression=integer(modulus))
     return exp.Div(this=exp.Cast(this=remainder, to=exp.DataType.build("DOUBLE")), expression=number(modulus))
 
@@ -197,8 +203,14 @@ def _category_value(c: CategoryColumn, seed: int) -> exp.Expression:
 
 
 def input_columns() -> list[str]:
-    """The input columns, in table order."""
+    """The spec's input columns, in table order (the key follows them)."""
     return [c.name for c in NUMERIC] + [c.name for c in CATEGORICAL] + [LINEAR.name]
+
+
+def characteristic_columns() -> list[str]:
+    """The columns `bin` and `fit` develop a model from: the spec's 15 binned characteristics
+    (its linear term stays out, as in the Newton-step line)."""
+    return [c.name for c in NUMERIC] + [c.name for c in CATEGORICAL]
 
 
 def text_columns() -> list[str]:
@@ -206,13 +218,14 @@ def text_columns() -> list[str]:
 
 
 def generate_rows(rows: int, start: int = 0) -> exp.Select:
-    """``rows`` synthetic input rows (row numbers ``start`` …), one column per spec feature."""
+    """``rows`` synthetic input rows (row numbers ``start`` …), one column per spec feature, then the key."""
     selected = []
     for k, c in enumerate(NUMERIC):
         selected.append(exp.alias_(_numeric_value(c, 10 * k), c.name, quoted=True))
     for k, c in enumerate(CATEGORICAL):
         selected.append(exp.alias_(_category_value(c, 500 + 10 * k), c.name, quoted=True))
     selected.append(exp.alias_(_numeric_value(LINEAR, 900), LINEAR.name, quoted=True))
+    selected.append(exp.alias_(exp.Cast(this=column(ROW), to=exp.DataType.build("BIGINT")), KEY, quoted=True))
     numbers = exp.Anonymous(this="range", expressions=[integer(start), integer(start + rows)])
     source = exp.Table(this=numbers, alias=exp.TableAlias(this=identifier("numbers"), columns=[identifier(ROW)]))
     return exp.select(*selected).from_(source)
@@ -221,3 +234,14 @@ def generate_rows(rows: int, start: int = 0) -> exp.Select:
 def create_table(table: str, rows: int, start: int = 0) -> exp.Create:
     """``CREATE TABLE "<table>" AS`` the generated rows."""
     return exp.Create(this=exp.to_table(identifier(table)), kind="TABLE", expression=generate_rows(rows, start))
+
+
+def development_rows(spec: Spec, table: str, float_columns: list[str] | None = None) -> exp.Select:
+    """The rows of ``table`` (made by :func:`generate_rows`) with an outcome: an event where a
+    uniform draw from a hash of the key falls below the PD ``spec`` gives the row (about 7 %
+    events). Every characteristic then carries the signal its WoE says, as in a real book."""
+    kept = input_columns() + [KEY]
+    scored = compile_model(spec, exp.to_table(identifier(table)), kept, float_columns).subquery("scored")
+    drawn = exp.LT(this=_uniform(OUTCOME_SEED, KEY), expression=column("pd"))
+    outcome = exp.alias_(case([(drawn, integer(1))], integer(0)), OUTCOME, quoted=True)
+    return exp.select(*[column(name) for name in kept], outcome).from_(scored)
