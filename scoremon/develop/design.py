@@ -45,7 +45,7 @@ from ..spec.model import Grade, Identity, Scaling, Spec
 from ..spec.terms import feature_terms
 from ..trees import INTERNAL, identifier, total
 from .folds import fold_expression
-from .newton import EXTREME_ETA, FoldSums
+from .newton import EXTREME_ETA, FoldSums, held_out_only
 from .width import MAX_COLUMNS, runs
 
 FOLD, Y = "__scoremon_fold", "__scoremon_y"
@@ -302,7 +302,7 @@ class EnginePasses:
             rows = fetch_rows(self.engine, pass_query(self.design, betas, blocks),
                               "a Newton step's sums over the development rows")
             self._read(rows, blocks, p, sums)
-        return sums
+        return {m: held_out_only(s, m) for m, s in sums.items()}
 
     @staticmethod
     def _read(rows: Sequence[tuple], blocks: Sequence[Block], p: int, sums: Mapping[int, FoldSums]) -> None:

@@ -111,7 +111,7 @@ def fit_binning(engine: Engine, source: exp.Expression, table: str, binning: Bin
         warnings = list(chosen.warnings)
 
         try:
-            plain = final if settings.penalty == "none" else fit_one(passes, p, Penalty(), start=final.coefficients,
+            plain = final if settings.penalty == "none" else fit_one(passes, p, Penalty(), start=final,
                                                                      model=settings.folds)
         except SingularDesignError as error:
             if settings.penalty == "none":

@@ -23,7 +23,13 @@ so each Newton step of every model costs one pass together.
   33(1), 2010), then search along d.
 * Step-halving: a step is taken when F falls by at least 10⁻⁴ of the decrease the model
   predicts (Armijo), else halved, up to 40 times.
-* Converged when, after a step, max |Δβ| ≤ 1e-10 and |ΔF| ≤ 1e-12·(1 + |F|).
+* Converged at β when the step d from β would move no coefficient by more than 1e-10 and F's
+  slope along it is at most 1e-12·(1 + |F|) in size (for Newton's step −Gᵀd is the squared
+  Newton decrement, twice the decrease the quadratic model predicts: Boyd & Vandenberghe,
+  *Convex Optimization*, §9.5.1, from memory). The test needs only the sums at β, so a fit
+  ends on the pass that measured β, with no pass to confirm a step that changes nothing.
+* A start may be a previous fit (:class:`ModelFit`): its sums are those at its coefficients
+  whatever the penalty, so a λ path starts each λ from the last one's sums, with no pass.
 * Quasi-separation: unpenalised, a training row with |η| > 36 (μ within 2e-16 of 0 or 1)
   for three steps in a row while not converged — the coefficients are running away and the
   maximum likelihood estimate does not exist; the fit stops and says so. A Newton system that
@@ -66,6 +72,9 @@ class FoldSums:
 
     ``gradient`` (K, p) Σ x(μ − y); ``hessian`` (K, p, p) Σ μ(1 − μ)·x·xᵀ; ``loss`` (K,)
     Σ ln(1 + e^η) − yη; ``rows`` (K,); ``extreme`` (K,) rows with |η| > :data:`EXTREME_ETA`.
+    A fold model m (m < K) is never fitted on fold m, so a pass may leave that fold's gradient
+    and Hessian at 0 (every pass does: :func:`held_out_only`); its loss, rows and extreme rows
+    are summed.
     """
 
     gradient: np.ndarray
@@ -79,6 +88,15 @@ class FoldSums:
         keep = np.arange(len(self.rows)) != model
         return Sums(self.gradient[keep].sum(axis=0), self.hessian[keep].sum(axis=0),
                     float(self.loss[keep].sum()), float(self.rows[keep].sum()), float(self.extreme[keep].sum()))
+
+
+def held_out_only(sums: FoldSums, model: int) -> FoldSums:
+    """``sums`` with the gradient and Hessian of fold ``model`` set to 0 (for a fold model, whose
+    own fold is held out; see :class:`FoldSums`). In place; returns ``sums``."""
+    if model < len(sums.rows):
+        sums.gradient[model] = 0.0
+        sums.hessian[model] = 0.0
+    return sums
 
 
 @dataclass(frozen=True)
@@ -184,20 +202,25 @@ class _State:
     heldout: tuple[float, float] = (float("nan"), 0.0)
 
 
-def fit_models(passes: Passes, starts: Mapping[int, np.ndarray], penalty: Penalty,
+def fit_models(passes: Passes, starts: Mapping[int, "np.ndarray | ModelFit"], penalty: Penalty,
                max_iterations: int = MAX_ITERATIONS) -> dict[int, ModelFit]:
-    """Fit each model in ``starts`` (model number → starting coefficients) under ``penalty``.
+    """Fit each model in ``starts`` (model number → starting coefficients, or a previous fit
+    whose sums are reused) under ``penalty``.
 
     Returns model number → :class:`ModelFit`. Raises :class:`InputError` when an unpenalised
     (or pure lasso) Newton system is singular — a characteristic constant over the training
     rows, or a combination of others — naming the design columns by position.
     """
-    first = passes({m: np.asarray(b, dtype=float).copy() for m, b in starts.items()})
+    fresh = {m: np.asarray(b, dtype=float).copy() for m, b in starts.items() if not isinstance(b, ModelFit)}
+    first = passes(fresh) if fresh else {}
     states = {}
     for m, start in starts.items():
-        sums = first[m].training(m)
-        beta = np.asarray(start, dtype=float).copy()
-        states[m] = _State(beta, sums, objective(sums, beta, penalty), heldout=_heldout(first[m], m))
+        if isinstance(start, ModelFit):
+            sums = Sums(start.gradient, start.hessian, start.loss, start.rows, start.extreme_rows)
+            beta, heldout, passes_made = start.coefficients.copy(), (start.heldout_loss, start.heldout_rows), 0
+        else:
+            sums, beta, heldout, passes_made = first[m].training(m), fresh[m], _heldout(first[m], m), 1
+        states[m] = _State(beta, sums, objective(sums, beta, penalty), passes=passes_made, heldout=heldout)
     while True:
         active = [m for m, s in states.items() if s.status is None]
         if not active:
@@ -214,6 +237,9 @@ def fit_models(passes: Passes, starts: Mapping[int, np.ndarray], penalty: Penalt
                     # because the coefficients ran away; the design itself was fine at the start
                     state.status = SEPARATION
                     state.reason = _separation_reason(state.sums, state.beta)
+                    continue
+                if _settled(state):
+                    state.status = CONVERGED
                     continue
                 state.step, state.halvings = 1.0, 0
         active = [m for m in active if states[m].status is None]
@@ -249,13 +275,9 @@ def _advance(state: _State, trial: np.ndarray, sums: Sums, heldout: tuple[float,
                             f"(step {state.iterations + 1}); the Newton direction is not a descent direction")
         return
     change = float(np.max(np.abs(trial - state.beta)))
-    drop = abs(state.value - value)
     state.beta, state.sums, state.value, state.heldout = trial, sums, value, heldout
     state.iterations += 1
     state.direction = None
-    if change <= TOLERANCE_BETA and drop <= TOLERANCE_OBJECTIVE * (1.0 + abs(value)):
-        state.status = CONVERGED
-        return
     if penalty.lam == 0.0 and sums.extreme > 0:
         state.extreme_steps += 1
         if state.extreme_steps >= SEPARATION_STEPS:
@@ -268,6 +290,12 @@ def _advance(state: _State, trial: np.ndarray, sums: Sums, heldout: tuple[float,
         state.status = NO_CONVERGENCE
         state.reason = (f"no convergence in {max_iterations} Newton steps: the last step moved a coefficient by "
                         f"{change:.3g} (tolerance {TOLERANCE_BETA:g})")
+
+
+def _settled(state: _State) -> bool:
+    """Whether the step from ``state.beta`` is too small to matter (see the module docstring)."""
+    return (float(np.max(np.abs(state.direction))) <= TOLERANCE_BETA
+            and -state.predicted <= TOLERANCE_OBJECTIVE * (1.0 + abs(state.value)))
 
 
 def _separation_reason(sums: Sums, beta: np.ndarray) -> str:
@@ -366,7 +394,7 @@ class DensePasses:
 
     def __call__(self, betas: Mapping[int, np.ndarray]) -> dict[int, FoldSums]:
         self.count += 1
-        return {m: self.sums(beta) for m, beta in betas.items()}
+        return {m: held_out_only(self.sums(beta), m) for m, beta in betas.items()}
 
     def sums(self, beta: np.ndarray) -> FoldSums:
         eta = self.x @ beta
@@ -390,10 +418,11 @@ class DensePasses:
         return self.x @ beta
 
 
-def fit_one(passes: Passes, columns: int, penalty: Penalty = Penalty(), start: Sequence[float] | None = None,
-            model: int | None = None) -> ModelFit:
-    """Fit one model (by default the one on all rows) from zero or ``start``."""
-    beta = np.zeros(columns) if start is None else np.asarray(start, dtype=float)
+def fit_one(passes: Passes, columns: int, penalty: Penalty = Penalty(),
+            start: "Sequence[float] | ModelFit | None" = None, model: int | None = None) -> ModelFit:
+    """Fit one model (by default the one on all rows) from zero, from coefficients, or from a
+    previous fit of the same model (its sums reused)."""
+    beta = np.zeros(columns) if start is None else start if isinstance(start, ModelFit) else np.asarray(start, dtype=float)
     return fit_models(passes, {model if model is not None else _all_rows(passes): beta}, penalty)[
         model if model is not None else _all_rows(passes)]
 

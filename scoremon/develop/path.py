@@ -6,7 +6,8 @@
   Software 33(1), 2010, §2.5). With α = 0 (ridge) no finite λ zeroes anything; as there, the
   path then starts from the λ_max of α = 0.001.
 * The path is ``count`` values (20 by default) spaced evenly in log λ from λ_max down to
-  ``ratio``·λ_max (ratio 1e-3 by default); each λ starts from the previous λ's solution.
+  ``ratio``·λ_max (ratio 1e-3 by default); each λ starts from the previous λ's solution and
+  the sums measured there (a warm start with no pass of its own).
 * Cross-validation: model k (k = 0 … K−1) trains on every fold but k and is measured on fold
   k; model K trains on all rows. All K + 1 models step together, one pass per step. The
   measure per fold is the mean deviance 2·Σloss/n on the held-out rows, or the AUC of the
@@ -153,7 +154,7 @@ def fit_path(passes: Passes, columns: int, fold_count: int, alpha: float, lambda
     points = []
     for lam in grid:
         fits = fit_models(passes, starts, Penalty(float(lam), alpha))
-        starts = {m: f.coefficients for m, f in fits.items()}
+        starts = fits  # the next λ starts here, from these sums
         folds = tuple(fits[m] for m in models[:-1])
         if not folds:
             cv: tuple[float, ...] = ()
