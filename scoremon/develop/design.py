@@ -171,9 +171,10 @@ def _block_size(p: int, part: int) -> int:
     return p if part == GRADIENT else 2 if part == LOSS else p - part
 
 
-def all_blocks(p: int, models: Sequence[int]) -> list[Block]:
-    """Every block of sums of a pass over ``models``, in the order a query lists them."""
-    return [(m, part) for m in models for part in (GRADIENT, *range(p), LOSS)]
+def all_blocks(p: int, models: Sequence[int], hessian: bool = True) -> list[Block]:
+    """Every block of sums of a pass over ``models`` (without the Hessian's rows if not
+    ``hessian``), in the order a query lists them."""
+    return [(m, part) for m in models for part in (GRADIENT, *(range(p) if hessian else ()), LOSS)]
 
 
 def pass_width(p: int, blocks: Sequence[Block]) -> int:
@@ -185,12 +186,12 @@ def pass_width(p: int, blocks: Sequence[Block]) -> int:
     return max(p + 1, p + 4 * len(models) + rows, 2 + sum(_block_size(p, part) for _, part in blocks))
 
 
-def pass_blocks(p: int, models: Sequence[int]) -> list[list[Block]]:
+def pass_blocks(p: int, models: Sequence[int], hessian: bool = True) -> list[list[Block]]:
     """A pass's blocks over ``models`` cut, in order, into queries each within
     :data:`~scoremon.develop.width.MAX_COLUMNS` (:func:`pass_width`): one query while it fits,
     else as many as it takes, a wide model's Hessian rows spread over several."""
     cuts: list[list[Block]] = [[]]
-    for block in all_blocks(p, models):
+    for block in all_blocks(p, models, hessian):
         if cuts[-1] and pass_width(p, cuts[-1] + [block]) > MAX_COLUMNS:
             cuts.append([])
         cuts[-1].append(block)
@@ -293,12 +294,12 @@ class EnginePasses:
         self.fold_count = design.fold_count
         self.count = 0
 
-    def __call__(self, betas: Mapping[int, np.ndarray]) -> dict[int, FoldSums]:
+    def __call__(self, betas: Mapping[int, np.ndarray], hessian: bool = True) -> dict[int, FoldSums]:
         self.count += 1
         p, k = self.design.columns, self.fold_count
-        sums = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)), np.zeros(k), np.zeros(k), np.zeros(k))
-                for m in betas}
-        for blocks in pass_blocks(p, list(betas)):
+        sums = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)) if hessian else None, np.zeros(k), np.zeros(k),
+                            np.zeros(k)) for m in betas}
+        for blocks in pass_blocks(p, list(betas), hessian):
             rows = fetch_rows(self.engine, pass_query(self.design, betas, blocks),
                               "a Newton step's sums over the development rows")
             self._read(rows, blocks, p, sums)

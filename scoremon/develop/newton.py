@@ -30,6 +30,11 @@ so each Newton step of every model costs one pass together.
   ends on the pass that measured β, with no pass to confirm a step that changes nothing.
 * A start may be a previous fit (:class:`ModelFit`): its sums are those at its coefficients
   whatever the penalty, so a λ path starts each λ from the last one's sums, with no pass.
+* The Hessian is summed on a pass only after a step that moved a coefficient by more than
+  :data:`HESSIAN_REFRESH`; after a smaller step the last Hessian stands in (it differs from
+  the current one by about the step's size, so each step still shrinks the error by that
+  factor or more), and the pass sums only the gradient and the loss — about half the work
+  per row. The unpenalised fit sums it on every pass: its standard errors read it.
 * Quasi-separation: unpenalised, a training row with |η| > 36 (μ within 2e-16 of 0 or 1)
   for three steps in a row while not converged — the coefficients are running away and the
   maximum likelihood estimate does not exist; the fit stops and says so. A Newton system that
@@ -52,6 +57,7 @@ MAX_HALVINGS = 40
 ARMIJO = 1e-4
 EXTREME_ETA = 36.0
 SEPARATION_STEPS = 3
+HESSIAN_REFRESH = 1e-3
 INNER_TOLERANCE = 1e-14
 INNER_SWEEPS = 10_000
 
@@ -70,7 +76,8 @@ class SingularDesignError(InputError):
 class FoldSums:
     """One model's sums over the rows of each fold, at its current coefficients.
 
-    ``gradient`` (K, p) Σ x(μ − y); ``hessian`` (K, p, p) Σ μ(1 − μ)·x·xᵀ; ``loss`` (K,)
+    ``gradient`` (K, p) Σ x(μ − y); ``hessian`` (K, p, p) Σ μ(1 − μ)·x·xᵀ, or ``None`` from a
+    pass asked for no Hessian; ``loss`` (K,)
     Σ ln(1 + e^η) − yη; ``rows`` (K,); ``extreme`` (K,) rows with |η| > :data:`EXTREME_ETA`.
     A fold model m (m < K) is never fitted on fold m, so a pass may leave that fold's gradient
     and Hessian at 0 (every pass does: :func:`held_out_only`); its loss, rows and extreme rows
@@ -78,7 +85,7 @@ class FoldSums:
     """
 
     gradient: np.ndarray
-    hessian: np.ndarray
+    hessian: np.ndarray | None
     loss: np.ndarray
     rows: np.ndarray
     extreme: np.ndarray
@@ -86,7 +93,7 @@ class FoldSums:
     def training(self, model: int) -> "Sums":
         """The sums over model ``model``'s training rows: every fold but fold ``model``."""
         keep = np.arange(len(self.rows)) != model
-        return Sums(self.gradient[keep].sum(axis=0), self.hessian[keep].sum(axis=0),
+        return Sums(self.gradient[keep].sum(axis=0), None if self.hessian is None else self.hessian[keep].sum(axis=0),
                     float(self.loss[keep].sum()), float(self.rows[keep].sum()), float(self.extreme[keep].sum()))
 
 
@@ -95,7 +102,8 @@ def held_out_only(sums: FoldSums, model: int) -> FoldSums:
     own fold is held out; see :class:`FoldSums`). In place; returns ``sums``."""
     if model < len(sums.rows):
         sums.gradient[model] = 0.0
-        sums.hessian[model] = 0.0
+        if sums.hessian is not None:
+            sums.hessian[model] = 0.0
     return sums
 
 
@@ -110,8 +118,8 @@ class Sums:
     extreme: float
 
 
-# coefficients per model → sums per fold per model
-Passes = Callable[[Mapping[int, np.ndarray]], Mapping[int, FoldSums]]
+# coefficients per model (and hessian=False for a pass without the Hessian) → sums per fold per model
+Passes = Callable[..., Mapping[int, FoldSums]]
 
 
 @dataclass(frozen=True)
@@ -139,7 +147,9 @@ class ModelFit:
     """The result of fitting one model: its coefficients and how the fit ended.
 
     ``status`` is ``converged``, ``separation`` or ``no_convergence``; ``reason`` says why in
-    words when not converged. ``hessian`` and ``gradient`` are the sums at ``coefficients``.
+    words when not converged. ``gradient`` is the sum at ``coefficients``, and so is ``hessian``
+    when ``hessian_current`` (always for the unpenalised fit), else it is the Hessian the last
+    step used, summed within :data:`HESSIAN_REFRESH` of them (see the module docstring).
     """
 
     coefficients: np.ndarray
@@ -155,6 +165,7 @@ class ModelFit:
     extreme_rows: float
     heldout_loss: float = float("nan")
     heldout_rows: float = 0.0
+    hessian_current: bool = True
 
     @property
     def converged(self) -> bool:
@@ -200,6 +211,7 @@ class _State:
     step: float = 1.0
     halvings: int = 0
     heldout: tuple[float, float] = (float("nan"), 0.0)
+    hessian_current: bool = True
 
 
 def fit_models(passes: Passes, starts: Mapping[int, "np.ndarray | ModelFit"], penalty: Penalty,
@@ -211,16 +223,20 @@ def fit_models(passes: Passes, starts: Mapping[int, "np.ndarray | ModelFit"], pe
     (or pure lasso) Newton system is singular — a characteristic constant over the training
     rows, or a combination of others — naming the design columns by position.
     """
-    fresh = {m: np.asarray(b, dtype=float).copy() for m, b in starts.items() if not isinstance(b, ModelFit)}
+    exact = penalty.lam == 0.0  # the unpenalised fit's standard errors read its Hessian
+    reused = {m: b for m, b in starts.items() if isinstance(b, ModelFit) and (b.hessian_current or not exact)}
+    fresh = {m: np.asarray(b.coefficients if isinstance(b, ModelFit) else b, dtype=float).copy()
+             for m, b in starts.items() if m not in reused}
     first = passes(fresh) if fresh else {}
     states = {}
     for m, start in starts.items():
-        if isinstance(start, ModelFit):
+        if m in reused:
             sums = Sums(start.gradient, start.hessian, start.loss, start.rows, start.extreme_rows)
             beta, heldout, passes_made = start.coefficients.copy(), (start.heldout_loss, start.heldout_rows), 0
         else:
             sums, beta, heldout, passes_made = first[m].training(m), fresh[m], _heldout(first[m], m), 1
-        states[m] = _State(beta, sums, objective(sums, beta, penalty), passes=passes_made, heldout=heldout)
+        states[m] = _State(beta, sums, objective(sums, beta, penalty), passes=passes_made, heldout=heldout,
+                           hessian_current=start.hessian_current if m in reused else True)
     while True:
         active = [m for m, s in states.items() if s.status is None]
         if not active:
@@ -246,11 +262,13 @@ def fit_models(passes: Passes, starts: Mapping[int, "np.ndarray | ModelFit"], pe
         if not active:
             break
         trials = {m: states[m].beta + states[m].step * states[m].direction for m in active}
-        result = passes(trials)
+        moves = [float(np.max(np.abs(trials[m] - states[m].beta))) for m in active]
+        result = passes(trials, hessian=exact or max(moves) > HESSIAN_REFRESH)
         for m in active:
             _advance(states[m], trials[m], result[m].training(m), _heldout(result[m], m), penalty, max_iterations)
     return {m: ModelFit(s.beta, s.status, s.reason, s.iterations, s.passes, s.value, s.sums.loss, s.sums.rows,
-                        s.sums.gradient, s.sums.hessian, s.sums.extreme, *s.heldout) for m, s in states.items()}
+                        s.sums.gradient, s.sums.hessian, s.sums.extreme, *s.heldout, s.hessian_current)
+            for m, s in states.items()}
 
 
 def _heldout(sums: FoldSums, model: int) -> tuple[float, float]:
@@ -264,6 +282,9 @@ def _advance(state: _State, trial: np.ndarray, sums: Sums, heldout: tuple[float,
              max_iterations: int) -> None:
     """Take or halve one model's step, then decide whether it has converged or must stop."""
     state.passes += 1
+    current = sums.hessian is not None
+    if not current:
+        sums = Sums(sums.gradient, state.sums.hessian, sums.loss, sums.rows, sums.extreme)
     value = objective(sums, trial, penalty)
     noise = 1e-13 * (1.0 + abs(state.value))
     if not (value <= state.value + ARMIJO * state.step * state.predicted or value <= state.value + noise):
@@ -275,7 +296,7 @@ def _advance(state: _State, trial: np.ndarray, sums: Sums, heldout: tuple[float,
                             f"(step {state.iterations + 1}); the Newton direction is not a descent direction")
         return
     change = float(np.max(np.abs(trial - state.beta)))
-    state.beta, state.sums, state.value, state.heldout = trial, sums, value, heldout
+    state.beta, state.sums, state.value, state.heldout, state.hessian_current = trial, sums, value, heldout, current
     state.iterations += 1
     state.direction = None
     if penalty.lam == 0.0 and sums.extreme > 0:
@@ -392,11 +413,11 @@ class DensePasses:
         self.fold_count = int(fold_count if fold_count is not None else self.folds.max() + 1)
         self.count = 0
 
-    def __call__(self, betas: Mapping[int, np.ndarray]) -> dict[int, FoldSums]:
+    def __call__(self, betas: Mapping[int, np.ndarray], hessian: bool = True) -> dict[int, FoldSums]:
         self.count += 1
-        return {m: held_out_only(self.sums(beta), m) for m, beta in betas.items()}
+        return {m: held_out_only(self.sums(beta, hessian), m) for m, beta in betas.items()}
 
-    def sums(self, beta: np.ndarray) -> FoldSums:
+    def sums(self, beta: np.ndarray, with_hessian: bool = True) -> FoldSums:
         eta = self.x @ beta
         mu = 1.0 / (1.0 + np.exp(-np.clip(eta, -700.0, 700.0)))
         w = mu * (1.0 - mu)
@@ -412,7 +433,7 @@ class DensePasses:
             losses[f] = loss[inside].sum()
             rows[f] = inside.sum()
             extreme[f] = (np.abs(eta[inside]) > EXTREME_ETA).sum()
-        return FoldSums(gradient, hessian, losses, rows, extreme)
+        return FoldSums(gradient, hessian if with_hessian else None, losses, rows, extreme)
 
     def eta(self, beta: np.ndarray) -> np.ndarray:
         return self.x @ beta

@@ -92,7 +92,7 @@ def fold_counts(passes: Passes, columns: int, fold_count: int) -> Counts:
     Raises :class:`InputError` when a fold has fewer than two events or non-events: its
     held-out measure would mean nothing and a fold model could not be fitted.
     """
-    sums = passes({fold_count: np.zeros(columns)})[fold_count]
+    sums = passes({fold_count: np.zeros(columns)}, hessian=False)[fold_count]
     rows = np.asarray(sums.rows, dtype=float)
     events = np.rint(rows / 2.0 - sums.gradient[:, 0])
     for f in range(len(rows)):
@@ -117,7 +117,7 @@ def intercept_only(counts: Counts, columns: int, models: Sequence[int]) -> dict[
 
 def lambda_max(passes: Passes, start: np.ndarray, model: int, alpha: float) -> float:
     """The smallest λ that zeroes every penalised coefficient (see the module docstring)."""
-    sums = passes({model: start})[model].training(model)
+    sums = passes({model: start}, hessian=False)[model].training(model)
     gradient = sums.gradient[1:] / sums.rows
     largest = float(np.max(np.abs(gradient))) if len(gradient) else 0.0
     return largest / max(alpha, RIDGE_ALPHA_FOR_START)

@@ -77,27 +77,27 @@ class StreamedPasses(EnginePasses):
     def close(self) -> None:
         self.engine.release(self.table)
 
-    def __call__(self, betas: Mapping[int, np.ndarray]) -> dict[int, FoldSums]:
+    def __call__(self, betas: Mapping[int, np.ndarray], hessian: bool = True) -> dict[int, FoldSums]:
         self.count += 1
         p, k = self.design.columns, self.fold_count
         betas = {m: np.asarray(b, dtype=float) for m, b in betas.items()}
-        total = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)), np.zeros(k), np.zeros(k), np.zeros(k))
-                 for m in betas}
+        total = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)) if hessian else None, np.zeros(k), np.zeros(k),
+                             np.zeros(k)) for m in betas}
         read = exp.select(exp.Star()).from_(table_path(self.table))
         batches = self.engine.batches(read, "a Newton step's sums over the development rows", BATCH_ROWS)
         # one BLAS thread per batch: the products are 16 columns wide, and OpenBLAS's threads
         # spinning beside DuckDB's made a pass three times slower on a busy two-core machine
         # (scoremon bench); the cores are used by summing several batches at once instead
         with threadpool_limits(1, user_api="blas"):
-            for part in _in_parallel(batches, lambda batch, scratch: self._batch(batch, betas, scratch),
+            for part in _in_parallel(batches, lambda batch, scratch: self._batch(batch, betas, scratch, hessian),
                                      lambda: _Scratch(BATCH_ROWS, p), self.threads):
                 _add(total, part)
         return total
 
-    def _batch(self, batch: Mapping[str, np.ndarray], betas: Mapping[int, np.ndarray],
-               scratch: "_Scratch") -> dict[int, FoldSums]:
+    def _batch(self, batch: Mapping[str, np.ndarray], betas: Mapping[int, np.ndarray], scratch: "_Scratch",
+               hessian: bool = True) -> dict[int, FoldSums]:
         """One batch's sums per model and fold (a fold model's own fold: loss, rows and extreme
-        rows only, as its gradient and Hessian there are never read)."""
+        rows only, as its gradient and Hessian there are never read; no Hessian if not ``hessian``)."""
         p, k = self.design.columns, self.fold_count
         folds = np.asarray(batch[FOLD])
         n = len(folds)
@@ -119,7 +119,8 @@ class StreamedPasses(EnginePasses):
         etas = np.stack([betas[m] for m in models]) @ x.T  # one product for every model's η
         sums = {}
         for eta, m in zip(etas, models):
-            s = sums[m] = FoldSums(np.zeros((k, p)), np.zeros((k, p, p)), np.zeros(k), np.zeros(k), np.zeros(k))
+            s = sums[m] = FoldSums(np.zeros((k, p)), np.zeros((k, p, p)) if hessian else None, np.zeros(k),
+                                   np.zeros(k), np.zeros(k))
             terms = scratch.terms(eta, y)
             for f in range(k):
                 a, b = edges[f], edges[f + 1]
@@ -131,6 +132,8 @@ class StreamedPasses(EnginePasses):
                 if f == m:
                     continue
                 s.gradient[f] = x[a:b].T @ terms.residual[a:b]
+                if not hessian:
+                    continue
                 # Z = √w·x, so that ZᵀZ is one symmetric product (BLAS syrk, half the work of xᵀ(w·x))
                 z = np.multiply(x[a:b], terms.root_weight[a:b, None], out=scratch.z[a:b])
                 s.hessian[f] = z.T @ z
@@ -197,7 +200,8 @@ def _add(total: Mapping[int, FoldSums], part: Mapping[int, FoldSums]) -> None:
         t = total[m]  # frozen, its arrays added to in place
         for mine, more in ((t.gradient, s.gradient), (t.hessian, s.hessian), (t.loss, s.loss), (t.rows, s.rows),
                            (t.extreme, s.extreme)):
-            mine += more
+            if mine is not None:
+                mine += more
 
 
 def _in_parallel(items: Iterator, work, scratch, threads: int) -> Iterator:

@@ -151,3 +151,60 @@ def test_ridge_path_starts_at_the_lambda_max_of_alpha_0_001_and_is_optimal_every
     for point in result.points:
         assert kkt_violation(point.fit, Penalty(point.lam, 0.0)) < 1e-7
     assert np.max(np.abs(result.points[0].fit.coefficients[1:])) < 0.01
+
+
+class _Recording(DensePasses):
+    """DensePasses that notes, per pass, whether the Hessian was asked for."""
+
+    def __init__(self, *args):
+        super().__init__(*args)
+        self.asked: list[bool] = []
+
+    def __call__(self, betas, hessian=True):
+        self.asked.append(hessian)
+        return super().__call__(betas, hessian)
+
+
+@pytest.mark.parametrize("alpha", [0.0, 1.0])
+def test_passes_without_the_hessian_reach_the_same_optimum(alpha, monkeypatch):
+    # the rules that save passes (README, Fitting): the last λ's sums start the next λ, and a
+    # pass after a step under 1e-3 sums no Hessian. The path must end where one with a fresh
+    # Hessian on every pass ends, and still satisfy the optimality conditions
+    x, y = cancer()
+    folds = _folds(len(y), 5)
+    saving = _Recording(x, y, folds, 5)
+    path = fit_path(saving, x.shape[1], 5, alpha, count=8)
+    monkeypatch.setattr("scoremon.develop.newton.HESSIAN_REFRESH", 0.0)
+    fresh = _Recording(x, y, folds, 5)
+    reference = fit_path(fresh, x.shape[1], 5, alpha, count=8)
+    assert all(fresh.asked[2:]) and not any(fresh.asked[:2]) and sum(saving.asked) < sum(fresh.asked)
+    for got, expected in zip(path.points, reference.points):
+        for a, b in zip((got.fit,) + got.folds, (expected.fit,) + expected.folds):
+            assert a.converged and b.converged
+            np.testing.assert_allclose(a.coefficients, b.coefficients, atol=1e-9, rtol=0)
+            assert kkt_violation(a, Penalty(got.lam, alpha)) < 1e-7
+
+
+def test_a_fit_resumed_at_its_own_optimum_makes_no_pass():
+    # the convergence test reads only the sums at β: a converged fit handed back as the start
+    # (its sums reused) is converged again without a pass
+    x, y = cancer()
+    passes = DensePasses(x, y)
+    fit = fit_one(passes, x.shape[1], Penalty(0.01, 0.0))
+    before = passes.count
+    again = fit_one(passes, x.shape[1], Penalty(0.01, 0.0), start=fit)
+    assert passes.count == before and again.converged and again.iterations == 0
+    np.testing.assert_array_equal(again.coefficients, fit.coefficients)
+
+
+def test_the_unpenalised_fit_sums_its_hessian_on_every_pass():
+    # its standard errors read the Hessian, so it must be the one at the coefficients; a start
+    # from a penalised fit (whose Hessian may be older) is measured afresh
+    x, y = cancer()
+    passes = _Recording(x, y)
+    ridge = fit_one(passes, x.shape[1], Penalty(0.001, 0.0))
+    asked = len(passes.asked)
+    plain = fit_one(passes, x.shape[1], Penalty(), start=ridge)
+    assert all(passes.asked[asked:]) and plain.hessian_current
+    exact = passes.sums(plain.coefficients)
+    np.testing.assert_allclose(plain.hessian, exact.hessian.sum(axis=0), rtol=1e-12)
