@@ -326,6 +326,10 @@ class EnginePasses:
                         s.hessian[f, part, j] = s.hessian[f, j, part] = float(row[at + j - part])
                 at += _block_size(p, part)
 
+    def design_rows(self) -> exp.Select:
+        """The design's rows (fold, y, x_1 … x_p) as the histograms read them."""
+        return design_query(self.design)
+
     def histograms(self, betas: Mapping[int, np.ndarray]) -> dict[int, HistogramSums]:
         """Per model its held-out rows' AUC/KS sums (model K: all rows), reduced in the engine."""
         return self.histograms_and_curve(betas, 0)[0]
@@ -337,7 +341,7 @@ class EnginePasses:
         folded = {m: b for m, b in betas.items() if m < k}
         result = {}
         curve: Curve = ((), None)
-        design = _subquery(design_query(self.design), "design")
+        design = _subquery(self.design_rows(), "design")
         if folded:
             eta = case([(exp.EQ(this=column(FOLD), expression=integer(m)), _eta(np.asarray(b, dtype=float)))
                         for m, b in folded.items()])

@@ -11,12 +11,14 @@ batches (:attr:`~scoremon.engines.Engine.streams_batches`), :class:`StreamedPass
    limit);
 2. per pass reads that table in batches of :data:`BATCH_ROWS` rows, looks each bin's WoE up
    (:func:`scoremon.develop.design.woe_values`, in the CASE's bin order) and sums gradient,
-   Hessian, loss and extreme rows per fold with numpy (the same formulas as
-   :func:`scoremon.develop.design.pass_query`), several batches at once on the engine's
+   Hessian (when the pass asks for it), loss and extreme rows per fold with numpy (the sums
+   :func:`scoremon.develop.design.pass_query` makes; μ, √w and the loss from one exponential,
+   :class:`_RowTerms`), several batches at once on the engine's
    :attr:`~scoremon.engines.Engine.worker_threads`, added in the batches' order. Memory is
    bounded by the batches in flight, not the table.
 
-The held-out histograms stay aggregate queries (:class:`~scoremon.develop.design.EnginePasses`).
+The held-out histograms stay aggregate queries (:class:`~scoremon.develop.design.EnginePasses`),
+over the held table (:meth:`StreamedPasses.design_rows`).
 Engines that do not stream (PostgreSQL, Spark) keep :class:`EnginePasses`: nothing row-level
 leaves them. :func:`open_passes` picks one and drops the temporary table afterwards.
 """
@@ -32,11 +34,11 @@ import numpy as np
 from sqlglot import exp
 from threadpoolctl import threadpool_limits
 
-from ..compiler import bin_case, column, integer
+from ..compiler import bin_case, column, integer, number
 from ..spec.terms import feature_terms
 from ..trees import table_path
 from .folds import fold_expression
-from .design import FOLD, Y, Design, EnginePasses, woe_spec, woe_values
+from .design import FOLD, Y, Design, EnginePasses, woe_spec, woe_values, x_column
 from .newton import EXTREME_ETA, FoldSums
 
 BATCH_ROWS = 1 << 18  # 262,144 rows: the batch's float design is 2 MiB per column
@@ -76,6 +78,18 @@ class StreamedPasses(EnginePasses):
 
     def close(self) -> None:
         self.engine.release(self.table)
+
+    def design_rows(self) -> exp.Select:
+        """The design's rows read from the held table: each WoE found from its bin number by a
+        CASE on that small integer, the fold as held. The same values as
+        :func:`~scoremon.develop.design.design_query` without its binning and its md5 of the key
+        per row, which cost the held-out histograms more than their sorting (bench rows)."""
+        selected = [column(FOLD), exp.alias_(exp.Cast(this=column(Y), to=exp.DataType.build("DOUBLE")), Y, quoted=True)]
+        for j, values in enumerate(self.woe, start=1):
+            found = exp.Case(this=column(bin_column(j)), ifs=[
+                exp.If(this=integer(b), true=number(float(v))) for b, v in enumerate(values)])
+            selected.append(exp.alias_(found, x_column(j), quoted=True))
+        return exp.select(*selected).from_(table_path(self.table))
 
     def __call__(self, betas: Mapping[int, np.ndarray], hessian: bool = True) -> dict[int, FoldSums]:
         self.count += 1

@@ -79,3 +79,23 @@ def test_a_batch_with_folds_out_of_order_is_sorted(loaded):
         np.testing.assert_allclose(unordered[m].hessian, ordered[m].hessian, rtol=1e-12)
         np.testing.assert_allclose(unordered[m].gradient, ordered[m].gradient, rtol=1e-12, atol=1e-12)
         np.testing.assert_array_equal(unordered[m].rows, ordered[m].rows)
+
+
+def test_histograms_over_the_held_table_equal_those_over_the_source(loaded):
+    # the held-out AUC/KS sums and the ROC curve read the held bin numbers (no binning, no md5
+    # per row); they must be exactly those of the design query over the source table, and the
+    # AUC equal scikit-learn's on the numpy design ([lib] sklearn.metrics.roc_auc_score)
+    from sklearn.metrics import roc_auc_score
+
+    from scoremon.develop.design import EnginePasses
+    from scoremon.monitor.statistics import discrimination
+
+    passes, dense = loaded
+    source = EnginePasses(passes.engine, passes.design)
+    held, held_curve = passes.histograms_and_curve(BETAS, 20)
+    direct, direct_curve = source.histograms_and_curve(BETAS, 20)
+    assert held == direct and held_curve == direct_curve
+    for m in (0, 3):
+        rows = dense.folds == m
+        eta = dense.x[rows] @ BETAS[m]
+        assert discrimination(held[m]).auc == pytest.approx(roc_auc_score(dense.y[rows], eta), abs=1e-12)
