@@ -162,8 +162,8 @@ def _is_null(x: exp.Expression) -> exp.Expression:
 
 def facts_query(source: exp.Expression, plan: ColumnPlan) -> exp.Select:
     """One row: rows, events, non_events, unknown (NULL outcome), odd (any other value) with
-    its lowest and highest as doubles; with a key its non-NULL and distinct counts; with a month
-    its NULL count, first and last value."""
+    its lowest and highest as doubles; with a key its non-NULL count; with a month its NULL
+    count, first and last value."""
     y = column(plan.outcome.name)
     if plan.outcome.kind == BOOLEAN:
         event, non_event = y.copy(), exp.Not(this=y.copy())
@@ -181,13 +181,25 @@ def facts_query(source: exp.Expression, plan: ColumnPlan) -> exp.Select:
                 alias(exp.Max(this=odd_value.copy()), "odd_high")]
     if plan.key is not None:
         k = column(plan.key)
-        selected += [alias(exp.Count(this=k.copy()), "keys"),
-                     alias(exp.Count(this=exp.Distinct(expressions=[k.copy()])), "distinct_keys")]
+        selected.append(alias(exp.Count(this=k.copy()), "keys"))
     if plan.month_column is not None:
         m = column(plan.month_column)
         selected += [alias(_count_if(_is_null(m.copy())), "no_month"), alias(exp.Min(this=m.copy()), "first_month"),
                      alias(exp.Max(this=m.copy()), "last_month")]
     return exp.select(*selected).from_(source.copy())
+
+
+def repeated_keys_query(source: exp.Expression, key: str) -> exp.Select:
+    """One row: how many rows repeat a key value, i.e. equal the previous non-NULL key in key
+    order. Through a window over the sorted keys rather than COUNT(DISTINCT) or a GROUP BY:
+    DuckDB's hash tables for 50M distinct keys asked for more than a 1GB memory limit allows
+    (its sort spills to disk), and the sort took half the time."""
+    k = column(key)
+    previous = exp.Window(this=exp.Anonymous(this="LAG", expressions=[k.copy()]),
+                          order=exp.Order(expressions=[exp.Ordered(this=k.copy())]))
+    sorted_keys = (exp.select(alias(exp.EQ(this=k.copy(), expression=previous), "same")).from_(source.copy())
+                   .where(exp.Not(this=_is_null(k.copy()))).subquery("sorted_keys"))
+    return exp.select(alias(exp.Count(this=exp.Star()), "repeated")).from_(sorted_keys).where(column("same"))
 
 
 def duplicate_query(source: exp.Expression, key: str) -> exp.Select:
@@ -228,7 +240,7 @@ def check_rows(engine: Engine, source: exp.Expression, plan: ColumnPlan, table: 
         nulls = rows - int(row["keys"])
         if nulls:
             raise InputError(f"key column {plan.key!r} is NULL on {nulls:,} of {rows:,} rows; every row needs a key")
-        repeated = rows - int(row["distinct_keys"])
+        repeated = int(engine.query(repeated_keys_query(source, plan.key), "counting the repeated keys")[0]["repeated"])
         if repeated:
             example = engine.query(duplicate_query(source, plan.key), "finding a duplicated key")[0]
             raise InputError(f"key column {plan.key!r} is not unique: {repeated:,} of {rows:,} rows repeat a key "

@@ -222,3 +222,20 @@ def test_recount_honours_a_nan_route_the_modeller_adds(each_engine):
     nan_rows = (3, int(frame.loc[[2, 3, 4], "bad"].sum()))  # rows 2, 3, 4 hold NaN
     assert (after[-2].rows, after[-2].events) == (before[-2].rows + nan_rows[0], before[-2].events + nan_rows[1])
     assert (after[-1].rows, after[-1].events) == (before[-1].rows - nan_rows[0], before[-1].events - nan_rows[1])
+
+
+def test_repeated_keys_are_counted_alike_on_every_engine(each_engine):
+    # the key check sorts the keys and counts rows equal to the previous one (a window, which
+    # spills, instead of COUNT(DISTINCT)); pandas' duplicated() is the reference. Whole-number
+    # and text keys, with a key given three times and one twice
+    from scoremon.develop.outcome import repeated_keys_query
+
+    frame = development_rows()
+    frame.loc[[5, 9], "application_id"] = 7
+    frame.loc[[40], "application_id"] = 300
+    frame["housing"] = [f"K{i % 1000:04d}" for i in range(ROWS)]  # text keys: 9 given twice
+    load(each_engine, frame)
+    source = table_path(["development"])
+    for key in ("application_id", "housing"):
+        found = each_engine.query(repeated_keys_query(source, key), "counting the repeated keys")[0]["repeated"]
+        assert int(found) == int(frame[key].duplicated().sum())
