@@ -294,8 +294,8 @@ class EnginePasses:
         self.fold_count = design.fold_count
         self.count = 0
 
-    def __call__(self, betas: Mapping[int, np.ndarray], hessian: bool = True) -> dict[int, FoldSums]:
-        self.count += 1
+    def __call__(self, betas: Mapping[int, np.ndarray], hessian: bool = True, rough: bool = False) -> dict[int, FoldSums]:
+        self.count += 1  # the engine sums in double precision: ``rough`` allows, it does not ask
         p, k = self.design.columns, self.fold_count
         sums = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)) if hessian else None, np.zeros(k), np.zeros(k),
                             np.zeros(k)) for m in betas}

@@ -35,6 +35,10 @@ so each Newton step of every model costs one pass together.
   the current one by about the step's size, so each step still shrinks the error by that
   factor or more), and the pass sums only the gradient and the loss — about half the work
   per row. The unpenalised fit sums it on every pass: its standard errors read it.
+* A penalised fit's passes may sum the Hessian in single precision (``rough``; an error near
+  10⁻⁷ of its size, far below what a stale Hessian already differs by): the Hessian only
+  steers the steps, while the gradient and the loss, which decide where a fit stops, are
+  always summed in double precision. The unpenalised fit's Hessian is always exact.
 * Quasi-separation: unpenalised, a training row with |η| > 36 (μ within 2e-16 of 0 or 1)
   for three steps in a row while not converged — the coefficients are running away and the
   maximum likelihood estimate does not exist; the fit stops and says so. A Newton system that
@@ -118,7 +122,8 @@ class Sums:
     extreme: float
 
 
-# coefficients per model (and hessian=False for a pass without the Hessian) → sums per fold per model
+# coefficients per model (and hessian=False for a pass without the Hessian; rough=True where a
+# single-precision Hessian will do, as it only steers steps) → sums per fold per model
 Passes = Callable[..., Mapping[int, FoldSums]]
 
 
@@ -147,9 +152,10 @@ class ModelFit:
     """The result of fitting one model: its coefficients and how the fit ended.
 
     ``status`` is ``converged``, ``separation`` or ``no_convergence``; ``reason`` says why in
-    words when not converged. ``gradient`` is the sum at ``coefficients``, and so is ``hessian``
-    when ``hessian_current`` (always for the unpenalised fit), else it is the Hessian the last
-    step used, summed within :data:`HESSIAN_REFRESH` of them (see the module docstring).
+    words when not converged. ``gradient`` is the sum at ``coefficients``, and so is ``hessian``,
+    exactly, when ``hessian_current`` (always for the unpenalised fit); a penalised fit's
+    Hessian may be the one the last step used, summed within :data:`HESSIAN_REFRESH` of them,
+    and in single precision (see the module docstring).
     """
 
     coefficients: np.ndarray
@@ -227,7 +233,7 @@ def fit_models(passes: Passes, starts: Mapping[int, "np.ndarray | ModelFit"], pe
     reused = {m: b for m, b in starts.items() if isinstance(b, ModelFit) and (b.hessian_current or not exact)}
     fresh = {m: np.asarray(b.coefficients if isinstance(b, ModelFit) else b, dtype=float).copy()
              for m, b in starts.items() if m not in reused}
-    first = passes(fresh) if fresh else {}
+    first = passes(fresh, rough=not exact) if fresh else {}
     states = {}
     for m, start in starts.items():
         if m in reused:
@@ -236,7 +242,7 @@ def fit_models(passes: Passes, starts: Mapping[int, "np.ndarray | ModelFit"], pe
         else:
             sums, beta, heldout, passes_made = first[m].training(m), fresh[m], _heldout(first[m], m), 1
         states[m] = _State(beta, sums, objective(sums, beta, penalty), passes=passes_made, heldout=heldout,
-                           hessian_current=start.hessian_current if m in reused else True)
+                           hessian_current=start.hessian_current if m in reused else exact)
     while True:
         active = [m for m, s in states.items() if s.status is None]
         if not active:
@@ -263,7 +269,7 @@ def fit_models(passes: Passes, starts: Mapping[int, "np.ndarray | ModelFit"], pe
             break
         trials = {m: states[m].beta + states[m].step * states[m].direction for m in active}
         moves = [float(np.max(np.abs(trials[m] - states[m].beta))) for m in active]
-        result = passes(trials, hessian=exact or max(moves) > HESSIAN_REFRESH)
+        result = passes(trials, hessian=exact or max(moves) > HESSIAN_REFRESH, rough=not exact)
         for m in active:
             _advance(states[m], trials[m], result[m].training(m), _heldout(result[m], m), penalty, max_iterations)
     return {m: ModelFit(s.beta, s.status, s.reason, s.iterations, s.passes, s.value, s.sums.loss, s.sums.rows,
@@ -282,9 +288,10 @@ def _advance(state: _State, trial: np.ndarray, sums: Sums, heldout: tuple[float,
              max_iterations: int) -> None:
     """Take or halve one model's step, then decide whether it has converged or must stop."""
     state.passes += 1
-    current = sums.hessian is not None
-    if not current:
+    summed = sums.hessian is not None
+    if not summed:
         sums = Sums(sums.gradient, state.sums.hessian, sums.loss, sums.rows, sums.extreme)
+    current = summed and penalty.lam == 0.0  # exact too: an unpenalised pass sums it in double precision
     value = objective(sums, trial, penalty)
     noise = 1e-13 * (1.0 + abs(state.value))
     if not (value <= state.value + ARMIJO * state.step * state.predicted or value <= state.value + noise):
@@ -413,8 +420,8 @@ class DensePasses:
         self.fold_count = int(fold_count if fold_count is not None else self.folds.max() + 1)
         self.count = 0
 
-    def __call__(self, betas: Mapping[int, np.ndarray], hessian: bool = True) -> dict[int, FoldSums]:
-        self.count += 1
+    def __call__(self, betas: Mapping[int, np.ndarray], hessian: bool = True, rough: bool = False) -> dict[int, FoldSums]:
+        self.count += 1  # the Hessian always exact: ``rough`` allows, it does not ask
         return {m: held_out_only(self.sums(beta, hessian), m) for m, beta in betas.items()}
 
     def sums(self, beta: np.ndarray, with_hessian: bool = True) -> FoldSums:

@@ -28,7 +28,7 @@ import queue
 from collections import deque
 from concurrent.futures import ThreadPoolExecutor
 from contextlib import contextmanager
-from typing import Iterator, Mapping
+from typing import Iterator, Mapping, Sequence
 
 import numpy as np
 from sqlglot import exp
@@ -74,6 +74,7 @@ class StreamedPasses(EnginePasses):
         super().__init__(engine, design)
         self.woe = [np.asarray(values, dtype=float) for values in woe_values(design.features)]
         self.threads = max(1, engine.worker_threads)
+        self._scratch: list[_Scratch] = []
         self.table = engine.hold(codes_query(design), "binning the development rows once for the fit")
 
     def close(self) -> None:
@@ -91,7 +92,7 @@ class StreamedPasses(EnginePasses):
             selected.append(exp.alias_(found, x_column(j), quoted=True))
         return exp.select(*selected).from_(table_path(self.table))
 
-    def __call__(self, betas: Mapping[int, np.ndarray], hessian: bool = True) -> dict[int, FoldSums]:
+    def __call__(self, betas: Mapping[int, np.ndarray], hessian: bool = True, rough: bool = False) -> dict[int, FoldSums]:
         self.count += 1
         p, k = self.design.columns, self.fold_count
         betas = {m: np.asarray(b, dtype=float) for m, b in betas.items()}
@@ -103,64 +104,86 @@ class StreamedPasses(EnginePasses):
         # spinning beside DuckDB's made a pass three times slower on a busy two-core machine
         # (scoremon bench); the cores are used by summing several batches at once instead
         with threadpool_limits(1, user_api="blas"):
-            for part in _in_parallel(batches, lambda batch, scratch: self._batch(batch, betas, scratch, hessian),
-                                     lambda: _Scratch(BATCH_ROWS, p), self.threads):
+            for part in _in_parallel(batches, lambda batch, scratch: self._batch(batch, betas, scratch, hessian, rough),
+                                     self._spaces()):
                 _add(total, part)
         return total
 
+    def _spaces(self) -> list["_Scratch"]:
+        """One scratch space per thread, kept for the whole fit: fresh buffers on every pass
+        cost their pages' first touch each time, and the threads' page faults queue for the
+        process's memory map (a pass was a third slower)."""
+        while len(self._scratch) < self.threads:
+            self._scratch.append(_Scratch(BATCH_ROWS, self.design.columns))
+        return self._scratch[:self.threads]
+
     def _batch(self, batch: Mapping[str, np.ndarray], betas: Mapping[int, np.ndarray], scratch: "_Scratch",
-               hessian: bool = True) -> dict[int, FoldSums]:
+               hessian: bool = True, rough: bool = False) -> dict[int, FoldSums]:
         """One batch's sums per model and fold (a fold model's own fold: loss, rows and extreme
-        rows only, as its gradient and Hessian there are never read; no Hessian if not ``hessian``)."""
+        rows only, as its gradient and Hessian there are never read; no Hessian if not ``hessian``,
+        in single precision if ``rough``: half the time of that product and its operand).
+
+        Fold by fold, each fold's rows as one contiguous design block (:meth:`_Scratch.design`),
+        for ``np.dot`` (see :class:`_Scratch`)."""
         p, k = self.design.columns, self.fold_count
         folds = np.asarray(batch[FOLD])
         n = len(folds)
         # the held rows are in fold order (codes_query), so a batch's folds are slices; a sort
         # is the fallback should an engine not keep the order
         order = None if k == 1 or bool(np.all(folds[1:] >= folds[:-1])) else np.argsort(folds, kind="stable")
-        x = scratch.x[:n]
-        for j in range(1, p):
-            codes = np.asarray(batch[bin_column(j)])
-            # mode="clip" skips the per-element bounds check of the default mode (ten times
-            # slower on small integers); every code is in range, as the CASE yields a bin's
-            # position for every row (its ELSE is a bin)
-            np.take(self.woe[j - 1], codes if order is None else codes[order], out=x[:, j], mode="clip")
+        codes = [np.asarray(batch[bin_column(j)]) for j in range(1, p)]
         y = np.asarray(batch[Y], dtype=float)
         if order is not None:
-            y, folds = y[order], folds[order]
+            codes, y, folds = [c[order] for c in codes], y[order], folds[order]
         edges = np.searchsorted(folds, np.arange(k + 1)) if k > 1 else np.array([0, n])
         models = list(betas)
-        etas = np.stack([betas[m] for m in models]) @ x.T  # one product for every model's η
-        sums = {}
-        for eta, m in zip(etas, models):
-            s = sums[m] = FoldSums(np.zeros((k, p)), np.zeros((k, p, p)) if hessian else None, np.zeros(k),
-                                   np.zeros(k), np.zeros(k))
-            terms = scratch.terms(eta, y)
-            for f in range(k):
-                a, b = edges[f], edges[f + 1]
-                if a == b:
-                    continue
+        coefficients = np.stack([betas[m] for m in models])
+        sums = {m: FoldSums(np.zeros((k, p)), np.zeros((k, p, p)) if hessian else None, np.zeros(k), np.zeros(k),
+                            np.zeros(k)) for m in models}
+        for f in range(k):
+            a, b = edges[f], edges[f + 1]
+            if a == b:
+                continue
+            x = scratch.design(b - a)
+            x[:, 0] = 1.0
+            for j in range(1, p):
+                # mode="clip" skips the per-element bounds check of the default mode (ten times
+                # slower on small integers); every code is in range, as the CASE yields a bin's
+                # position for every row (its ELSE is a bin)
+                np.take(self.woe[j - 1], codes[j - 1][a:b], out=x[:, j], mode="clip")
+            etas = np.dot(coefficients, x.T)  # one product for every model's η
+            if hessian and rough:
+                x_rough = scratch.design(b - a, np.float32)
+                np.copyto(x_rough, x)
+            for eta, m in zip(etas, models):
+                s = sums[m]
+                terms = scratch.terms(eta, y[a:b])
                 s.rows[f] = b - a
-                s.extreme[f] = np.count_nonzero(terms.extreme[a:b])
-                s.loss[f] = terms.loss(a, b)
+                s.extreme[f] = np.count_nonzero(terms.extreme)
+                s.loss[f] = terms.loss()
                 if f == m:
                     continue
-                s.gradient[f] = x[a:b].T @ terms.residual[a:b]
-                if not hessian:
-                    continue
-                # Z = √w·x, so that ZᵀZ is one symmetric product (BLAS syrk, half the work of xᵀ(w·x))
-                z = np.multiply(x[a:b], terms.root_weight[a:b, None], out=scratch.z[a:b])
-                s.hessian[f] = z.T @ z
+                s.gradient[f] = np.dot(x.T, terms.residual)
+                if hessian:
+                    # Z = √w·x, so that ZᵀZ is one symmetric product (BLAS syrk, half the work of xᵀ(w·x))
+                    if rough:
+                        root = scratch.rough_root(b - a)
+                        np.copyto(root, terms.root_weight)
+                        z = np.multiply(x_rough, root[:, None], out=scratch.weighted(b - a, np.float32))
+                    else:
+                        z = np.multiply(x, terms.root_weight[:, None], out=scratch.weighted(b - a))
+                    s.hessian[f] = np.dot(z.T, z)
         return sums
 
 
 class _RowTerms:
-    """Per row of a batch, for one model's η: the residual μ − y, √w = √(μ(1 − μ)), whether
-    |η| > :data:`~scoremon.develop.newton.EXTREME_ETA`, and the loss summed over a slice.
+    """Per row of a fold's rows in a batch, for one model's η: the residual μ − y,
+    √w = √(μ(1 − μ)), whether |η| > :data:`~scoremon.develop.newton.EXTREME_ETA`, and the loss
+    summed over the rows.
 
     All from one exponential, s = e^(−|η|/2), t = s² = e^(−|η|), r = 1/(1 + t):
     μ = r for η ≥ 0 and t·r below, w = t·r², √w = s·r, loss = max(η, 0) + ln(1 + t) − yη.
-    Nothing overflows (s ≤ 1), and the logarithms of a slice are taken of products of
+    Nothing overflows (s ≤ 1), and the logarithms are taken of products of
     :data:`LOG_CHUNK` factors 1 + t ∈ (1, 2] (each product < 2^512): one logarithm per chunk
     rather than per row, for a relative error below 10⁻¹³ per chunk.
     """
@@ -179,9 +202,9 @@ class _RowTerms:
         self.residual = np.subtract(mu, y, out=mu)
         self.one_plus_t = np.add(t, 1.0, out=t)
 
-    def loss(self, a: int, b: int) -> float:
-        eta = self.eta[a:b]
-        return float(np.maximum(eta, 0.0).sum() - self.y[a:b] @ eta + _sum_of_logs(self.one_plus_t[a:b]))
+    def loss(self) -> float:
+        eta = self.eta
+        return float(np.maximum(eta, 0.0).sum() - np.dot(self.y, eta) + _sum_of_logs(self.one_plus_t))
 
 
 LOG_CHUNK = 512
@@ -195,15 +218,40 @@ def _sum_of_logs(values: np.ndarray) -> float:
 
 
 class _Scratch:
-    """One worker's buffers for a batch, allocated once per pass: the float design and √w·design
-    (column-major, so that each lookup writes one contiguous column) and a model's row terms."""
+    """One worker's buffers for a batch, kept for the whole fit: a fold's float design and
+    √w·design, and a model's row terms.
+
+    A fold's design is a contiguous column-major block (each lookup writes one contiguous
+    column), as its products go through ``np.dot``: numpy's ``@`` holds the GIL through its
+    BLAS call, so two threads' products ran one after the other (measured: no gain from a
+    second thread), while ``np.dot`` releases it but takes the BLAS route only for contiguous
+    operands (a row slice of a larger column-major array was six times slower).
+    """
 
     def __init__(self, rows: int, columns: int):
-        self.x = np.empty((rows, columns), order="F")
-        self.x[:, 0] = 1.0
-        self.z = np.empty((rows, columns), order="F")
+        self.rows, self.columns = rows, columns
+        self._buffers: dict = {}
         self.size, self.root, self.reciprocal, self.residual = (np.empty(rows) for _ in range(4))
         self.extreme = np.empty(rows, dtype=bool)
+
+    def design(self, rows: int, dtype=np.float64) -> np.ndarray:
+        return self._matrix("design", rows, dtype)
+
+    def weighted(self, rows: int, dtype=np.float64) -> np.ndarray:
+        return self._matrix("weighted", rows, dtype)
+
+    def rough_root(self, rows: int) -> np.ndarray:
+        return self._buffer("root", self.rows, np.float32)[:rows]
+
+    def _matrix(self, name: str, rows: int, dtype) -> np.ndarray:
+        """A ``rows`` × columns column-major view of the buffer ``name``."""
+        return self._buffer(name, self.rows * self.columns, dtype)[:rows * self.columns].reshape(self.columns, rows).T
+
+    def _buffer(self, name: str, size: int, dtype) -> np.ndarray:
+        key = (name, np.dtype(dtype))
+        if key not in self._buffers:  # made on first use: the single-precision ones only for rough passes
+            self._buffers[key] = np.empty(size, dtype=dtype)
+        return self._buffers[key]
 
     def terms(self, eta: np.ndarray, y: np.ndarray) -> _RowTerms:
         return _RowTerms(eta, y, self)
@@ -218,20 +266,19 @@ def _add(total: Mapping[int, FoldSums], part: Mapping[int, FoldSums]) -> None:
                 mine += more
 
 
-def _in_parallel(items: Iterator, work, scratch, threads: int) -> Iterator:
-    """``work(item, scratch)`` for each item on ``threads`` threads, each with a scratch space of
-    its own, yielding the results in the items' order (so that sums are added in the same order
-    whatever the threads' timing, and a fit is the same run after run). At most ``threads``
-    items are in flight, so memory stays bounded by the batches, not the table; numpy releases
-    the GIL in the lookups, the ufuncs and BLAS, so the threads run at once."""
-    if threads == 1:
-        space = scratch()
+def _in_parallel(items: Iterator, work, spaces: Sequence) -> Iterator:
+    """``work(item, space)`` for each item on one thread per scratch space in ``spaces``,
+    yielding the results in the items' order (so that sums are added in the same order
+    whatever the threads' timing, and a fit is the same run after run). At most one item per
+    thread is in flight, so memory stays bounded by the batches, not the table; numpy releases
+    the GIL in the lookups, the ufuncs and ``np.dot``, so the threads run at once."""
+    if len(spaces) == 1:
         for item in items:
-            yield work(item, space)
+            yield work(item, spaces[0])
         return
     free: queue.SimpleQueue = queue.SimpleQueue()
-    for _ in range(threads):
-        free.put(scratch())
+    for space in spaces:
+        free.put(space)
 
     def run(item):
         space = free.get()
@@ -240,10 +287,10 @@ def _in_parallel(items: Iterator, work, scratch, threads: int) -> Iterator:
         finally:
             free.put(space)
 
-    with ThreadPoolExecutor(threads, thread_name_prefix="scoremon-fit") as pool:
+    with ThreadPoolExecutor(len(spaces), thread_name_prefix="scoremon-fit") as pool:
         pending: deque = deque()
         for item in items:
-            if len(pending) >= threads:
+            if len(pending) >= len(spaces):
                 yield pending.popleft().result()
             pending.append(pool.submit(run, item))
         while pending:

@@ -160,9 +160,9 @@ class _Recording(DensePasses):
         super().__init__(*args)
         self.asked: list[bool] = []
 
-    def __call__(self, betas, hessian=True):
+    def __call__(self, betas, hessian=True, rough=False):
         self.asked.append(hessian)
-        return super().__call__(betas, hessian)
+        return super().__call__(betas, hessian, rough)
 
 
 @pytest.mark.parametrize("alpha", [0.0, 1.0])

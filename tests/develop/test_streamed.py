@@ -65,6 +65,19 @@ def test_sums_do_not_depend_on_the_threads_timing(loaded):
             assert np.array_equal(again[m].loss, one[m].loss)
 
 
+def test_a_rough_hessian_is_the_exact_one_in_single_precision(loaded):
+    # a penalised fit's passes may sum the Hessian in float32 (README, Fitting): only the
+    # Hessian changes, by no more than single precision's rounding; gradient and loss are the
+    # double-precision sums, bit for bit
+    passes, dense = loaded
+    exact, rough = passes(BETAS), passes(BETAS, rough=True)
+    for m in BETAS:
+        assert rough[m].hessian.dtype == np.float64
+        np.testing.assert_allclose(rough[m].hessian, dense(BETAS)[m].hessian, rtol=1e-5, atol=1e-4)
+        assert not np.array_equal(rough[m].hessian, exact[m].hessian)  # it is the float32 route
+        assert np.array_equal(rough[m].gradient, exact[m].gradient) and np.array_equal(rough[m].loss, exact[m].loss)
+
+
 def test_a_batch_with_folds_out_of_order_is_sorted(loaded):
     # the held table is in fold order; a batch whose rows come shuffled gives the same sums
     passes, _ = loaded
