@@ -111,7 +111,9 @@ def fit_binning(engine: Engine, source: exp.Expression, table: str, binning: Bin
         warnings = list(chosen.warnings)
 
         try:
-            plain = final if settings.penalty == "none" else fit_one(passes, p, Penalty(), start=final,
+            # from the smallest λ's fit, the nearest to the unpenalised one (fewer steps than the chosen λ)
+            nearest = min(path.points, key=lambda point: point.lam).fit
+            plain = final if settings.penalty == "none" else fit_one(passes, p, Penalty(), start=nearest,
                                                                      model=settings.folds)
         except SingularDesignError as error:
             if settings.penalty == "none":

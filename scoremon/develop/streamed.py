@@ -157,7 +157,7 @@ class StreamedPasses(EnginePasses):
                 np.copyto(x_rough, x)
             for eta, m in zip(etas, models):
                 s = sums[m]
-                terms = scratch.terms(eta, y[a:b])
+                terms = scratch.terms(eta, y[a:b], loss_only=f == m)
                 s.rows[f] = b - a
                 s.extreme[f] = np.count_nonzero(terms.extreme)
                 s.loss[f] = terms.loss()
@@ -188,11 +188,15 @@ class _RowTerms:
     rather than per row, for a relative error below 10⁻¹³ per chunk.
     """
 
-    def __init__(self, eta: np.ndarray, y: np.ndarray, space: "_Scratch"):
+    def __init__(self, eta: np.ndarray, y: np.ndarray, space: "_Scratch", loss_only: bool = False):
         n = len(eta)
         self.eta, self.y = eta, y
         size = np.abs(eta, out=space.size[:n])
         self.extreme = np.greater(size, EXTREME_ETA, out=space.extreme[:n])
+        if loss_only:  # a fold model's own fold: its loss and extreme rows are all that is read
+            t = np.exp(np.negative(size, out=space.root[:n]), out=space.root[:n])
+            self.one_plus_t = np.add(t, 1.0, out=t)
+            return
         s = np.exp(np.multiply(size, -0.5, out=space.root[:n]), out=space.root[:n])
         t = np.multiply(s, s, out=space.size[:n])
         r = np.reciprocal(np.add(t, 1.0, out=space.reciprocal[:n]), out=space.reciprocal[:n])
@@ -253,8 +257,8 @@ class _Scratch:
             self._buffers[key] = np.empty(size, dtype=dtype)
         return self._buffers[key]
 
-    def terms(self, eta: np.ndarray, y: np.ndarray) -> _RowTerms:
-        return _RowTerms(eta, y, self)
+    def terms(self, eta: np.ndarray, y: np.ndarray, loss_only: bool = False) -> _RowTerms:
+        return _RowTerms(eta, y, self, loss_only)
 
 
 def _add(total: Mapping[int, FoldSums], part: Mapping[int, FoldSums]) -> None:
